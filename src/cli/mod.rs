@@ -1,0 +1,1 @@
+pub fn run() -> std::process::ExitCode { std::process::ExitCode::SUCCESS }

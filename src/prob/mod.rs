@@ -1,0 +1,23 @@
+//! The probability engine: everything concord computes is the probability that a
+//! correlated gaussian vector lands in a polytope, possibly integrated over a fault
+//! amplitude and optimised over an unknown spread.
+//!
+//! - [`normal`]: the standard normal CDF, its complement and quantile, accurate in both tails.
+//! - [`bivariate`]: bivariate normal rectangle probabilities (Genz 2004).
+//! - [`polytope`]: `P(l <= A x <= u)` for `x ~ N(mu, Sigma)` (Genz 1992; Genz and Bretz 2009).
+//! - [`quadrature`]: adaptive Gauss–Kronrod integration (QUADPACK style).
+//! - [`optimise`]: Brent's bounded minimisation and a scan that keeps every local minimum.
+//! - [`tolerance`]: the named numerical tolerances shared by the engine.
+
+pub mod bivariate;
+pub mod error;
+pub mod estimate;
+pub mod normal;
+pub mod optimise;
+pub mod polytope;
+pub mod quadrature;
+pub mod rng;
+pub mod tolerance;
+
+pub use error::ProbError;
+pub use estimate::Estimate;
