@@ -11,10 +11,19 @@ pub enum ProbError {
     NonFinite { what: String, value: f64 },
     /// Sizes of vectors or matrices do not fit together.
     #[error("size mismatch in {what}: expected {expected}, found {found}")]
-    DimensionMismatch { what: String, expected: usize, found: usize },
+    DimensionMismatch {
+        what: String,
+        expected: usize,
+        found: usize,
+    },
     /// The covariance matrix is not symmetric.
     #[error("covariance is not symmetric at ({row}, {col}): {a} vs {b}")]
-    NotSymmetric { row: usize, col: usize, a: f64, b: f64 },
+    NotSymmetric {
+        row: usize,
+        col: usize,
+        a: f64,
+        b: f64,
+    },
     /// The covariance matrix is not positive semi-definite.
     #[error("covariance is not positive semi-definite: {detail}")]
     NotPositiveSemiDefinite { detail: String },
@@ -23,7 +32,11 @@ pub enum ProbError {
     InvertedBounds { row: usize, lower: f64, upper: f64 },
     /// A problem is larger than the engine accepts.
     #[error("{what} is {found}, more than the limit of {limit}")]
-    TooLarge { what: String, limit: usize, found: usize },
+    TooLarge {
+        what: String,
+        limit: usize,
+        found: usize,
+    },
     /// An argument is outside its allowed range.
     #[error("invalid argument: {0}")]
     InvalidArgument(String),
@@ -32,5 +45,9 @@ pub enum ProbError {
         "tolerance not met: error estimate {achieved:.3e} after {points} points, \
          requested {requested:.3e}; raise the point budget or loosen the tolerance"
     )]
-    BudgetExhausted { achieved: f64, requested: f64, points: usize },
+    BudgetExhausted {
+        achieved: f64,
+        requested: f64,
+        points: usize,
+    },
 }

@@ -17,32 +17,50 @@ pub struct Estimate {
 impl Estimate {
     /// A value whose error is only floating-point rounding, `rel` relative to the value.
     pub fn exact(value: f64) -> Self {
-        Self { value, error: value.abs() * crate::prob::tolerance::ROUNDING_REL }
+        Self {
+            value,
+            error: value.abs() * crate::prob::tolerance::ROUNDING_REL,
+        }
     }
 
     /// A value with an explicit absolute error bound.
     pub fn new(value: f64, error: f64) -> Self {
-        Self { value, error: error.abs() }
+        Self {
+            value,
+            error: error.abs(),
+        }
     }
 
     /// Zero, exactly.
     pub fn zero() -> Self {
-        Self { value: 0.0, error: 0.0 }
+        Self {
+            value: 0.0,
+            error: 0.0,
+        }
     }
 
     /// The sum of two estimates; errors add.
     pub fn add(self, other: Self) -> Self {
-        Self { value: self.value + other.value, error: self.error + other.error }
+        Self {
+            value: self.value + other.value,
+            error: self.error + other.error,
+        }
     }
 
     /// The estimate scaled by a non-negative exact weight.
     pub fn scale(self, weight: f64) -> Self {
-        Self { value: self.value * weight, error: self.error * weight.abs() }
+        Self {
+            value: self.value * weight,
+            error: self.error * weight.abs(),
+        }
     }
 
     /// The value clamped to `[0, 1]`, keeping the error bound.
     pub fn clamp_probability(self) -> Self {
-        Self { value: self.value.clamp(0.0, 1.0), error: self.error }
+        Self {
+            value: self.value.clamp(0.0, 1.0),
+            error: self.error,
+        }
     }
 }
 
