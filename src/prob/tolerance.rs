@@ -21,3 +21,21 @@ pub const PARALLEL_ROW_ABS: f64 = 1e-12;
 
 /// Relative asymmetry allowed in a covariance matrix before it is rejected.
 pub const SYMMETRY_REL: f64 = 1e-10;
+
+/// QUADPACK's rounding floor for the error of one Gauss–Kronrod interval: `50 eps` times
+/// the integral of `|f|` over it (Piessens et al. 1983, routine QK21).
+pub const QUADPACK_ROUNDOFF_REL: f64 = 50.0 * f64::EPSILON;
+
+/// An interval narrower than this fraction of the magnitude of its ends is not bisected any
+/// more: its nodes would no longer be distinct in floating point.
+pub const QUADRATURE_MIN_WIDTH_REL: f64 = 128.0 * f64::EPSILON;
+
+/// Smallest relative tolerance on the abscissa that Brent's minimisation accepts; smaller
+/// requests are raised to it so that steps never fall below the spacing of doubles.
+/// (Brent 1973, ch. 5: the minimiser of a smooth function is only determined to about
+/// `sqrt(eps)` relative, so tolerances below that buy nothing for smooth functions.)
+pub const BRENT_X_REL_FLOOR: f64 = 4.0 * f64::EPSILON;
+
+/// Absolute part of Brent's abscissa tolerance, as a fraction of the bracket's width times
+/// the relative tolerance, so that a minimum at or near zero still terminates.
+pub const BRENT_X_ABS_FRACTION: f64 = 1e-6;
