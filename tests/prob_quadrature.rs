@@ -50,7 +50,11 @@ fn reference(name: &str) -> f64 {
         .skip(1)
         .find_map(|l| {
             let (n, v) = l.split_once(',')?;
-            if n == name { v.trim().parse().ok() } else { None }
+            if n == name {
+                v.trim().parse().ok()
+            } else {
+                None
+            }
         })
         .unwrap_or_else(|| panic!("no reference value {name}"))
 }
@@ -59,7 +63,13 @@ fn reference(name: &str) -> f64 {
 fn integral_of_phi_matches_its_antiderivative() {
     // Common calculus identity: d/dx [x Phi(x) + phi(x)] = Phi(x) (since phi' = -x phi).
     let anti = |x: f64| x * cdf(x) + pdf(x);
-    for (a, b) in [(-5.0, 5.0), (-1.0, 2.5), (0.0, 10.0), (-30.0, 0.0), (-8.0, -3.0)] {
+    for (a, b) in [
+        (-5.0, 5.0),
+        (-1.0, 2.5),
+        (0.0, 10.0),
+        (-30.0, 0.0),
+        (-8.0, -3.0),
+    ] {
         let r = integrate(|x| Ok(Estimate::exact(cdf(x))), a, b, &[], &opts()).unwrap();
         let truth = anti(b) - anti(a);
         assert_covers(
@@ -68,7 +78,10 @@ fn integral_of_phi_matches_its_antiderivative() {
             truth,
             rounding(anti(a).abs() + anti(b).abs()),
         );
-        assert!(r.error <= 1e-8 * truth.abs() + 1e-12 + 1e-13, "bound too loose: {r:?}");
+        assert!(
+            r.error <= 1e-8 * truth.abs() + 1e-12 + 1e-13,
+            "bound too loose: {r:?}"
+        );
     }
 }
 
@@ -93,29 +106,54 @@ fn kronrod_rule_is_exact_to_degree_31_and_gauss_to_19() {
         let k_err = (r.kronrod - truth).abs() / truth;
         let g_err = (r.gauss - truth).abs() / truth;
         if k <= 31 {
-            assert!(k_err < 1e-14, "Kronrod not exact for x^{k} on [0, 1]: {k_err:e}");
+            assert!(
+                k_err < 1e-14,
+                "Kronrod not exact for x^{k} on [0, 1]: {k_err:e}"
+            );
         }
         if k <= 19 {
-            assert!(g_err < 1e-14, "Gauss not exact for x^{k} on [0, 1]: {g_err:e}");
+            assert!(
+                g_err < 1e-14,
+                "Gauss not exact for x^{k} on [0, 1]: {g_err:e}"
+            );
         } else {
-            assert!(g_err > 1e-12, "Gauss unexpectedly exact for x^{k}: {g_err:e}");
+            assert!(
+                g_err > 1e-12,
+                "Gauss unexpectedly exact for x^{k}: {g_err:e}"
+            );
         }
         // The interval's error estimate covers the Kronrod value's error.
         assert!((r.kronrod - truth).abs() <= r.error, "x^{k}: {r:?}");
 
         let r = gauss_kronrod_21(plain(|x| x.powi(k)), -1.0, 1.0).unwrap();
-        let truth = if k % 2 == 0 { 2.0 / f64::from(k + 1) } else { 0.0 };
+        let truth = if k % 2 == 0 {
+            2.0 / f64::from(k + 1)
+        } else {
+            0.0
+        };
         let k_err = (r.kronrod - truth).abs();
         let g_err = (r.gauss - truth).abs();
         if k <= 31 {
-            assert!(k_err < 1e-15, "Kronrod not exact for x^{k} on [-1, 1]: {k_err:e}");
+            assert!(
+                k_err < 1e-15,
+                "Kronrod not exact for x^{k} on [-1, 1]: {k_err:e}"
+            );
         } else if k % 2 == 0 {
-            assert!(k_err > 1e-13, "Kronrod unexpectedly exact for x^{k}: {k_err:e}");
+            assert!(
+                k_err > 1e-13,
+                "Kronrod unexpectedly exact for x^{k}: {k_err:e}"
+            );
         }
         if k <= 19 || k % 2 == 1 {
-            assert!(g_err < 1e-15, "Gauss not exact for x^{k} on [-1, 1]: {g_err:e}");
+            assert!(
+                g_err < 1e-15,
+                "Gauss not exact for x^{k} on [-1, 1]: {g_err:e}"
+            );
         } else {
-            assert!(g_err > 1e-8, "Gauss unexpectedly exact for x^{k}: {g_err:e}");
+            assert!(
+                g_err > 1e-8,
+                "Gauss unexpectedly exact for x^{k}: {g_err:e}"
+            );
         }
         assert!((r.kronrod - truth).abs() <= r.error, "x^{k}: {r:?}");
     }
@@ -161,7 +199,12 @@ fn normal_cdf_against_normal_density_over_the_line() {
         )
         .unwrap();
         let truth = cdf(a / (1.0_f64 + b * b).sqrt());
-        assert_covers(&format!("Phi({a}+{b}x) phi(x) on R"), &r, truth, rounding(truth));
+        assert_covers(
+            &format!("Phi({a}+{b}x) phi(x) on R"),
+            &r,
+            truth,
+            rounding(truth),
+        );
     }
 }
 
@@ -173,7 +216,12 @@ fn kink_is_cheaper_with_its_breakpoint() {
     let with = integrate(plain(|x: f64| (x - c).abs()), 0.0, 1.0, &[c], &opts()).unwrap();
     let without = integrate(plain(|x: f64| (x - c).abs()), 0.0, 1.0, &[], &opts()).unwrap();
     assert_covers("|x - 1/3| with breakpoint", &with, truth, rounding(1.0));
-    assert_covers("|x - 1/3| without breakpoint", &without, truth, rounding(1.0));
+    assert_covers(
+        "|x - 1/3| without breakpoint",
+        &without,
+        truth,
+        rounding(1.0),
+    );
     // Linear on each side of the breakpoint: one rule per piece suffices.
     assert_eq!(with.evaluations, 2 * RULE_POINTS);
     assert!(without.evaluations > 4 * with.evaluations, "{without:?}");
@@ -235,7 +283,12 @@ fn oscillatory_integrands() {
     )
     .unwrap();
     let truth = reference("exp_sin50_0_pi");
-    assert_covers("exp(-x) sin(50x) on [0, pi]", &r, truth, rounding(1.0 / 50.0));
+    assert_covers(
+        "exp(-x) sin(50x) on [0, pi]",
+        &r,
+        truth,
+        rounding(1.0 / 50.0),
+    );
 }
 
 #[test]
@@ -316,7 +369,10 @@ fn integrand_error_is_propagated() {
     let (with, without) = (run(e), run(0.0));
     let sp = std::f64::consts::PI.sqrt();
     assert_eq!(with.value, without.value);
-    assert!(((with.error - without.error) / (e * sp) - 1.0).abs() < 1e-9, "{with:?}");
+    assert!(
+        ((with.error - without.error) / (e * sp) - 1.0).abs() < 1e-9,
+        "{with:?}"
+    );
     // Reversed limits keep a positive bound.
     let r = integrate(|_| Ok(Estimate::new(1.0, e)), 1.0, 0.0, &[], &opts()).unwrap();
     assert_eq!(r.value, -1.0);

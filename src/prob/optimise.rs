@@ -54,7 +54,7 @@ pub struct Scan {
     pub minima: Vec<Minimum>,
 }
 
-/// Tolerance on the abscissa: `rel * |x| + abs`.
+/// Tolerance on the abscissa: the minimiser must end within `rel * |x| + abs` of `x`.
 #[derive(Debug, Clone, Copy)]
 struct XTol {
     rel: f64,
@@ -62,8 +62,10 @@ struct XTol {
 }
 
 impl XTol {
+    /// Brent's `tol1`: the loop stops when both ends of the bracket are within `2 tol1` of
+    /// the best point, so `tol1` is half the requested distance.
     fn at(self, x: f64) -> f64 {
-        self.rel * x.abs() + self.abs
+        0.5 * (self.rel * x.abs() + self.abs)
     }
 }
 
@@ -90,7 +92,7 @@ fn finite_value(what: &str, x: f64, v: f64) -> Result<f64, ProbError> {
 }
 
 fn check_rel_tol(x_tol_rel: f64) -> Result<f64, ProbError> {
-    if !(x_tol_rel > 0.0) || !x_tol_rel.is_finite() {
+    if !(x_tol_rel.is_finite() && x_tol_rel > 0.0) {
         return Err(ProbError::InvalidArgument(format!(
             "x_tol_rel must be a finite number > 0, got {x_tol_rel}"
         )));
@@ -242,7 +244,10 @@ where
     F: FnMut(f64) -> Result<f64, ProbError>,
 {
     let rel = check_rel_tol(x_tol_rel)?;
-    for (what, v) in [("the lower end of the range", a), ("the upper end of the range", b)] {
+    for (what, v) in [
+        ("the lower end of the range", a),
+        ("the upper end of the range", b),
+    ] {
         if !v.is_finite() {
             return Err(ProbError::NonFinite {
                 what: what.to_string(),
@@ -288,10 +293,13 @@ where
 
 /// Brent's (1973, ch. 5) bounded minimisation of `f` on `[a, b]`.
 ///
-/// Golden section and parabolic interpolation; stops when the bracket around the best point
-/// is within `x_tol_rel * |x| + 1e-6 * x_tol_rel * (b - a)` of it on both sides (`x_tol_rel`
-/// below [`BRENT_X_REL_FLOOR`] is raised to it). When the minimum converges onto an end of
-/// the range, `f` is evaluated at that end as well and `at_boundary` is set. Fails with
+/// Golden section and parabolic interpolation; stops when both ends of the bracket around the
+/// best point `x` are within `x_tol_rel * |x| + 1e-6 * x_tol_rel * (b - a)` of it, so that the
+/// minimiser of a unimodal `f` is that close to `x` (`x_tol_rel` below [`BRENT_X_REL_FLOOR`]
+/// is raised to it). Rounding limits this for smooth `f`: near the minimum `f` is flat, and
+/// `x` is determined only to about `sqrt(eps)` relative (Brent 1973, ch. 5). When the
+/// minimum converges onto an end of the range, `f` is evaluated at that end as well (budget
+/// permitting) and `at_boundary` is set. Fails with
 /// [`ProbError::BudgetExhausted`] after `max_evaluations` evaluations without convergence,
 /// with [`ProbError::NonFinite`] on a non-finite value of `f`, and with `f`'s own errors.
 pub fn brent_minimise<F>(
@@ -356,7 +364,7 @@ pub fn local_minima_indices(values: &[f64]) -> Vec<usize> {
 /// Needs `0 < lo < hi`, both finite, and `points >= 2`; fails if rounding would make two
 /// neighbouring values equal.
 pub fn log_grid(lo: f64, hi: f64, points: usize) -> Result<Vec<f64>, ProbError> {
-    if !(lo > 0.0) || !lo.is_finite() || !hi.is_finite() || !(hi > lo) {
+    if !(lo.is_finite() && hi.is_finite() && lo > 0.0 && hi > lo) {
         return Err(ProbError::InvalidArgument(format!(
             "a log grid needs finite ends with 0 < lo < hi, got lo = {lo}, hi = {hi}"
         )));
@@ -375,7 +383,7 @@ pub fn log_grid(lo: f64, hi: f64, points: usize) -> Result<Vec<f64>, ProbError> 
         grid.push((l0 + frac * (l1 - l0)).exp());
     }
     grid.push(hi);
-    if grid.windows(2).any(|w| !(w[1] > w[0])) {
+    if grid.windows(2).any(|w| w[1] <= w[0]) {
         return Err(ProbError::InvalidArgument(format!(
             "{points} points are too many to space distinctly between {lo} and {hi}; use fewer"
         )));
@@ -421,13 +429,13 @@ where
                 value: x,
             });
         }
-        if log_space && !(x > 0.0) {
+        if log_space && x <= 0.0 {
             return Err(ProbError::InvalidArgument(format!(
                 "grid point {i} is {x}; a log-space scan needs positive points"
             )));
         }
     }
-    if grid.windows(2).any(|w| !(w[1] > w[0])) {
+    if grid.windows(2).any(|w| w[1] <= w[0]) {
         return Err(ProbError::InvalidArgument(
             "the scan grid must be strictly increasing".to_string(),
         ));
