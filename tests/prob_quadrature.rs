@@ -228,6 +228,60 @@ fn kink_is_cheaper_with_its_breakpoint() {
 }
 
 #[test]
+fn narrow_features_bracketed_by_breakpoints() {
+    // A gaussian bump of width 1e-3, which the rule alone would step over, bracketed by
+    // breakpoints at its centre +- 8 widths: integral_{-1}^{1} exp(-((x - m) / s)^2) dx
+    // = s sqrt(pi) / 2 (erf((1 - m) / s) - erf((-1 - m) / s)) (substitution u = (x - m) / s).
+    let (m, s) = (0.123_456, 1e-3);
+    let truth = s * std::f64::consts::PI.sqrt() / 2.0
+        * (libm::erf((1.0 - m) / s) - libm::erf((-1.0 - m) / s));
+    let r = integrate(
+        plain(move |x: f64| (-((x - m) / s).powi(2)).exp()),
+        -1.0,
+        1.0,
+        &[m - 8.0 * s, m + 8.0 * s],
+        &opts(),
+    )
+    .unwrap();
+    assert_covers("bump width 1e-3, breakpoints", &r, truth, rounding(truth));
+    // A normal density far from the origin on the whole line integrates to 1 (a density),
+    // with its mean +- 8 sigma as breakpoints.
+    for (mean, sd) in [(-50.0, 1.0), (1e3, 1e-3), (1e6, 1e3)] {
+        let r = integrate(
+            plain(move |x: f64| pdf((x - mean) / sd) / sd),
+            -INF,
+            INF,
+            &[mean - 8.0 * sd, mean + 8.0 * sd],
+            &opts(),
+        )
+        .unwrap();
+        assert_covers(
+            &format!("N({mean}, {sd}^2) density on R"),
+            &r,
+            1.0,
+            rounding(1.0),
+        );
+    }
+}
+
+#[test]
+fn jumps_are_refined_honestly() {
+    // A unit jump at c on [0, 1] without a breakpoint: integral 1 - c (area of a rectangle);
+    // the interval holding the jump keeps a large estimate until it is tiny.
+    for c in [0.1, 1.0 / 3.0, 0.7237] {
+        let r = integrate(
+            plain(move |x: f64| if x < c { 0.0 } else { 1.0 }),
+            0.0,
+            1.0,
+            &[],
+            &opts(),
+        )
+        .unwrap();
+        assert_covers(&format!("jump at {c}"), &r, 1.0 - c, rounding(1.0));
+    }
+}
+
+#[test]
 fn breakpoints_are_sorted_deduplicated_and_clipped() {
     // The partition must not depend on the order, duplicates, or points outside (a, b).
     let f = || plain(|x: f64| (x - 0.25).abs() + (x - 0.7).abs() * x);
