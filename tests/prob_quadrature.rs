@@ -434,6 +434,23 @@ fn integrand_error_is_propagated() {
 }
 
 #[test]
+fn range_as_wide_as_the_doubles() {
+    // integral_{-L}^{L} 1 / (1 + (x / c)^2) dx = 2 c atan(L / c) (antiderivative c atan(x / c)),
+    // with L = 1e308 so that L - (-L) overflows if formed directly.
+    let (l, c) = (1e308, 1e307);
+    let r = integrate(
+        plain(move |x: f64| 1.0 / (1.0 + (x / c).powi(2))),
+        -l,
+        l,
+        &[],
+        &opts(),
+    )
+    .unwrap();
+    let truth = 2.0 * c * (l / c).atan();
+    assert_covers("Cauchy-like on [-1e308, 1e308]", &r, truth, rounding(truth));
+}
+
+#[test]
 fn reversed_and_empty_ranges() {
     // integral_b^a = -integral_a^b (orientation) and integral_a^a = 0.
     let f = || plain(|x: f64| x.exp());

@@ -196,8 +196,9 @@ fn apply_rule<F>(f: &mut F, lo: f64, hi: f64, map: Map) -> Result<RuleValues, Pr
 where
     F: FnMut(f64) -> Result<Estimate, ProbError>,
 {
-    let centre = 0.5 * (lo + hi);
-    let half = 0.5 * (hi - lo);
+    // Halves first, so that a range as wide as the doubles does not overflow.
+    let centre = 0.5 * lo + 0.5 * hi;
+    let half = 0.5 * hi - 0.5 * lo;
     let mut g = [0.0_f64; RULE_POINTS];
     let mut e = [0.0_f64; RULE_POINTS];
     for (i, &(node, _, _)) in GK21.iter().enumerate() {
@@ -251,10 +252,13 @@ where
     error = error.max(QUADPACK_ROUNDOFF_REL * resabs);
     let integrand_error = err_sum * scale;
     if !kronrod.is_finite() || !error.is_finite() || !integrand_error.is_finite() {
+        let (x0, x1) = (map.apply(lo).0, map.apply(hi).0);
         return Err(ProbError::NonFinite {
             what: format!(
-                "the quadrature sum on [{lo}, {hi}] (the integrand or its error bound \
-                 overflows; check that the integral converges)"
+                "the quadrature sum on [{}, {}] (the integrand or its error bound \
+                 overflows; check that the integral converges)",
+                x0.min(x1),
+                x0.max(x1)
             ),
             value: if kronrod.is_finite() { error } else { kronrod },
         });
@@ -391,7 +395,7 @@ fn initial_pieces(
 
 /// Whether `[lo, hi]` is too narrow to bisect meaningfully in floating point.
 fn too_narrow(lo: f64, hi: f64) -> bool {
-    let mid = 0.5 * (lo + hi);
+    let mid = 0.5 * lo + 0.5 * hi;
     let scale = lo.abs().max(hi.abs());
     !(mid > lo && mid < hi) || hi - lo <= QUADRATURE_MIN_WIDTH_REL * scale
 }
@@ -504,7 +508,7 @@ where
     let mut converged = quad_error <= tolerance(value);
     while !converged && open.len() + closed.len() < opts.max_intervals {
         let Some(worst) = open.pop() else { break };
-        let mid = 0.5 * (worst.lo + worst.hi);
+        let mid = 0.5 * worst.lo + 0.5 * worst.hi;
         let left = apply_rule(&mut f, worst.lo, mid, worst.map)?;
         let right = apply_rule(&mut f, mid, worst.hi, worst.map)?;
         evaluations += 2 * RULE_POINTS;
