@@ -39,7 +39,9 @@ impl Estimate {
         }
     }
 
-    /// The sum of two estimates; errors add.
+    /// The sum of two estimates; errors add. (A method rather than `std::ops::Add` so that
+    /// every place where bounds accumulate reads as such.)
+    #[allow(clippy::should_implement_trait)]
     pub fn add(self, other: Self) -> Self {
         Self {
             value: self.value + other.value,
