@@ -21,3 +21,10 @@ pub const PARALLEL_ROW_ABS: f64 = 1e-12;
 
 /// Relative asymmetry allowed in a covariance matrix before it is rejected.
 pub const SYMMETRY_REL: f64 = 1e-10;
+
+/// An eigenvalue of a correlation matrix above minus this counts as non-negative (rounding of
+/// the eigenvalue iteration on a singular but valid matrix, e.g. rho = 1).
+pub const CORRELATION_PSD_ABS: f64 = 1e-10;
+
+/// Weights of a `points` amplitude or a `weighted` output must sum to 1 within this.
+pub const WEIGHT_SUM_ABS: f64 = 1e-9;
