@@ -1,1 +1,155 @@
-//! (being written)
+//! Architecture files (TOML): reading, validation, the model graph and the compiled
+//! piecewise-linear gaussian model that the analysis integrates.
+//!
+//! Loading runs in stages, each collecting every problem it finds before the next one runs:
+//! 1. `tree`: TOML syntax (the toml crate's recoverable parser, with spans);
+//! 2. `overrides`: numeric values set by key path (sweeps);
+//! 3. `read`: key names, value types, required keys -> the raw model;
+//! 4. `validate` (with `functions`, `faults`, `psd`): names, references and numbers -> the
+//!    resolved model;
+//! 5. `graph`: the petgraph graph, cycles among signals, unused nodes (warnings);
+//! 6. `compile` (with `pieces`): mean, covariance, piecewise-linear functions, fault maps.
+//!
+//! The format is documented in docs/architecture-format.md.
+
+mod compile;
+mod compiled;
+mod describe;
+mod dot;
+mod error;
+mod faults;
+mod functions;
+mod graph;
+pub mod limits;
+mod overrides;
+mod pieces;
+mod psd;
+mod raw;
+mod read;
+mod resolved;
+mod text;
+mod tree;
+mod validate;
+
+use std::path::Path;
+
+pub use compiled::{
+    Amplitude, Architecture, CompiledCheck, CompiledFault, CompiledModel, Detection, FaultMode,
+    Guard, LinearForm, Piece, PiecewiseLinear,
+};
+pub use describe::describe;
+pub use dot::to_dot;
+pub use error::{Diagnostic, ModelError, Severity};
+pub use faults::default_sigma_range;
+pub use graph::{GraphNode, ModelGraph, NodeKind};
+
+/// Reads and compiles an architecture file.
+///
+/// # Errors
+/// [`ModelError::Read`] when the file cannot be read, [`ModelError::Invalid`] with every
+/// problem found when it is not a valid architecture.
+pub fn load(path: &Path) -> Result<Architecture, ModelError> {
+    let shown = path.display().to_string();
+    let read_error = |message: String, fix: &str| ModelError::Read {
+        diagnostic: Diagnostic {
+            file: shown.clone(),
+            line: 0,
+            column: 0,
+            key: String::new(),
+            message,
+            fix: fix.to_string(),
+            severity: Severity::Error,
+        },
+    };
+    if let Ok(meta) = std::fs::metadata(path) {
+        if meta.len() > limits::MAX_FILE_BYTES as u64 {
+            return Err(read_error(
+                format!(
+                    "the file has {} bytes, more than the limit of {} (an architecture file \
+                     has a few kilobytes)",
+                    meta.len(),
+                    limits::MAX_FILE_BYTES
+                ),
+                "give the architecture file, not a data file",
+            ));
+        }
+    }
+    let bytes = std::fs::read(path).map_err(|e| {
+        read_error(
+            format!("cannot read the file: {e}"),
+            "check the path and the permissions",
+        )
+    })?;
+    let text = String::from_utf8(bytes).map_err(|e| {
+        read_error(
+            format!("the file is not UTF-8 text (invalid byte at offset {})", e.utf8_error().valid_up_to()),
+            "save the file as UTF-8",
+        )
+    })?;
+    load_str(&text, &shown)
+}
+
+/// Compiles an architecture from its text; `path_for_messages` names it in diagnostics.
+///
+/// # Errors
+/// [`ModelError::Invalid`] with every problem found.
+pub fn load_str(text: &str, path_for_messages: &str) -> Result<Architecture, ModelError> {
+    load_str_with_overrides(text, path_for_messages, &[])
+}
+
+/// Like [`load_str`], with numeric values set by dotted key path before validation, e.g.
+/// `("safety.limit", 1.5)`, `("checks.ab.limit", 2.0)`, `("channels.a.sigma", 0.3)`,
+/// `("faults.a_drift.amplitude.gaussian.sigma", 2.0)`, `("correlations[0].rho", 0.5)`.
+///
+/// # Errors
+/// [`ModelError::Invalid`] with every problem found, including each path that names nothing
+/// in the file.
+pub fn load_str_with_overrides(
+    text: &str,
+    path_for_messages: &str,
+    overrides: &[(String, f64)],
+) -> Result<Architecture, ModelError> {
+    let mut sink = error::Sink::new(path_for_messages, text);
+    if text.len() > limits::MAX_FILE_BYTES {
+        sink.error_nowhere(
+            "",
+            format!(
+                "the text has {} bytes, more than the limit of {}",
+                text.len(),
+                limits::MAX_FILE_BYTES
+            ),
+            "give the architecture file, not a data file",
+        );
+        return Err(sink.finish().err().unwrap_or(ModelError::Invalid {
+            diagnostics: Vec::new(),
+        }));
+    }
+    let Some(mut root) = tree::parse(text, &mut sink) else {
+        return Err(sink.finish().err().unwrap_or(ModelError::Invalid {
+            diagnostics: Vec::new(),
+        }));
+    };
+    overrides::apply(&mut root, overrides, &mut sink);
+    let raw = read::read(&root, &mut sink);
+    let compiled = validate::validate(&raw, &mut sink).and_then(|resolved| {
+        let graph = graph::build(&resolved);
+        let order = graph::signal_order(&resolved, &graph, &mut sink)?;
+        graph::unused(&resolved, &graph, &mut sink);
+        let model = compile::compile(&resolved, &order, &mut sink)?;
+        Some((model, graph))
+    });
+    let warnings = sink.finish()?;
+    let Some((model, graph)) = compiled else {
+        // every path without a model records an error, so this is not reached
+        return Err(ModelError::Invalid {
+            diagnostics: Vec::new(),
+        });
+    };
+    Ok(Architecture {
+        path: path_for_messages.to_string(),
+        source: text.to_string(),
+        model,
+        graph,
+        warnings,
+    })
+}

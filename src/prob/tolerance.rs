@@ -39,3 +39,9 @@ pub const BRENT_X_REL_FLOOR: f64 = 4.0 * f64::EPSILON;
 /// Absolute part of Brent's abscissa tolerance, as a fraction of the bracket's width times
 /// the relative tolerance, so that a minimum at or near zero still terminates.
 pub const BRENT_X_ABS_FRACTION: f64 = 1e-6;
+/// An eigenvalue of a correlation matrix above minus this counts as non-negative (rounding of
+/// the eigenvalue iteration on a singular but valid matrix, e.g. rho = 1).
+pub const CORRELATION_PSD_ABS: f64 = 1e-10;
+
+/// Weights of a `points` amplitude or a `weighted` output must sum to 1 within this.
+pub const WEIGHT_SUM_ABS: f64 = 1e-9;

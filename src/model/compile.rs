@@ -1,0 +1,360 @@
+//! From the resolved model to the compiled one: mean vector and covariance of the channel
+//! deviations, the piecewise-linear output, checks and signals, and the fault maps.
+//!
+//! With channel systematic means `m`, own sigmas `D = diag(s)`, own correlation `R`, source
+//! gains `G` (n x s), source means `mu_s` and sigmas `S = diag(sigma_s)`:
+//! `x = m + G mu_s + D u + G S v` with `u ~ N(0, R)`, `v ~ N(0, I)` independent, so
+//! `mean = m + G mu_s` and `covariance = D R D + G S^2 G^T`.
+
+use nalgebra::DMatrix;
+
+use super::compiled::*;
+use super::error::Sink;
+use super::limits;
+use super::pieces::{Builder, OrderKind, PieceError, Pw};
+use super::resolved::*;
+use super::text::linear_formula;
+
+/// Coefficient sums of the pieces of the output must be 1 and of a check 0 within this
+/// (only a warning is given otherwise).
+const TRUTH_GAIN_ABS: f64 = 1e-9;
+
+/// Compiles a resolved model; signals are built in `order` (inputs first).
+pub(crate) fn compile(v: &Resolved, order: &[usize], sink: &mut Sink<'_>) -> Option<CompiledModel> {
+    let n = v.channels.len();
+    let s = v.sources.len();
+    let mut gains = DMatrix::<f64>::zeros(n, s);
+    for (i, c) in v.channels.iter().enumerate() {
+        for (j, g) in &c.from {
+            gains[(i, *j)] += *g;
+        }
+    }
+    let source_means: Vec<f64> = v.sources.iter().map(|x| x.mean).collect();
+    let source_sigmas: Vec<f64> = v.sources.iter().map(|x| x.sigma).collect();
+    let own_sigmas: Vec<f64> = v.channels.iter().map(|c| c.sigma).collect();
+    let mean: Vec<f64> = (0..n)
+        .map(|i| v.channels[i].mean + (0..s).map(|j| gains[(i, j)] * source_means[j]).sum::<f64>())
+        .collect();
+    let mut own_correlation = DMatrix::<f64>::identity(n, n);
+    for (i, j, rho) in &v.correlations {
+        own_correlation[(*i, *j)] = *rho;
+        own_correlation[(*j, *i)] = *rho;
+    }
+    let mut covariance = DMatrix::<f64>::zeros(n, n);
+    for i in 0..n {
+        for j in i..n {
+            let own = own_sigmas[i] * own_correlation[(i, j)] * own_sigmas[j];
+            let shared: f64 = (0..s)
+                .map(|k| gains[(i, k)] * source_sigmas[k] * source_sigmas[k] * gains[(j, k)])
+                .sum();
+            covariance[(i, j)] = own + shared;
+            covariance[(j, i)] = own + shared;
+        }
+    }
+
+    let mut b = Builder::new(n);
+    let channel_pw: Vec<Pw> = (0..n).map(|i| b.linear(LinearForm::coordinate(n, i))).collect();
+    let mut signal_pw: Vec<Option<Pw>> = vec![None; v.signals.len()];
+    let names = Names { v };
+    for &i in order {
+        let sig = &v.signals[i];
+        let built = build(&mut b, &sig.def, &channel_pw, &signal_pw, None);
+        signal_pw[i] = Some(report(built, sink, &sig.loc, "the signal")?);
+    }
+    let output_pw = report(
+        build(&mut b, &v.output.def, &channel_pw, &signal_pw, None),
+        sink,
+        &v.output.loc,
+        "the output",
+    )?;
+    let mut checks = Vec::new();
+    for c in &v.checks {
+        let built = build(&mut b, &c.def, &channel_pw, &signal_pw, Some(&output_pw));
+        let pw = report(built, sink, &c.loc, "the check")?;
+        checks.push(CompiledCheck {
+            name: c.name.clone(),
+            function: b.export(&pw),
+            lower: c.lower,
+            upper: c.upper,
+            description: names.describe(&c.def),
+        });
+    }
+    let output = b.export(&output_pw);
+    warn_truth_gain(&output, 1.0, sink, &v.output.loc, "the output", "1");
+    for (c, vc) in checks.iter().zip(&v.checks) {
+        warn_truth_gain(&c.function, 0.0, sink, &vc.loc, "the check", "0");
+    }
+    let mut signals = Vec::new();
+    for (i, sig) in v.signals.iter().enumerate() {
+        let pw = signal_pw[i].as_ref()?;
+        signals.push((sig.name.clone(), b.export(pw)));
+    }
+    let faults = v
+        .faults
+        .iter()
+        .map(|f| fault(f, &gains, n, sink))
+        .collect();
+    Some(CompiledModel {
+        name: v.name.clone(),
+        unit: v.unit.clone(),
+        full_scale: v.full_scale,
+        channels: v.channels.iter().map(|c| c.name.clone()).collect(),
+        mean,
+        covariance,
+        sources: v.sources.iter().map(|x| x.name.clone()).collect(),
+        source_gains: gains,
+        source_means,
+        source_sigmas,
+        own_sigmas,
+        own_means: v.channels.iter().map(|c| c.mean).collect(),
+        own_correlation,
+        signal_descriptions: v.signals.iter().map(|x| names.describe(&x.def)).collect(),
+        signals,
+        output_description: names.describe(&v.output.def),
+        output,
+        checks,
+        detection: match v.detection {
+            VDetection::Any => Detection::Any,
+            VDetection::AtLeast(k) => Detection::AtLeast(k),
+        },
+        safety_lower: v.safety.0,
+        safety_upper: v.safety.1,
+        faults,
+    })
+}
+
+fn report(r: Result<Pw, PieceError>, sink: &mut Sink<'_>, loc: &Loc, what: &str) -> Option<Pw> {
+    match r {
+        Ok(p) => Some(p),
+        Err(PieceError::TooManyPieces) => {
+            sink.error(
+                loc.span,
+                &loc.key,
+                format!(
+                    "{what} has more than {} linear pieces (the limit) once its order \
+                     statistics are multiplied out",
+                    limits::MAX_PIECES
+                ),
+                "use fewer arguments in medians, minima, maxima and spreads, or fewer nested \
+                 order statistics",
+            );
+            None
+        }
+        Err(PieceError::TooManyPairs) => {
+            sink.error(
+                loc.span,
+                &loc.key,
+                format!(
+                    "{what} combines piecewise functions with more than {} pairs of pieces \
+                     to examine (the limit)",
+                    limits::MAX_PRODUCT_PAIRS
+                ),
+                "combine fewer order statistics in one function",
+            );
+            None
+        }
+    }
+}
+
+/// Warns when a piece's coefficients do not sum to the expected true-value gain: the
+/// deviation of the output must not depend on the true value (coefficients sum to 1), nor
+/// must a check value (sum 0).
+fn warn_truth_gain(
+    f: &PiecewiseLinear,
+    expected: f64,
+    sink: &mut Sink<'_>,
+    loc: &Loc,
+    what: &str,
+    word: &str,
+) {
+    let bad = f.pieces.iter().find_map(|p| {
+        let sum: f64 = p.value.coeffs.iter().sum();
+        ((sum - expected).abs() > TRUTH_GAIN_ABS).then_some(sum)
+    });
+    if let Some(sum) = bad {
+        sink.warning(
+            loc.span,
+            &loc.key,
+            format!(
+                "the coefficients of {what} sum to {sum}, not {word}: its value would depend \
+                 on the true value of the measured quantity, which the model leaves out"
+            ),
+            format!("check the weights; they should sum to {word}"),
+        );
+    }
+}
+
+fn build(
+    b: &mut Builder,
+    def: &FnDef,
+    channels: &[Pw],
+    signals: &[Option<Pw>],
+    output: Option<&Pw>,
+) -> Result<Pw, PieceError> {
+    // A missing signal cannot happen in evaluation order; an empty function stands in.
+    let empty = Pw { pieces: Vec::new() };
+    let pw = |r: &Reading| -> &Pw {
+        match r {
+            Reading::Channel(i) => channels.get(*i).unwrap_or(&empty),
+            Reading::Signal(i) => signals.get(*i).and_then(|s| s.as_ref()).unwrap_or(&empty),
+        }
+    };
+    let sorted = |rs: &[Reading]| {
+        let mut r = rs.to_vec();
+        r.sort();
+        r
+    };
+    match def {
+        FnDef::Linear {
+            terms, constant, ..
+        } => {
+            let t: Vec<(f64, &Pw)> = terms.iter().map(|(r, w)| (*w, pw(r))).collect();
+            b.combine(&t, *constant)
+        }
+        FnDef::Mean(rs) => {
+            let w = 1.0 / rs.len() as f64;
+            let t: Vec<(f64, &Pw)> = rs.iter().map(|r| (w, pw(r))).collect();
+            b.combine(&t, 0.0)
+        }
+        FnDef::Select(r) => Ok(pw(r).clone()),
+        FnDef::Order(stat, rs) => {
+            let rs = sorted(rs);
+            let args: Vec<&Pw> = rs.iter().map(pw).collect();
+            let kind = match stat {
+                Stat::Median => OrderKind::Median,
+                Stat::Min => OrderKind::Min,
+                Stat::Max => OrderKind::Max,
+            };
+            b.order(&args, kind)
+        }
+        FnDef::Spread(rs) => {
+            let rs = sorted(rs);
+            let args: Vec<&Pw> = rs.iter().map(pw).collect();
+            b.order(&args, OrderKind::Spread)
+        }
+        FnDef::Difference(a, c) => b.combine(&[(1.0, pw(a)), (-1.0, pw(c))], 0.0),
+        FnDef::FromOutput(r) => b.combine(&[(1.0, pw(r)), (-1.0, output.unwrap_or(&empty))], 0.0),
+    }
+}
+
+/// Names of readings, for formulas.
+struct Names<'a> {
+    v: &'a Resolved,
+}
+
+impl Names<'_> {
+    fn name(&self, r: &Reading) -> String {
+        match r {
+            Reading::Channel(i) => self.v.channels.get(*i).map(|c| c.name.clone()),
+            Reading::Signal(i) => self.v.signals.get(*i).map(|s| s.name.clone()),
+        }
+        .unwrap_or_default()
+    }
+
+    fn list(&self, rs: &[Reading]) -> String {
+        rs.iter().map(|r| self.name(r)).collect::<Vec<_>>().join(", ")
+    }
+
+    /// The function as a formula.
+    fn describe(&self, def: &FnDef) -> String {
+        match def {
+            FnDef::Linear {
+                terms, constant, ..
+            } => {
+                let t: Vec<(String, f64)> = terms.iter().map(|(r, w)| (self.name(r), *w)).collect();
+                linear_formula(&t, *constant)
+            }
+            FnDef::Mean(rs) => format!("mean({})", self.list(rs)),
+            FnDef::Select(r) => self.name(r),
+            FnDef::Order(stat, rs) => format!("{}({})", stat.word(), self.list(rs)),
+            FnDef::Difference(a, b) => format!("{} - {}", self.name(a), self.name(b)),
+            FnDef::Spread(rs) => {
+                let l = self.list(rs);
+                format!("max({l}) - min({l})")
+            }
+            FnDef::FromOutput(r) => format!("{} - output", self.name(r)),
+        }
+    }
+}
+
+fn fault(f: &VFault, gains: &DMatrix<f64>, n: usize, sink: &mut Sink<'_>) -> CompiledFault {
+    let mode = match f.mode {
+        VMode::Add => {
+            let mut direction = vec![0.0; n];
+            for (site, g, _) in &f.hits {
+                match site {
+                    Site::Channel(i) => {
+                        if let Some(d) = direction.get_mut(*i) {
+                            *d += g;
+                        }
+                    }
+                    Site::Source(s) => {
+                        for (i, d) in direction.iter_mut().enumerate() {
+                            *d += g * gains[(i, *s)];
+                        }
+                    }
+                }
+            }
+            if direction.iter().all(|d| *d == 0.0) {
+                sink.warning(
+                    f.loc.span,
+                    &f.loc.key,
+                    "the fault reaches no channel (its gains, or the gains of the sources it \
+                     hits, are zero), so it has no effect",
+                    "hit a channel, or a source that feeds channels",
+                );
+            }
+            FaultMode::Add { direction }
+        }
+        VMode::Replace => {
+            let (channel, gain) = f
+                .hits
+                .iter()
+                .find_map(|(site, g, _)| match site {
+                    Site::Channel(i) => Some((*i, *g)),
+                    Site::Source(_) => None,
+                })
+                .unwrap_or((0, 1.0));
+            FaultMode::Replace { channel, gain }
+        }
+    };
+    let (amplitude, uniform_is_full_scale) = match &f.amplitude {
+        VAmplitude::Gaussian {
+            mean,
+            sigma: VSigma::Known(s),
+        } => (Amplitude::Gaussian { mean: *mean, sigma: *s }, false),
+        VAmplitude::Gaussian {
+            mean,
+            sigma: VSigma::Unknown { lo, hi, defaulted },
+        } => (
+            Amplitude::GaussianUnknownSigma {
+                mean: *mean,
+                sigma_lo: *lo,
+                sigma_hi: *hi,
+                defaulted: *defaulted,
+            },
+            false,
+        ),
+        VAmplitude::Uniform {
+            lower,
+            upper,
+            full_scale,
+        } => (
+            Amplitude::Uniform {
+                lower: *lower,
+                upper: *upper,
+            },
+            *full_scale,
+        ),
+        VAmplitude::Points(p) => (Amplitude::Points(p.clone()), false),
+    };
+    CompiledFault {
+        name: f.name.clone(),
+        fit: f.fit,
+        mode,
+        amplitude,
+        latent_coverage: f.latent_coverage,
+        hits: f.hits.iter().map(|(_, g, name)| (name.clone(), *g)).collect(),
+        uniform_is_full_scale,
+    }
+}

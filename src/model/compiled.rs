@@ -1,0 +1,267 @@
+//! The compiled model: what the analysis layer integrates. Channel deviations `x` (one
+//! coordinate per channel, in file order) are gaussian with `mean` and `covariance`; the
+//! output, the checks and the derived signals are piecewise-linear functions of `x`.
+
+use nalgebra::DMatrix;
+
+use super::error::Diagnostic;
+use super::graph::ModelGraph;
+
+/// An affine function of the channel deviations x (length = number of channels).
+#[derive(Debug, Clone, PartialEq)]
+pub struct LinearForm {
+    pub coeffs: Vec<f64>,
+    pub constant: f64,
+}
+
+impl LinearForm {
+    /// `sum_i coeffs[i] * x[i] + constant`, summed in index order (so that a form and its
+    /// exact negation evaluate to exact negatives). Missing coordinates count as 0.
+    pub fn eval(&self, x: &[f64]) -> f64 {
+        let mut s = 0.0;
+        for (c, xi) in self.coeffs.iter().zip(x) {
+            s += c * xi;
+        }
+        s + self.constant
+    }
+
+    /// The form `0`.
+    pub fn zero(n: usize) -> LinearForm {
+        LinearForm {
+            coeffs: vec![0.0; n],
+            constant: 0.0,
+        }
+    }
+
+    /// The coordinate `x[i]`.
+    pub fn coordinate(n: usize, i: usize) -> LinearForm {
+        let mut f = LinearForm::zero(n);
+        if let Some(c) = f.coeffs.get_mut(i) {
+            *c = 1.0;
+        }
+        f
+    }
+
+    /// True when every coefficient is zero (the form is a constant).
+    pub fn is_constant(&self) -> bool {
+        self.coeffs.iter().all(|c| *c == 0.0)
+    }
+}
+
+/// A half-space condition under which a piece holds: form(x) > 0 when strict, >= 0 otherwise.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Guard {
+    pub form: LinearForm,
+    pub strict: bool,
+}
+
+impl Guard {
+    /// Whether `x` satisfies the guard.
+    pub fn holds(&self, x: &[f64]) -> bool {
+        let v = self.form.eval(x);
+        if self.strict { v > 0.0 } else { v >= 0.0 }
+    }
+
+    /// True when `other` is the exact negation of `self`: coefficients and constant negated
+    /// (compared with `==`, so `0.0 == -0.0`) and exactly one of the two strict. A piece
+    /// holding both guards is empty; two pieces holding one each are disjoint.
+    pub fn is_negation_of(&self, other: &Guard) -> bool {
+        self.strict != other.strict
+            && self.form.constant == -other.form.constant
+            && self.form.coeffs.len() == other.form.coeffs.len()
+            && self
+                .form
+                .coeffs
+                .iter()
+                .zip(&other.form.coeffs)
+                .all(|(a, b)| *a == -*b)
+    }
+}
+
+/// One linear piece: `value(x)` wherever all guards hold.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Piece {
+    pub guards: Vec<Guard>,
+    pub value: LinearForm,
+}
+
+impl Piece {
+    /// Whether every guard holds at `x`.
+    pub fn contains(&self, x: &[f64]) -> bool {
+        self.guards.iter().all(|g| g.holds(x))
+    }
+}
+
+/// A piecewise-linear function whose pieces partition R^n EXACTLY (no overlap even on ties:
+/// ties between equal arguments are broken by argument index through strict/non-strict guards,
+/// so every x lies in exactly one piece).
+#[derive(Debug, Clone, PartialEq)]
+pub struct PiecewiseLinear {
+    pub pieces: Vec<Piece>,
+}
+
+impl PiecewiseLinear {
+    /// The value at `x`, from the piece that contains it (NaN if none does, which the
+    /// construction rules out).
+    pub fn eval(&self, x: &[f64]) -> f64 {
+        match self.piece_at(x) {
+            Some(i) => self.pieces[i].value.eval(x),
+            None => f64::NAN,
+        }
+    }
+
+    /// Index of the first piece that contains `x`.
+    pub fn piece_at(&self, x: &[f64]) -> Option<usize> {
+        self.pieces.iter().position(|p| p.contains(x))
+    }
+
+    /// How many pieces contain `x` (exactly 1 by construction).
+    pub fn count_containing(&self, x: &[f64]) -> usize {
+        self.pieces.iter().filter(|p| p.contains(x)).count()
+    }
+
+    /// True when the function is one linear form everywhere.
+    pub fn is_linear(&self) -> bool {
+        self.pieces.len() == 1 && self.pieces[0].guards.is_empty()
+    }
+}
+
+/// A check: fires when `function(x) < lower` or `> upper`.
+#[derive(Debug, Clone, PartialEq)]
+pub struct CompiledCheck {
+    pub name: String,
+    pub function: PiecewiseLinear,
+    pub lower: f64,
+    pub upper: f64,
+    /// The check value as a formula, e.g. `a - b` or `max(a, b, c) - min(a, b, c)`.
+    pub description: String,
+}
+
+/// When the diagnostics count as detecting.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Detection {
+    /// Any check fires.
+    Any,
+    /// At least k checks fire (1 <= k <= number of checks).
+    AtLeast(usize),
+}
+
+/// How a fault acts on the channels.
+#[derive(Debug, Clone, PartialEq)]
+pub enum FaultMode {
+    /// `x -> x + direction * F`; `direction` already includes source gains (a source hit with
+    /// gain g adds `g * source_gain_i` to channel i).
+    Add { direction: Vec<f64> },
+    /// Channel `channel` reads exactly `gain * F` (its mean, own noise and source terms gone).
+    Replace { channel: usize, gain: f64 },
+}
+
+/// The distribution of a fault's amplitude F.
+#[derive(Debug, Clone, PartialEq)]
+pub enum Amplitude {
+    /// `F ~ N(mean, sigma^2)`, independent of all noise.
+    Gaussian { mean: f64, sigma: f64 },
+    /// `F ~ N(mean, sigma^2)` with sigma unknown in `[sigma_lo, sigma_hi]` (worst case);
+    /// `defaulted` when the file wrote `sigma = "unknown"` and the range is the default one
+    /// (see [`crate::model::default_sigma_range`]).
+    GaussianUnknownSigma {
+        mean: f64,
+        sigma_lo: f64,
+        sigma_hi: f64,
+        defaulted: bool,
+    },
+    /// `F` uniform on `[lower, upper]`.
+    Uniform { lower: f64, upper: f64 },
+    /// `F` takes each value with its weight: `(value, weight)`, weights positive, summing to 1.
+    Points(Vec<(f64, f64)>),
+}
+
+/// A compiled fault site.
+#[derive(Debug, Clone, PartialEq)]
+pub struct CompiledFault {
+    pub name: String,
+    /// Failure rate in FIT (failures per 1e9 hours).
+    pub fit: f64,
+    pub mode: FaultMode,
+    pub amplitude: Amplitude,
+    /// Share of latent faults found by other means (0 when absent).
+    pub latent_coverage: f64,
+    /// The hit channels and sources with their gains, as written (for reports).
+    pub hits: Vec<(String, f64)>,
+    /// True when `amplitude` is `uniform = "full_scale"` in the file (for reports).
+    pub uniform_is_full_scale: bool,
+}
+
+/// The model the analysis integrates.
+#[derive(Debug, Clone, PartialEq)]
+pub struct CompiledModel {
+    pub name: String,
+    pub unit: String,
+    pub full_scale: Option<(f64, f64)>,
+    /// Coordinate order of x (file order).
+    pub channels: Vec<String>,
+    /// Channel systematic means plus source means times gains.
+    pub mean: Vec<f64>,
+    /// Own sigmas with correlations plus `G diag(source sigma^2) G^T`.
+    pub covariance: DMatrix<f64>,
+    pub sources: Vec<String>,
+    /// n x s: gain of source j on channel i.
+    pub source_gains: DMatrix<f64>,
+    pub source_means: Vec<f64>,
+    pub source_sigmas: Vec<f64>,
+    pub own_sigmas: Vec<f64>,
+    /// Channel systematic means as written (without source means).
+    pub own_means: Vec<f64>,
+    /// n x n correlation of the own random parts (unit diagonal).
+    pub own_correlation: DMatrix<f64>,
+    /// Derived signals, compiled, in file order.
+    pub signals: Vec<(String, PiecewiseLinear)>,
+    /// Formula of each derived signal, in the order of `signals`.
+    pub signal_descriptions: Vec<String>,
+    pub output: PiecewiseLinear,
+    /// The output as a formula, e.g. `median(a, b, c)`.
+    pub output_description: String,
+    pub checks: Vec<CompiledCheck>,
+    pub detection: Detection,
+    pub safety_lower: f64,
+    pub safety_upper: f64,
+    pub faults: Vec<CompiledFault>,
+}
+
+impl CompiledModel {
+    /// Total standard deviation of each channel (square root of the covariance diagonal).
+    pub fn total_sigmas(&self) -> Vec<f64> {
+        (0..self.channels.len())
+            .map(|i| self.covariance[(i, i)].max(0.0).sqrt())
+            .collect()
+    }
+
+    /// Total correlation matrix (own correlations plus what shared sources induce); entries
+    /// of a channel with zero total sigma are 0 off the diagonal and 1 on it.
+    pub fn total_correlation(&self) -> DMatrix<f64> {
+        let s = self.total_sigmas();
+        let n = s.len();
+        DMatrix::from_fn(n, n, |i, j| {
+            if i == j {
+                1.0
+            } else if s[i] > 0.0 && s[j] > 0.0 {
+                self.covariance[(i, j)] / (s[i] * s[j])
+            } else {
+                0.0
+            }
+        })
+    }
+}
+
+/// What a loaded file gives: the compiled model, the graph, warnings, and the source text
+/// (for its SHA-256).
+#[derive(Debug, Clone)]
+pub struct Architecture {
+    /// The file name as given for messages.
+    pub path: String,
+    /// The text as read (before overrides).
+    pub source: String,
+    pub model: CompiledModel,
+    pub graph: ModelGraph,
+    pub warnings: Vec<Diagnostic>,
+}

@@ -1,0 +1,217 @@
+//! The readable summary that `concord check` prints: channels with own and total sigma, the
+//! total correlation matrix, the output and checks as formulas with their bands, detection,
+//! the safety band, the fault sites and the warnings. Lines fit in 100 columns for up to 12
+//! channels with names of up to 16 characters.
+
+use std::fmt::Write;
+
+use super::compiled::{Amplitude, Architecture, Detection, FaultMode};
+use super::text::{band, num, outside, short, sig};
+
+fn pieces(n: usize) -> String {
+    if n == 1 {
+        "1 piece".into()
+    } else {
+        format!("{n} pieces")
+    }
+}
+
+fn truncate(s: &str, w: usize) -> String {
+    s.chars().take(w).collect()
+}
+
+/// The `concord check` summary of a loaded architecture.
+pub fn describe(arch: &Architecture) -> String {
+    let m = &arch.model;
+    let unit = &m.unit;
+    let mut o = String::new();
+    let _ = writeln!(o, "Architecture: {}", m.name);
+    let _ = write!(o, "  file: {}   unit: {unit}", arch.path);
+    if let Some((a, b)) = m.full_scale {
+        let _ = write!(o, "   full scale: {} {unit}", band(a, b));
+    }
+    o.push('\n');
+
+    let w = m
+        .channels
+        .iter()
+        .chain(&m.sources)
+        .map(|s| s.chars().count())
+        .max()
+        .unwrap_or(4)
+        .clamp(4, 16);
+
+    if !m.sources.is_empty() {
+        let _ = writeln!(o, "\nShared sources ({})", m.sources.len());
+        let _ = writeln!(o, "  {:<w$}  {:>10}  {:>10}  feeds", "name", "mean", "sigma");
+        for (j, s) in m.sources.iter().enumerate() {
+            let feeds: Vec<String> = (0..m.channels.len())
+                .filter(|i| m.source_gains[(*i, j)] != 0.0)
+                .map(|i| format!("{} x {}", m.channels[i], num(m.source_gains[(i, j)])))
+                .collect();
+            let _ = writeln!(
+                o,
+                "  {:<w$}  {:>10}  {:>10}  {}",
+                s,
+                num(m.source_means[j]),
+                num(m.source_sigmas[j]),
+                if feeds.is_empty() { "(nothing)".into() } else { feeds.join(", ") }
+            );
+        }
+    }
+
+    let total = m.total_sigmas();
+    let _ = writeln!(o, "\nChannels ({}), deviations in {unit}", m.channels.len());
+    let _ = writeln!(
+        o,
+        "  {:<w$}  {:>10}  {:>10}  {:>11}  {:>10}",
+        "name", "mean", "own sigma", "total sigma", "total mean"
+    );
+    for (i, c) in m.channels.iter().enumerate() {
+        let own_mean = m.own_means[i];
+        let _ = writeln!(
+            o,
+            "  {:<w$}  {:>10}  {:>10}  {:>11}  {:>10}",
+            c,
+            num(own_mean),
+            num(m.own_sigmas[i]),
+            sig(total[i], 4),
+            short(m.mean[i])
+        );
+    }
+
+    let n = m.channels.len();
+    if n > 1 {
+        let r = m.total_correlation();
+        let _ = writeln!(o, "\nTotal correlation (own correlations plus shared sources)");
+        let w = w.min(12);
+        let mut head = format!("  {:<w$}", "");
+        for c in &m.channels {
+            let _ = write!(head, " {:>6}", truncate(c, 6));
+        }
+        let _ = writeln!(o, "{}", head.trim_end());
+        for (i, c) in m.channels.iter().enumerate() {
+            let mut row = format!("  {:<w$}", truncate(c, w));
+            for j in 0..n {
+                let _ = write!(row, " {:>6.3}", r[(i, j)]);
+            }
+            let _ = writeln!(o, "{row}");
+        }
+    }
+
+    if !m.signals.is_empty() {
+        let _ = writeln!(o, "\nDerived signals");
+        for ((name, f), d) in m.signals.iter().zip(&m.signal_descriptions) {
+            let _ = writeln!(o, "  {name} = {d}   ({})", pieces(f.pieces.len()));
+        }
+    }
+
+    let _ = writeln!(o, "\nOutput and safety requirement");
+    let _ = writeln!(
+        o,
+        "  output = {}   ({})",
+        m.output_description,
+        pieces(m.output.pieces.len())
+    );
+    let _ = writeln!(
+        o,
+        "  violated when the output deviation is {}",
+        outside(m.safety_lower, m.safety_upper, unit)
+    );
+
+    let rule = match m.detection {
+        Detection::Any => "detected when any check fires".to_string(),
+        Detection::AtLeast(k) => format!("detected when at least {k} checks fire"),
+    };
+    let _ = writeln!(o, "\nChecks ({}; {rule})", m.checks.len());
+    for c in &m.checks {
+        let head = format!("  {} = {}", c.name, c.description);
+        let tail = format!(
+            "fires {}   ({})",
+            outside(c.lower, c.upper, unit),
+            pieces(c.function.pieces.len())
+        );
+        if head.chars().count() + tail.chars().count() + 3 <= 100 {
+            let _ = writeln!(o, "{head}   {tail}");
+        } else {
+            let _ = writeln!(o, "{head}\n      {tail}");
+        }
+    }
+
+    let total_fit: f64 = m.faults.iter().map(|f| f.fit).sum();
+    let _ = writeln!(
+        o,
+        "\nFault sites ({}, {} FIT in total)",
+        m.faults.len(),
+        num(total_fit)
+    );
+    for f in &m.faults {
+        let hits: Vec<String> = f.hits.iter().map(|(h, g)| format!("{h} x {}", num(*g))).collect();
+        let mode = match &f.mode {
+            FaultMode::Add { .. } => "add",
+            FaultMode::Replace { .. } => "replace",
+        };
+        let _ = write!(o, "  {}: {} FIT, {mode}, hits {}", f.name, num(f.fit), hits.join(", "));
+        if f.latent_coverage > 0.0 {
+            let _ = write!(o, ", latent coverage {}", num(f.latent_coverage));
+        }
+        o.push('\n');
+        if let FaultMode::Add { direction } = &f.mode {
+            if f.hits.len() > 1 || direction.iter().filter(|d| **d != 0.0).count() > 1 {
+                let d: Vec<String> = direction
+                    .iter()
+                    .zip(&m.channels)
+                    .filter(|(d, _)| **d != 0.0)
+                    .map(|(d, c)| format!("{c} x {}", num(*d)))
+                    .collect();
+                let _ = writeln!(o, "      reaches {}", d.join(", "));
+            }
+        }
+        let _ = writeln!(o, "      amplitude: {}", amplitude(&f.amplitude, f.uniform_is_full_scale, unit));
+    }
+
+    let _ = writeln!(o, "\nWarnings ({})", arch.warnings.len());
+    for w in &arch.warnings {
+        let _ = writeln!(o, "  {w}");
+    }
+    o
+}
+
+/// One line describing an amplitude model.
+pub(crate) fn amplitude(a: &Amplitude, full_scale: bool, unit: &str) -> String {
+    match a {
+        Amplitude::Gaussian { mean, sigma } => {
+            format!("gaussian, mean {} {unit}, sigma {} {unit}", num(*mean), num(*sigma))
+        }
+        Amplitude::GaussianUnknownSigma {
+            mean,
+            sigma_lo,
+            sigma_hi,
+            defaulted,
+        } => format!(
+            "gaussian, mean {} {unit}, sigma unknown in [{}, {}] {unit}{}",
+            num(*mean),
+            short(*sigma_lo),
+            short(*sigma_hi),
+            if *defaulted { " (default range)" } else { "" }
+        ),
+        Amplitude::Uniform { lower, upper } => format!(
+            "uniform on {} {unit}{}",
+            band(*lower, *upper),
+            if full_scale { " (full scale)" } else { "" }
+        ),
+        Amplitude::Points(p) => {
+            let shown: Vec<String> = p
+                .iter()
+                .take(6)
+                .map(|(v, w)| format!("{} (p {})", num(*v), num(*w)))
+                .collect();
+            let more = if p.len() > 6 {
+                format!(", ... ({} points)", p.len())
+            } else {
+                String::new()
+            };
+            format!("points {}{more} {unit}", shown.join(", "))
+        }
+    }
+}

@@ -1,0 +1,107 @@
+//! Overrides: numeric values set by dotted key path before validation (used by sweeps), e.g.
+//! `safety.limit`, `checks.ab.limit`, `channels.a.sigma`, `correlations.0.rho` (or
+//! `correlations[0].rho`), `faults.a_drift.amplitude.gaussian.sigma`.
+//!
+//! The path must name a number (or a string such as `sigma = "unknown"`) in the file, or an
+//! optional numeric key of an existing table (`mean`, `limit`, `lower`, `upper`, `constant`,
+//! `latent_coverage`); anything else is an error naming the path. The overridden value is
+//! then validated like any other, and messages about it say that an override set it.
+
+use super::error::Sink;
+use super::tree::{Entry, Node, Value};
+
+/// Keys that may be added by an override when the file leaves them out.
+const OPTIONAL_NUMERIC: &[&str] = &["mean", "limit", "lower", "upper", "constant", "latent_coverage"];
+
+/// Applies every override; records an error for each path that names nothing settable.
+pub(crate) fn apply(root: &mut Node, overrides: &[(String, f64)], sink: &mut Sink<'_>) {
+    for (path, value) in overrides {
+        if let Err(why) = set(root, path, *value) {
+            sink.error_nowhere(
+                &format!("override {path}"),
+                why,
+                "give the dotted path of a number in the file, e.g. safety.limit or \
+                 channels.a.sigma",
+            );
+        }
+    }
+}
+
+/// `correlations[1].rho` -> `["correlations", "1", "rho"]`.
+fn segments(path: &str) -> Vec<String> {
+    path.replace('[', ".")
+        .replace(']', "")
+        .split('.')
+        .map(|s| s.trim().to_string())
+        .collect()
+}
+
+fn set(root: &mut Node, path: &str, value: f64) -> Result<(), String> {
+    let segs = segments(path);
+    if segs.iter().any(|s| s.is_empty()) {
+        return Err(format!("`{path}` is not a dotted key path"));
+    }
+    let mut node = root;
+    let mut walked = String::new();
+    for (i, seg) in segs.iter().enumerate() {
+        let last = i + 1 == segs.len();
+        let here = if walked.is_empty() {
+            "the top level".to_string()
+        } else {
+            format!("`{walked}`")
+        };
+        let span = node.span;
+        node = match &mut node.value {
+            Value::Table(entries) => {
+                let pos = entries.iter().position(|e| e.key == *seg);
+                match pos {
+                    Some(p) => &mut entries[p].value,
+                    None if last && OPTIONAL_NUMERIC.contains(&seg.as_str()) => {
+                        entries.push(Entry {
+                            key: seg.clone(),
+                            key_span: span,
+                            value: Node {
+                                span,
+                                value: Value::Str(String::new()),
+                                overridden: true,
+                            },
+                        });
+                        let n = entries.len() - 1;
+                        &mut entries[n].value
+                    }
+                    None => return Err(format!("{here} has no key `{seg}`")),
+                }
+            }
+            Value::Array(items) => {
+                let k: usize = seg
+                    .parse()
+                    .map_err(|_| format!("{here} is an array; `{seg}` is not an index"))?;
+                let len = items.len();
+                items
+                    .get_mut(k)
+                    .ok_or_else(|| format!("{here} has {len} entries, no index {k}"))?
+            }
+            other => {
+                return Err(format!(
+                    "{here} is {}, it has no key `{seg}`",
+                    other.type_name()
+                ));
+            }
+        };
+        if !walked.is_empty() {
+            walked.push('.');
+        }
+        walked.push_str(seg);
+    }
+    match node.value {
+        Value::Table(_) | Value::Array(_) => Err(format!(
+            "`{path}` is {}, not a number",
+            node.value.type_name()
+        )),
+        _ => {
+            node.value = Value::Float(value);
+            node.overridden = true;
+            Ok(())
+        }
+    }
+}

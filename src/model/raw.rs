@@ -1,0 +1,205 @@
+//! The architecture file as read: typed, every value with its span and key path, but not yet
+//! checked for meaning (names may be unknown, numbers out of range). `read` builds it;
+//! `validate` checks it; `compile` turns a valid one into the compiled model.
+
+use super::error::{Sink, Span};
+
+/// A value with where it came from.
+#[derive(Debug, Clone, PartialEq)]
+pub(crate) struct Sp<T> {
+    pub v: T,
+    pub span: Span,
+    /// Key path for messages, e.g. `channels.a.sigma`.
+    pub key: String,
+    /// True when an override set the value.
+    pub overridden: bool,
+}
+
+impl<T> Sp<T> {
+    pub(crate) fn new(v: T, span: Span, key: impl Into<String>) -> Sp<T> {
+        Sp {
+            v,
+            span,
+            key: key.into(),
+            overridden: false,
+        }
+    }
+
+    /// Records an error about this value.
+    pub(crate) fn error(&self, sink: &mut Sink<'_>, message: impl Into<String>, fix: impl Into<String>) {
+        let mut message = message.into();
+        if self.overridden {
+            message.push_str(" (the value was set by an override)");
+        }
+        sink.error(self.span, &self.key, message, fix);
+    }
+
+    /// Records a warning about this value.
+    pub(crate) fn warning(&self, sink: &mut Sink<'_>, message: impl Into<String>, fix: impl Into<String>) {
+        sink.warning(self.span, &self.key, message, fix);
+    }
+}
+
+/// Names with gains or weights: `{ a = 0.5, b = 0.5 }`.
+pub(crate) type Weights = Vec<(Sp<String>, Sp<f64>)>;
+
+/// The `of` of a signal, output or check, in whichever form the file wrote it.
+#[derive(Debug, Clone, PartialEq)]
+pub(crate) enum Args {
+    /// `of = "a"`
+    One(Sp<String>),
+    /// `of = ["a", "b"]`
+    List(Vec<Sp<String>>),
+    /// `of = { a = 0.5, b = 0.5 }`
+    Weights(Weights),
+}
+
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub(crate) enum SignalKind {
+    Linear,
+    Median,
+    Min,
+    Max,
+}
+
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub(crate) enum OutputKind {
+    Mean,
+    Weighted,
+    Select,
+    Median,
+    Min,
+    Max,
+    Linear,
+}
+
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub(crate) enum CheckKind {
+    Difference,
+    Spread,
+    FromOutput,
+    Linear,
+}
+
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub(crate) enum Mode {
+    Add,
+    Replace,
+}
+
+#[derive(Debug, Clone, PartialEq)]
+pub(crate) struct RawSource {
+    pub name: Sp<String>,
+    pub mean: Sp<f64>,
+    pub sigma: Sp<f64>,
+}
+
+#[derive(Debug, Clone, PartialEq)]
+pub(crate) struct RawChannel {
+    pub name: Sp<String>,
+    pub mean: Sp<f64>,
+    pub sigma: Sp<f64>,
+    pub from: Weights,
+}
+
+#[derive(Debug, Clone, PartialEq)]
+pub(crate) struct RawCorrelation {
+    /// `correlations[i]` (0-based, as in the file order).
+    pub key: String,
+    pub span: Span,
+    pub between: Option<(Sp<String>, Sp<String>)>,
+    pub rho: Option<Sp<f64>>,
+}
+
+#[derive(Debug, Clone, PartialEq)]
+pub(crate) struct RawSignal {
+    pub name: Sp<String>,
+    pub kind: Option<Sp<SignalKind>>,
+    pub of: Option<Sp<Args>>,
+    pub constant: Option<Sp<f64>>,
+}
+
+#[derive(Debug, Clone, PartialEq)]
+pub(crate) struct RawOutput {
+    pub span: Span,
+    pub kind: Option<Sp<OutputKind>>,
+    pub of: Option<Sp<Args>>,
+    pub constant: Option<Sp<f64>>,
+}
+
+/// `limit = L` or `lower = .., upper = ..` (either may be omitted for a one-sided band).
+#[derive(Debug, Clone, PartialEq)]
+pub(crate) struct RawBand {
+    /// Key path of the table holding the band (`safety`, `checks.ab`).
+    pub key: String,
+    pub span: Span,
+    pub limit: Option<Sp<f64>>,
+    pub lower: Option<Sp<f64>>,
+    pub upper: Option<Sp<f64>>,
+    /// True when one of `limit`, `lower`, `upper` is present but could not be read.
+    pub broken: bool,
+}
+
+#[derive(Debug, Clone, PartialEq)]
+pub(crate) struct RawCheck {
+    pub name: Sp<String>,
+    pub kind: Option<Sp<CheckKind>>,
+    pub of: Option<Sp<Args>>,
+    pub constant: Option<Sp<f64>>,
+    pub band: RawBand,
+}
+
+#[derive(Debug, Clone, PartialEq)]
+pub(crate) enum RawFires {
+    Any,
+    AtLeast(Sp<i64>),
+}
+
+#[derive(Debug, Clone, PartialEq)]
+pub(crate) enum RawSigma {
+    Known(Sp<f64>),
+    Unknown,
+    UnknownRange(Sp<f64>, Sp<f64>),
+}
+
+#[derive(Debug, Clone, PartialEq)]
+pub(crate) enum RawAmplitude {
+    Gaussian { mean: Sp<f64>, sigma: Sp<RawSigma> },
+    UniformFullScale,
+    Uniform(Sp<f64>, Sp<f64>),
+    /// `(value, weight)` pairs.
+    Points(Vec<(Sp<f64>, Sp<f64>)>),
+}
+
+#[derive(Debug, Clone, PartialEq)]
+pub(crate) struct RawFault {
+    pub name: Sp<String>,
+    pub fit: Option<Sp<f64>>,
+    pub hits: Option<Sp<Weights>>,
+    pub mode: Option<Sp<Mode>>,
+    pub amplitude: Option<Sp<RawAmplitude>>,
+    pub latent_coverage: Option<Sp<f64>>,
+}
+
+/// The whole file as read.
+#[derive(Debug, Clone, PartialEq)]
+pub(crate) struct RawModel {
+    pub name: Option<Sp<String>>,
+    pub unit: Option<Sp<String>>,
+    pub full_scale: Option<Sp<(f64, f64)>>,
+    pub sources: Vec<RawSource>,
+    pub channels: Vec<RawChannel>,
+    pub correlations: Vec<RawCorrelation>,
+    pub signals: Vec<RawSignal>,
+    pub output: Option<RawOutput>,
+    pub checks: Vec<RawCheck>,
+    pub detection: Option<Sp<RawFires>>,
+    pub safety: Option<RawBand>,
+    pub faults: Vec<RawFault>,
+    /// True when a section of names (sources, channels, signals) or one of its entries could
+    /// not be read: references to unknown names are then not reported (they would only echo
+    /// the error already reported).
+    pub names_incomplete: bool,
+    /// True when the file has a `channels` key (its absence is reported by `read`).
+    pub channels_given: bool,
+}

@@ -1,0 +1,531 @@
+//! The rules an architecture must meet, checked on the raw model. Every violation is recorded
+//! (reading goes on after each), and the resolved model is returned only when there is none.
+//! The rules are listed in docs/architecture-format.md.
+
+use std::collections::HashMap;
+
+use nalgebra::DMatrix;
+
+use super::error::{Sink, Span};
+use super::faults::validate_faults;
+use super::functions::{check_fn, output_fn, signal_fn};
+use super::limits;
+use super::psd::{self, PsdVerdict};
+use super::raw::*;
+use super::read::edit_distance;
+use super::resolved::*;
+
+/// What a name in the shared namespace of sources, channels and signals refers to.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub(crate) enum NameRef {
+    Source(usize),
+    Channel(usize),
+    Signal(usize),
+}
+
+impl NameRef {
+    pub(crate) fn word(self) -> &'static str {
+        match self {
+            NameRef::Source(_) => "a shared source",
+            NameRef::Channel(_) => "a channel",
+            NameRef::Signal(_) => "a derived signal",
+        }
+    }
+}
+
+/// The names of sources, channels and signals (one namespace).
+pub(crate) struct Namespace {
+    map: HashMap<String, (NameRef, Span)>,
+    /// Some names could not be read: unknown names are then not reported.
+    incomplete: bool,
+}
+
+impl Namespace {
+    pub(crate) fn get(&self, name: &str) -> Option<NameRef> {
+        self.map.get(name).map(|(r, _)| *r)
+    }
+
+    /// The closest defined name of one of the accepted kinds, for "did you mean".
+    pub(crate) fn suggest(&self, name: &str, accept: impl Fn(NameRef) -> bool) -> Option<String> {
+        let mut best: Option<(usize, &String)> = None;
+        for (k, (r, _)) in &self.map {
+            if !accept(*r) {
+                continue;
+            }
+            let d = edit_distance(name, k);
+            if d <= 2 && best.is_none_or(|(bd, bk)| (d, k) < (bd, bk)) {
+                best = Some((d, k));
+            }
+        }
+        best.map(|(_, k)| k.clone())
+    }
+
+    /// All names of the accepted kinds, sorted, for messages.
+    pub(crate) fn list(&self, accept: impl Fn(NameRef) -> bool) -> String {
+        let mut names: Vec<&String> = self
+            .map
+            .iter()
+            .filter(|(_, (r, _))| accept(*r))
+            .map(|(k, _)| k)
+            .collect();
+        names.sort();
+        let shown: Vec<&str> = names.iter().take(12).map(|s| s.as_str()).collect();
+        let mut s = shown.join(", ");
+        if names.len() > shown.len() {
+            s.push_str(", ...");
+        }
+        if s.is_empty() {
+            s = "(none defined)".into();
+        }
+        s
+    }
+
+    /// Resolves a reference; records an error saying what was expected when it fails.
+    pub(crate) fn resolve(
+        &self,
+        sink: &mut Sink<'_>,
+        name: &Sp<String>,
+        expected: &str,
+        accept: impl Fn(NameRef) -> bool + Copy,
+        fix_wrong_kind: &str,
+    ) -> Option<NameRef> {
+        match self.get(&name.v) {
+            Some(r) if accept(r) => Some(r),
+            Some(r) => {
+                name.error(
+                    sink,
+                    format!("`{}` is {}, but {expected} is expected here", name.v, r.word()),
+                    fix_wrong_kind,
+                );
+                None
+            }
+            None if self.incomplete => None,
+            None => {
+                let mut fix = format!("use one of the defined names: {}", self.list(accept));
+                if let Some(s) = self.suggest(&name.v, accept) {
+                    fix = format!("did you mean `{s}`? Defined: {}", self.list(accept));
+                }
+                name.error(
+                    sink,
+                    format!("unknown name `{}` ({expected} is expected here)", name.v),
+                    fix,
+                );
+                None
+            }
+        }
+    }
+}
+
+fn build_namespace(raw: &RawModel, sink: &mut Sink<'_>) -> Namespace {
+    let mut map: HashMap<String, (NameRef, Span)> = HashMap::new();
+    let mut add = |sink: &mut Sink<'_>, name: &Sp<String>, r: NameRef| {
+        if let Some((prev, span)) = map.get(&name.v) {
+            let (line, _) = sink.line_col(span.start);
+            name.error(
+                sink,
+                format!(
+                    "`{}` is already defined as {} (line {line}); sources, channels and \
+                     signals share one namespace",
+                    name.v,
+                    prev.word()
+                ),
+                "give every source, channel and signal its own name",
+            );
+        } else {
+            map.insert(name.v.clone(), (r, name.span));
+        }
+    };
+    for (i, s) in raw.sources.iter().enumerate() {
+        add(sink, &s.name, NameRef::Source(i));
+    }
+    for (i, c) in raw.channels.iter().enumerate() {
+        add(sink, &c.name, NameRef::Channel(i));
+    }
+    for (i, s) in raw.signals.iter().enumerate() {
+        add(sink, &s.name, NameRef::Signal(i));
+    }
+    Namespace {
+        map,
+        incomplete: raw.names_incomplete,
+    }
+}
+
+fn too_many(sink: &mut Sink<'_>, spans: &[Span], key: &str, what: &str, limit: usize) {
+    let n = spans.len();
+    if n > limit {
+        sink.error(
+            spans.get(limit).copied().unwrap_or_default(),
+            key,
+            format!("the file defines {n} {what}, more than the limit of {limit}"),
+            format!("model at most {limit} {what}; merge or drop the least important ones"),
+        );
+    }
+}
+
+fn non_negative(sink: &mut Sink<'_>, v: &Sp<f64>, what: &str) {
+    if v.v < 0.0 {
+        v.error(
+            sink,
+            format!("{what} is {}, but it cannot be negative", v.v),
+            "give a value >= 0 (0 means no random part)",
+        );
+    }
+}
+
+/// Checks everything; the resolved model when no error was found.
+pub(crate) fn validate(raw: &RawModel, sink: &mut Sink<'_>) -> Option<Resolved> {
+    let errors_before = sink.error_count();
+    for (v, what) in [(&raw.name, "the name"), (&raw.unit, "the unit")] {
+        if let Some(v) = v {
+            if v.v.trim().is_empty() {
+                v.error(sink, format!("{what} is empty"), "write a short text, e.g. unit = \"deg\"");
+            }
+        }
+    }
+    if let Some(fs) = &raw.full_scale {
+        if fs.v.0 >= fs.v.1 {
+            fs.error(
+                sink,
+                format!("the lower end {} is not below the upper end {}", fs.v.0, fs.v.1),
+                "write full_scale = [lower, upper] with lower < upper",
+            );
+        }
+    }
+    let root = Span::default();
+    let spans = |v: Vec<Span>| v;
+    too_many(sink, &spans(raw.channels.iter().map(|x| x.name.span).collect()), "channels", "channels", limits::MAX_CHANNELS);
+    too_many(sink, &spans(raw.sources.iter().map(|x| x.name.span).collect()), "sources", "sources", limits::MAX_SOURCES);
+    too_many(sink, &spans(raw.signals.iter().map(|x| x.name.span).collect()), "signals", "signals", limits::MAX_SIGNALS);
+    too_many(sink, &spans(raw.checks.iter().map(|x| x.name.span).collect()), "checks", "checks", limits::MAX_CHECKS);
+    too_many(sink, &spans(raw.faults.iter().map(|x| x.name.span).collect()), "faults", "fault sites", limits::MAX_FAULTS);
+
+    let ns = build_namespace(raw, sink);
+
+    let sources: Vec<VSource> = raw
+        .sources
+        .iter()
+        .map(|s| {
+            non_negative(sink, &s.sigma, "sigma");
+            VSource {
+                name: s.name.v.clone(),
+                mean: s.mean.v,
+                sigma: s.sigma.v,
+            }
+        })
+        .collect();
+
+    let channels: Vec<VChannel> = raw
+        .channels
+        .iter()
+        .map(|c| {
+            non_negative(sink, &c.sigma, "sigma");
+            let mut from = Vec::new();
+            for (name, gain) in &c.from {
+                if let Some(NameRef::Source(s)) = ns.resolve(
+                    sink,
+                    name,
+                    "a shared source",
+                    |r| matches!(r, NameRef::Source(_)),
+                    "`from` lists shared sources ([sources.X]); correlate channels with \
+                     [[correlations]] instead",
+                ) {
+                    if gain.v == 0.0 {
+                        gain.warning(sink, "gain 0: the source has no effect on this channel", "drop the entry or give the gain");
+                    }
+                    from.push((s, gain.v));
+                }
+            }
+            VChannel {
+                name: c.name.v.clone(),
+                mean: c.mean.v,
+                sigma: c.sigma.v,
+                from,
+            }
+        })
+        .collect();
+    if raw.channels.is_empty() && !raw.names_incomplete && raw.channels_given {
+        sink.error(
+            root,
+            "channels",
+            "the [channels] section defines no channels",
+            "add at least one channel, e.g. [channels.a] with sigma = 0.5",
+        );
+    }
+
+    let correlations = validate_correlations(raw, &ns, &channels, sink);
+
+    let signals: Vec<Option<VFunction>> = raw
+        .signals
+        .iter()
+        .map(|s| signal_fn(s, &ns, sink))
+        .collect();
+    let output = raw.output.as_ref().and_then(|o| output_fn(o, &ns, sink));
+    let checks: Vec<Option<VCheck>> = raw
+        .checks
+        .iter()
+        .map(|c| {
+            let def = check_fn(c, &ns, sink);
+            let band = band(sink, &c.band, "the check");
+            let (def, (lower, upper)) = (def?, band?);
+            Some(VCheck {
+                name: c.name.v.clone(),
+                def: def.def,
+                loc: def.loc,
+                lower,
+                upper,
+            })
+        })
+        .collect();
+    let detection = detection(raw, sink);
+    let safety = raw
+        .safety
+        .as_ref()
+        .and_then(|b| band(sink, b, "the safety requirement"));
+    let valid_checks: Vec<&VCheck> = checks.iter().flatten().collect();
+    let faults = validate_faults(raw, &ns, safety, &valid_checks, sink);
+
+    if sink.error_count() > errors_before {
+        return None;
+    }
+    Some(Resolved {
+        name: raw.name.as_ref()?.v.clone(),
+        unit: raw.unit.as_ref()?.v.clone(),
+        full_scale: raw.full_scale.as_ref().map(|f| f.v),
+        sources,
+        channels,
+        correlations,
+        signals: signals.into_iter().collect::<Option<Vec<_>>>()?,
+        output: output?,
+        checks: checks.into_iter().collect::<Option<Vec<_>>>()?,
+        detection: detection?,
+        safety: safety?,
+        faults,
+        source_spans: raw.sources.iter().map(|s| s.name.span).collect(),
+        channel_spans: raw.channels.iter().map(|c| c.name.span).collect(),
+    })
+}
+
+fn validate_correlations(
+    raw: &RawModel,
+    ns: &Namespace,
+    channels: &[VChannel],
+    sink: &mut Sink<'_>,
+) -> Vec<(usize, usize, f64)> {
+    let mut out: Vec<(usize, usize, f64)> = Vec::new();
+    let mut seen: HashMap<(usize, usize), usize> = HashMap::new();
+    let mut spans: Vec<Span> = Vec::new();
+    let mut all_ok = true;
+    for c in &raw.correlations {
+        let (Some((a, b)), Some(rho)) = (&c.between, &c.rho) else {
+            all_ok = false;
+            continue;
+        };
+        let is_channel = |r: NameRef| matches!(r, NameRef::Channel(_));
+        let fix = "correlations are between the own random parts of two channels; a shared \
+                   source induces its correlation by itself";
+        let ra = ns.resolve(sink, a, "a channel", is_channel, fix);
+        let rb = ns.resolve(sink, b, "a channel", is_channel, fix);
+        let mut ok = true;
+        if !(-1.0..=1.0).contains(&rho.v) {
+            rho.error(
+                sink,
+                format!("rho is {}, outside [-1, 1]", rho.v),
+                "give a correlation coefficient between -1 and 1",
+            );
+            ok = false;
+        }
+        let (Some(NameRef::Channel(i)), Some(NameRef::Channel(j))) = (ra, rb) else {
+            all_ok = false;
+            continue;
+        };
+        if i == j {
+            b.error(
+                sink,
+                format!("a correlation of `{}` with itself", a.v),
+                "name two different channels (a channel is always fully correlated with itself)",
+            );
+            ok = false;
+        }
+        let pair = (i.min(j), i.max(j));
+        if let Some(prev) = seen.get(&pair) {
+            let prev_line = spans
+                .get(*prev)
+                .map(|s| sink.line_col(s.start).0)
+                .unwrap_or(0);
+            sink.error(
+                c.span,
+                &c.key,
+                format!(
+                    "the pair ({}, {}) is correlated a second time (first at line {prev_line})",
+                    a.v, b.v
+                ),
+                "keep one [[correlations]] entry per pair",
+            );
+            ok = false;
+        }
+        if ok {
+            seen.insert(pair, out.len());
+            spans.push(c.span);
+            out.push((i, j, rho.v));
+        } else {
+            all_ok = false;
+        }
+    }
+    if all_ok && !out.is_empty() && channels.len() <= limits::MAX_CHANNELS {
+        let n = channels.len();
+        let mut r = DMatrix::<f64>::identity(n, n);
+        for (i, j, rho) in &out {
+            r[(*i, *j)] = *rho;
+            r[(*j, *i)] = *rho;
+        }
+        match psd::check(&r) {
+            PsdVerdict::Ok => {}
+            PsdVerdict::Undecided => sink.error(
+                spans.first().copied().unwrap_or_default(),
+                "correlations",
+                "could not decide whether the correlations are consistent (eigenvalue \
+                 iteration did not converge)",
+                "check the rho values",
+            ),
+            PsdVerdict::Block(block, min) => {
+                let names: Vec<&str> = block.iter().map(|i| channels[*i].name.as_str()).collect();
+                let mut pairs = Vec::new();
+                let mut last = 0;
+                for (k, (i, j, rho)) in out.iter().enumerate() {
+                    if block.contains(i) && block.contains(j) {
+                        pairs.push(format!(
+                            "({}, {}) = {rho}",
+                            channels[*i].name, channels[*j].name
+                        ));
+                        last = last.max(k);
+                    }
+                }
+                let span = spans.get(last).copied().unwrap_or_default();
+                sink.error(
+                    span,
+                    &format!("correlations[{last}]"),
+                    format!(
+                        "the correlations among channels {} are inconsistent: {} cannot hold \
+                         together (the correlation matrix of this block is not positive \
+                         semi-definite, smallest eigenvalue {})",
+                        names.join(", "),
+                        pairs.join(", "),
+                        super::text::short(min)
+                    ),
+                    "reduce the size of one or more of these rho values",
+                );
+            }
+        }
+    }
+    out
+}
+
+/// Reads a band: `limit` or `lower`/`upper`; returns (lower, upper).
+pub(crate) fn band(sink: &mut Sink<'_>, b: &RawBand, what: &str) -> Option<(f64, f64)> {
+    if b.broken {
+        return None;
+    }
+    match (&b.limit, &b.lower, &b.upper) {
+        (Some(l), None, None) => {
+            if l.v == 0.0 {
+                l.error(
+                    sink,
+                    format!("a limit of zero: {what} would {} on any deviation", if what.contains("check") { "fire" } else { "be violated" }),
+                    "give a positive limit in the file's unit",
+                );
+                None
+            } else if l.v < 0.0 {
+                l.error(
+                    sink,
+                    format!("the limit is {}, but it must be positive", l.v),
+                    "give the half-width of the band, e.g. limit = 2.0 for [-2, 2]",
+                );
+                None
+            } else {
+                Some((-l.v, l.v))
+            }
+        }
+        (Some(l), _, _) => {
+            l.error(
+                sink,
+                "gives both `limit` and `lower`/`upper`",
+                "give either limit = L (the band [-L, L]) or lower and upper",
+            );
+            None
+        }
+        (None, None, None) => {
+            sink.error(
+                b.span,
+                &format!("{}.limit", b.key),
+                format!("{what} has no band"),
+                "add limit = 2.0, or lower = .. and/or upper = ..",
+            );
+            None
+        }
+        (None, lo, hi) => {
+            let lower = lo.as_ref().map_or(f64::NEG_INFINITY, |x| x.v);
+            let upper = hi.as_ref().map_or(f64::INFINITY, |x| x.v);
+            if lower >= upper {
+                if let Some(lo) = lo {
+                    lo.error(
+                        sink,
+                        format!("lower = {lower} is not below upper = {upper}"),
+                        "give lower < upper",
+                    );
+                }
+                None
+            } else {
+                Some((lower, upper))
+            }
+        }
+    }
+}
+
+fn detection(raw: &RawModel, sink: &mut Sink<'_>) -> Option<VDetection> {
+    let n = raw.checks.len();
+    match &raw.detection {
+        None => {
+            if n == 0 {
+                sink.warning(
+                    Span::default(),
+                    "checks",
+                    "the file defines no checks: no fault can be detected",
+                    "add [checks.X] sections, or accept a coverage of zero",
+                );
+            }
+            Some(VDetection::Any)
+        }
+        Some(d) => match &d.v {
+            RawFires::Any => {
+                if n == 0 {
+                    d.warning(
+                        sink,
+                        "the file defines no checks: no fault can be detected",
+                        "add [checks.X] sections, or accept a coverage of zero",
+                    );
+                }
+                Some(VDetection::Any)
+            }
+            RawFires::AtLeast(k) => {
+                if k.v < 1 || k.v as u64 > n as u64 {
+                    k.error(
+                        sink,
+                        format!(
+                            "at_least = {} but the file defines {n} check{}",
+                            k.v,
+                            if n == 1 { "" } else { "s" }
+                        ),
+                        if n == 0 {
+                            "add checks, or drop [detection]".to_string()
+                        } else {
+                            format!("give a number from 1 to {n}")
+                        },
+                    );
+                    None
+                } else {
+                    Some(VDetection::AtLeast(k.v as usize))
+                }
+            }
+        },
+    }
+}
