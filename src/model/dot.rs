@@ -41,12 +41,18 @@ pub fn to_dot(arch: &Architecture) -> String {
             NodeKind::Source => {
                 let j = m.sources.iter().position(|s| *s == node.name);
                 let sigma = j.map(|j| num(m.source_sigmas[j])).unwrap_or_default();
-                (format!("{}\nsource, sigma {sigma} {unit}", node.name), "ellipse")
+                (
+                    format!("{}\nsource, sigma {sigma} {unit}", node.name),
+                    "ellipse",
+                )
             }
             NodeKind::Channel => {
                 let i = m.channels.iter().position(|s| *s == node.name);
                 let sigma = i.map(|i| num(m.own_sigmas[i])).unwrap_or_default();
-                (format!("{}\nchannel, own sigma {sigma} {unit}", node.name), "box")
+                (
+                    format!("{}\nchannel, own sigma {sigma} {unit}", node.name),
+                    "box",
+                )
             }
             NodeKind::Signal => {
                 let d = m
@@ -69,7 +75,13 @@ pub fn to_dot(arch: &Architecture) -> String {
             NodeKind::Check => {
                 let c = m.checks.iter().find(|c| c.name == node.name);
                 let text = c
-                    .map(|c| format!("{}\nfires {}", c.description, outside(c.lower, c.upper, unit)))
+                    .map(|c| {
+                        format!(
+                            "{}\nfires {}",
+                            c.description,
+                            outside(c.lower, c.upper, unit)
+                        )
+                    })
                     .unwrap_or_default();
                 (format!("check {}\n{text}", node.name), "hexagon")
             }
@@ -96,7 +108,12 @@ pub fn to_dot(arch: &Architecture) -> String {
         } else {
             ""
         };
-        let _ = writeln!(o, "  {} [label={}, shape={shape}{style}];", quote(&id), quote(&label));
+        let _ = writeln!(
+            o,
+            "  {} [label={}, shape={shape}{style}];",
+            quote(&id),
+            quote(&label)
+        );
     }
     for e in g.edge_indices() {
         let Some((a, b)) = g.edge_endpoints(e) else {
