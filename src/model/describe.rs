@@ -16,6 +16,17 @@ fn pieces(n: usize) -> String {
     }
 }
 
+/// Entry `i` of a vector, NaN when missing (a hand-built model with inconsistent sizes prints
+/// NaN instead of panicking).
+fn at(v: &[f64], i: usize) -> f64 {
+    v.get(i).copied().unwrap_or(f64::NAN)
+}
+
+/// Entry `(i, j)` of a matrix, NaN when missing.
+fn at2(m: &nalgebra::DMatrix<f64>, i: usize, j: usize) -> f64 {
+    m.get((i, j)).copied().unwrap_or(f64::NAN)
+}
+
 fn truncate(s: &str, w: usize) -> String {
     s.chars().take(w).collect()
 }
@@ -51,15 +62,15 @@ pub fn describe(arch: &Architecture) -> String {
         );
         for (j, s) in m.sources.iter().enumerate() {
             let feeds: Vec<String> = (0..m.channels.len())
-                .filter(|i| m.source_gains[(*i, j)] != 0.0)
-                .map(|i| format!("{} x {}", m.channels[i], num(m.source_gains[(i, j)])))
+                .filter(|i| at2(&m.source_gains, *i, j) != 0.0)
+                .map(|i| format!("{} x {}", m.channels[i], num(at2(&m.source_gains, i, j))))
                 .collect();
             let _ = writeln!(
                 o,
                 "  {:<w$}  {:>10}  {:>10}  {}",
                 s,
-                num(m.source_means[j]),
-                num(m.source_sigmas[j]),
+                num(at(&m.source_means, j)),
+                num(at(&m.source_sigmas, j)),
                 if feeds.is_empty() {
                     "(nothing)".into()
                 } else {
@@ -77,15 +88,15 @@ pub fn describe(arch: &Architecture) -> String {
         "name", "mean", "own sigma", "total sigma", "total mean"
     );
     for (i, c) in m.channels.iter().enumerate() {
-        let own_mean = m.own_means[i];
+        let own_mean = at(&m.own_means, i);
         let _ = writeln!(
             o,
             "  {:<w$}  {:>10}  {:>10}  {:>11}  {:>10}",
             c,
             num(own_mean),
-            num(m.own_sigmas[i]),
-            sig(total[i], 4),
-            short(m.mean[i])
+            num(at(&m.own_sigmas, i)),
+            sig(at(&total, i), 4),
+            short(at(&m.mean, i))
         );
     }
 
@@ -105,7 +116,7 @@ pub fn describe(arch: &Architecture) -> String {
         for (i, c) in m.channels.iter().enumerate() {
             let mut row = format!("  {:<w$}", truncate(c, w));
             for j in 0..n {
-                let _ = write!(row, " {:>6.3}", r[(i, j)]);
+                let _ = write!(row, " {:>6.3}", at2(&r, i, j));
             }
             let _ = writeln!(o, "{row}");
         }

@@ -40,7 +40,10 @@ pub fn to_dot(arch: &Architecture) -> String {
         let (label, shape) = match node.kind {
             NodeKind::Source => {
                 let j = m.sources.iter().position(|s| *s == node.name);
-                let sigma = j.map(|j| num(m.source_sigmas[j])).unwrap_or_default();
+                let sigma = j
+                    .and_then(|j| m.source_sigmas.get(j))
+                    .map(|s| num(*s))
+                    .unwrap_or_default();
                 (
                     format!("{}\nsource, sigma {sigma} {unit}", node.name),
                     "ellipse",
@@ -48,7 +51,10 @@ pub fn to_dot(arch: &Architecture) -> String {
             }
             NodeKind::Channel => {
                 let i = m.channels.iter().position(|s| *s == node.name);
-                let sigma = i.map(|i| num(m.own_sigmas[i])).unwrap_or_default();
+                let sigma = i
+                    .and_then(|i| m.own_sigmas.get(i))
+                    .map(|s| num(*s))
+                    .unwrap_or_default();
                 (
                     format!("{}\nchannel, own sigma {sigma} {unit}", node.name),
                     "box",

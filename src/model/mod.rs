@@ -141,13 +141,21 @@ pub fn load_str_with_overrides(
         let model = compile::compile(&resolved, &order, &mut sink)?;
         Some((model, graph))
     });
-    let warnings = sink.finish()?;
     let Some((model, graph)) = compiled else {
-        // every path without a model records an error, so this is not reached
-        return Err(ModelError::Invalid {
+        // Every path without a model records an error; should one not, say so rather than
+        // return an empty list.
+        if sink.error_count() == 0 {
+            sink.error_nowhere(
+                "",
+                "the model could not be compiled (an internal inconsistency of concord)",
+                "report this file to the concord maintainers",
+            );
+        }
+        return Err(sink.finish().err().unwrap_or(ModelError::Invalid {
             diagnostics: Vec::new(),
-        });
+        }));
     };
+    let warnings = sink.finish()?;
     Ok(Architecture {
         path: path_for_messages.to_string(),
         source: text.to_string(),
