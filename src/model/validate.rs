@@ -203,42 +203,42 @@ pub(crate) fn validate(raw: &RawModel, sink: &mut Sink<'_>) -> Option<Resolved> 
         );
     }
     let root = Span::default();
-    let spans = |v: Vec<Span>| v;
-    too_many(
-        sink,
-        &spans(raw.channels.iter().map(|x| x.name.span).collect()),
-        "channels",
-        "channels",
-        limits::MAX_CHANNELS,
-    );
-    too_many(
-        sink,
-        &spans(raw.sources.iter().map(|x| x.name.span).collect()),
-        "sources",
-        "sources",
-        limits::MAX_SOURCES,
-    );
-    too_many(
-        sink,
-        &spans(raw.signals.iter().map(|x| x.name.span).collect()),
-        "signals",
-        "signals",
-        limits::MAX_SIGNALS,
-    );
-    too_many(
-        sink,
-        &spans(raw.checks.iter().map(|x| x.name.span).collect()),
-        "checks",
-        "checks",
-        limits::MAX_CHECKS,
-    );
-    too_many(
-        sink,
-        &spans(raw.faults.iter().map(|x| x.name.span).collect()),
-        "faults",
-        "fault sites",
-        limits::MAX_FAULTS,
-    );
+    let name_spans = |names: &mut dyn Iterator<Item = Span>| names.collect::<Vec<Span>>();
+    let sizes = [
+        (
+            name_spans(&mut raw.channels.iter().map(|x| x.name.span)),
+            "channels",
+            "channels",
+            limits::MAX_CHANNELS,
+        ),
+        (
+            name_spans(&mut raw.sources.iter().map(|x| x.name.span)),
+            "sources",
+            "sources",
+            limits::MAX_SOURCES,
+        ),
+        (
+            name_spans(&mut raw.signals.iter().map(|x| x.name.span)),
+            "signals",
+            "signals",
+            limits::MAX_SIGNALS,
+        ),
+        (
+            name_spans(&mut raw.checks.iter().map(|x| x.name.span)),
+            "checks",
+            "checks",
+            limits::MAX_CHECKS,
+        ),
+        (
+            name_spans(&mut raw.faults.iter().map(|x| x.name.span)),
+            "faults",
+            "fault sites",
+            limits::MAX_FAULTS,
+        ),
+    ];
+    for (spans, key, what, limit) in &sizes {
+        too_many(sink, spans, key, what, *limit);
+    }
 
     let ns = build_namespace(raw, sink);
 
