@@ -88,19 +88,26 @@ fn every_malformed_file_fails_with_its_expected_diagnostics() {
                 ));
             }
         }
-        if let Some(n) = exp.errors {
-            if diags.len() != n {
-                failures.push(format!(
-                    "{}: expected {n} errors, got {}:\n{err}",
-                    file.display(),
-                    diags.len()
-                ));
-            }
+        if let Some(n) = exp.errors
+            && diags.len() != n
+        {
+            failures.push(format!(
+                "{}: expected {n} errors, got {}:\n{err}",
+                file.display(),
+                diags.len()
+            ));
         }
         // every diagnostic names the file and says how to fix it
         for d in diags {
-            if !d.file.ends_with(file.file_name().and_then(|n| n.to_str()).unwrap_or("")) {
-                failures.push(format!("{}: diagnostic names file {}", file.display(), d.file));
+            if !d
+                .file
+                .ends_with(file.file_name().and_then(|n| n.to_str()).unwrap_or(""))
+            {
+                failures.push(format!(
+                    "{}: diagnostic names file {}",
+                    file.display(),
+                    d.file
+                ));
             }
             if d.fix.is_empty() {
                 failures.push(format!("{}: diagnostic without a fix: {d}", file.display()));
@@ -117,7 +124,10 @@ fn three_mistakes_are_reported_together() {
     let keys: Vec<&str> = err.diagnostics().iter().map(|d| d.key.as_str()).collect();
     assert_eq!(keys, ["sources.vref.sigma", "output.of[1]", "safety.limit"]);
     let text = err.to_string();
-    assert!(text.ends_with("3 errors in the architecture file"), "{text}");
+    assert!(
+        text.ends_with("3 errors in the architecture file"),
+        "{text}"
+    );
 }
 
 #[test]

@@ -53,7 +53,9 @@ pub(crate) fn compile(v: &Resolved, order: &[usize], sink: &mut Sink<'_>) -> Opt
     }
 
     let mut b = Builder::new(n);
-    let channel_pw: Vec<Pw> = (0..n).map(|i| b.linear(LinearForm::coordinate(n, i))).collect();
+    let channel_pw: Vec<Pw> = (0..n)
+        .map(|i| b.linear(LinearForm::coordinate(n, i)))
+        .collect();
     let mut signal_pw: Vec<Option<Pw>> = vec![None; v.signals.len()];
     let names = Names { v };
     for &i in order {
@@ -89,11 +91,7 @@ pub(crate) fn compile(v: &Resolved, order: &[usize], sink: &mut Sink<'_>) -> Opt
         let pw = signal_pw[i].as_ref()?;
         signals.push((sig.name.clone(), b.export(pw)));
     }
-    let faults = v
-        .faults
-        .iter()
-        .map(|f| fault(f, &gains, n, sink))
-        .collect();
+    let faults = v.faults.iter().map(|f| fault(f, &gains, n, sink)).collect();
     Some(CompiledModel {
         name: v.name.clone(),
         unit: v.unit.clone(),
@@ -252,7 +250,10 @@ impl Names<'_> {
     }
 
     fn list(&self, rs: &[Reading]) -> String {
-        rs.iter().map(|r| self.name(r)).collect::<Vec<_>>().join(", ")
+        rs.iter()
+            .map(|r| self.name(r))
+            .collect::<Vec<_>>()
+            .join(", ")
     }
 
     /// The function as a formula.
@@ -322,7 +323,13 @@ fn fault(f: &VFault, gains: &DMatrix<f64>, n: usize, sink: &mut Sink<'_>) -> Com
         VAmplitude::Gaussian {
             mean,
             sigma: VSigma::Known(s),
-        } => (Amplitude::Gaussian { mean: *mean, sigma: *s }, false),
+        } => (
+            Amplitude::Gaussian {
+                mean: *mean,
+                sigma: *s,
+            },
+            false,
+        ),
         VAmplitude::Gaussian {
             mean,
             sigma: VSigma::Unknown { lo, hi, defaulted },
@@ -354,7 +361,11 @@ fn fault(f: &VFault, gains: &DMatrix<f64>, n: usize, sink: &mut Sink<'_>) -> Com
         mode,
         amplitude,
         latent_coverage: f.latent_coverage,
-        hits: f.hits.iter().map(|(_, g, name)| (name.clone(), *g)).collect(),
+        hits: f
+            .hits
+            .iter()
+            .map(|(_, g, name)| (name.clone(), *g))
+            .collect(),
         uniform_is_full_scale,
     }
 }

@@ -104,8 +104,8 @@ impl PiecewiseLinear {
     /// The value at `x`, from the piece that contains it (NaN if none does, which the
     /// construction rules out).
     pub fn eval(&self, x: &[f64]) -> f64 {
-        match self.piece_at(x) {
-            Some(i) => self.pieces[i].value.eval(x),
+        match self.piece_at(x).and_then(|i| self.pieces.get(i)) {
+            Some(p) => p.value.eval(x),
             None => f64::NAN,
         }
     }
@@ -231,7 +231,7 @@ pub struct CompiledModel {
 impl CompiledModel {
     /// Total standard deviation of each channel (square root of the covariance diagonal).
     pub fn total_sigmas(&self) -> Vec<f64> {
-        (0..self.channels.len())
+        (0..self.covariance.nrows().min(self.covariance.ncols()))
             .map(|i| self.covariance[(i, i)].max(0.0).sqrt())
             .collect()
     }

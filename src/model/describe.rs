@@ -16,6 +16,17 @@ fn pieces(n: usize) -> String {
     }
 }
 
+/// Entry `i` of a vector, NaN when missing (a hand-built model with inconsistent sizes prints
+/// NaN instead of panicking).
+fn at(v: &[f64], i: usize) -> f64 {
+    v.get(i).copied().unwrap_or(f64::NAN)
+}
+
+/// Entry `(i, j)` of a matrix, NaN when missing.
+fn at2(m: &nalgebra::DMatrix<f64>, i: usize, j: usize) -> f64 {
+    m.get((i, j)).copied().unwrap_or(f64::NAN)
+}
+
 fn truncate(s: &str, w: usize) -> String {
     s.chars().take(w).collect()
 }
@@ -26,7 +37,8 @@ pub fn describe(arch: &Architecture) -> String {
     let unit = &m.unit;
     let mut o = String::new();
     let _ = writeln!(o, "Architecture: {}", m.name);
-    let _ = write!(o, "  file: {}   unit: {unit}", arch.path);
+    let _ = writeln!(o, "  file: {}", arch.path);
+    let _ = write!(o, "  unit: {unit}");
     if let Some((a, b)) = m.full_scale {
         let _ = write!(o, "   full scale: {} {unit}", band(a, b));
     }
@@ -43,19 +55,27 @@ pub fn describe(arch: &Architecture) -> String {
 
     if !m.sources.is_empty() {
         let _ = writeln!(o, "\nShared sources ({})", m.sources.len());
-        let _ = writeln!(o, "  {:<w$}  {:>10}  {:>10}  feeds", "name", "mean", "sigma");
+        let _ = writeln!(
+            o,
+            "  {:<w$}  {:>10}  {:>10}  feeds",
+            "name", "mean", "sigma"
+        );
         for (j, s) in m.sources.iter().enumerate() {
             let feeds: Vec<String> = (0..m.channels.len())
-                .filter(|i| m.source_gains[(*i, j)] != 0.0)
-                .map(|i| format!("{} x {}", m.channels[i], num(m.source_gains[(i, j)])))
+                .filter(|i| at2(&m.source_gains, *i, j) != 0.0)
+                .map(|i| format!("{} x {}", m.channels[i], num(at2(&m.source_gains, i, j))))
                 .collect();
             let _ = writeln!(
                 o,
                 "  {:<w$}  {:>10}  {:>10}  {}",
                 s,
-                num(m.source_means[j]),
-                num(m.source_sigmas[j]),
-                if feeds.is_empty() { "(nothing)".into() } else { feeds.join(", ") }
+                num(at(&m.source_means, j)),
+                num(at(&m.source_sigmas, j)),
+                if feeds.is_empty() {
+                    "(nothing)".into()
+                } else {
+                    feeds.join(", ")
+                }
             );
         }
     }
@@ -68,22 +88,25 @@ pub fn describe(arch: &Architecture) -> String {
         "name", "mean", "own sigma", "total sigma", "total mean"
     );
     for (i, c) in m.channels.iter().enumerate() {
-        let own_mean = m.own_means[i];
+        let own_mean = at(&m.own_means, i);
         let _ = writeln!(
             o,
             "  {:<w$}  {:>10}  {:>10}  {:>11}  {:>10}",
             c,
             num(own_mean),
-            num(m.own_sigmas[i]),
-            sig(total[i], 4),
-            short(m.mean[i])
+            num(at(&m.own_sigmas, i)),
+            sig(at(&total, i), 4),
+            short(at(&m.mean, i))
         );
     }
 
     let n = m.channels.len();
     if n > 1 {
         let r = m.total_correlation();
-        let _ = writeln!(o, "\nTotal correlation (own correlations plus shared sources)");
+        let _ = writeln!(
+            o,
+            "\nTotal correlation (own correlations plus shared sources)"
+        );
         let w = w.min(12);
         let mut head = format!("  {:<w$}", "");
         for c in &m.channels {
@@ -93,7 +116,7 @@ pub fn describe(arch: &Architecture) -> String {
         for (i, c) in m.channels.iter().enumerate() {
             let mut row = format!("  {:<w$}", truncate(c, w));
             for j in 0..n {
-                let _ = write!(row, " {:>6.3}", r[(i, j)]);
+                let _ = write!(row, " {:>6.3}", at2(&r, i, j));
             }
             let _ = writeln!(o, "{row}");
         }
@@ -146,28 +169,42 @@ pub fn describe(arch: &Architecture) -> String {
         num(total_fit)
     );
     for f in &m.faults {
-        let hits: Vec<String> = f.hits.iter().map(|(h, g)| format!("{h} x {}", num(*g))).collect();
+        let hits: Vec<String> = f
+            .hits
+            .iter()
+            .map(|(h, g)| format!("{h} x {}", num(*g)))
+            .collect();
         let mode = match &f.mode {
             FaultMode::Add { .. } => "add",
             FaultMode::Replace { .. } => "replace",
         };
-        let _ = write!(o, "  {}: {} FIT, {mode}, hits {}", f.name, num(f.fit), hits.join(", "));
+        let _ = write!(
+            o,
+            "  {}: {} FIT, {mode}, hits {}",
+            f.name,
+            num(f.fit),
+            hits.join(", ")
+        );
         if f.latent_coverage > 0.0 {
             let _ = write!(o, ", latent coverage {}", num(f.latent_coverage));
         }
         o.push('\n');
-        if let FaultMode::Add { direction } = &f.mode {
-            if f.hits.len() > 1 || direction.iter().filter(|d| **d != 0.0).count() > 1 {
-                let d: Vec<String> = direction
-                    .iter()
-                    .zip(&m.channels)
-                    .filter(|(d, _)| **d != 0.0)
-                    .map(|(d, c)| format!("{c} x {}", num(*d)))
-                    .collect();
-                let _ = writeln!(o, "      reaches {}", d.join(", "));
-            }
+        if let FaultMode::Add { direction } = &f.mode
+            && (f.hits.len() > 1 || direction.iter().filter(|d| **d != 0.0).count() > 1)
+        {
+            let d: Vec<String> = direction
+                .iter()
+                .zip(&m.channels)
+                .filter(|(d, _)| **d != 0.0)
+                .map(|(d, c)| format!("{c} x {}", num(*d)))
+                .collect();
+            let _ = writeln!(o, "      reaches {}", d.join(", "));
         }
-        let _ = writeln!(o, "      amplitude: {}", amplitude(&f.amplitude, f.uniform_is_full_scale, unit));
+        let _ = writeln!(
+            o,
+            "      amplitude: {}",
+            amplitude(&f.amplitude, f.uniform_is_full_scale, unit)
+        );
     }
 
     let _ = writeln!(o, "\nWarnings ({})", arch.warnings.len());
@@ -181,7 +218,11 @@ pub fn describe(arch: &Architecture) -> String {
 pub(crate) fn amplitude(a: &Amplitude, full_scale: bool, unit: &str) -> String {
     match a {
         Amplitude::Gaussian { mean, sigma } => {
-            format!("gaussian, mean {} {unit}, sigma {} {unit}", num(*mean), num(*sigma))
+            format!(
+                "gaussian, mean {} {unit}, sigma {} {unit}",
+                num(*mean),
+                num(*sigma)
+            )
         }
         Amplitude::GaussianUnknownSigma {
             mean,

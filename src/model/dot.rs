@@ -40,13 +40,25 @@ pub fn to_dot(arch: &Architecture) -> String {
         let (label, shape) = match node.kind {
             NodeKind::Source => {
                 let j = m.sources.iter().position(|s| *s == node.name);
-                let sigma = j.map(|j| num(m.source_sigmas[j])).unwrap_or_default();
-                (format!("{}\nsource, sigma {sigma} {unit}", node.name), "ellipse")
+                let sigma = j
+                    .and_then(|j| m.source_sigmas.get(j))
+                    .map(|s| num(*s))
+                    .unwrap_or_default();
+                (
+                    format!("{}\nsource, sigma {sigma} {unit}", node.name),
+                    "ellipse",
+                )
             }
             NodeKind::Channel => {
                 let i = m.channels.iter().position(|s| *s == node.name);
-                let sigma = i.map(|i| num(m.own_sigmas[i])).unwrap_or_default();
-                (format!("{}\nchannel, own sigma {sigma} {unit}", node.name), "box")
+                let sigma = i
+                    .and_then(|i| m.own_sigmas.get(i))
+                    .map(|s| num(*s))
+                    .unwrap_or_default();
+                (
+                    format!("{}\nchannel, own sigma {sigma} {unit}", node.name),
+                    "box",
+                )
             }
             NodeKind::Signal => {
                 let d = m
@@ -69,7 +81,13 @@ pub fn to_dot(arch: &Architecture) -> String {
             NodeKind::Check => {
                 let c = m.checks.iter().find(|c| c.name == node.name);
                 let text = c
-                    .map(|c| format!("{}\nfires {}", c.description, outside(c.lower, c.upper, unit)))
+                    .map(|c| {
+                        format!(
+                            "{}\nfires {}",
+                            c.description,
+                            outside(c.lower, c.upper, unit)
+                        )
+                    })
                     .unwrap_or_default();
                 (format!("check {}\n{text}", node.name), "hexagon")
             }
@@ -96,7 +114,12 @@ pub fn to_dot(arch: &Architecture) -> String {
         } else {
             ""
         };
-        let _ = writeln!(o, "  {} [label={}, shape={shape}{style}];", quote(&id), quote(&label));
+        let _ = writeln!(
+            o,
+            "  {} [label={}, shape={shape}{style}];",
+            quote(&id),
+            quote(&label)
+        );
     }
     for e in g.edge_indices() {
         let Some((a, b)) = g.edge_endpoints(e) else {

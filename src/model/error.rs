@@ -277,10 +277,7 @@ impl<'a> Sink<'a> {
                 Severity::Error,
                 None,
                 "",
-                format!(
-                    "{} further errors were found and not listed",
-                    self.dropped
-                ),
+                format!("{} further errors were found and not listed", self.dropped),
                 "fix the errors above and load the file again".to_string(),
             );
             self.errors.push(d);

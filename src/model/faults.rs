@@ -87,7 +87,10 @@ fn fault(
         if fit.v < 0.0 {
             fit.error(
                 sink,
-                format!("the failure rate is {} FIT, but it cannot be negative", fit.v),
+                format!(
+                    "the failure rate is {} FIT, but it cannot be negative",
+                    fit.v
+                ),
                 "give the rate in FIT (failures per 1e9 hours), >= 0",
             );
             ok = false;
@@ -131,46 +134,49 @@ fn fault(
             }
         }
     }
-    if let (Some(mode), Some(h)) = (&f.mode, &f.hits) {
-        if mode.v == Mode::Replace {
-            if h.v.len() > 1 {
-                h.error(
-                    sink,
-                    format!(
-                        "a replace-mode fault must hit exactly one channel, this one hits {}",
-                        h.v.len()
-                    ),
-                    "split it into one site per channel, or use mode = \"add\"",
-                );
-                ok = false;
-            }
-            for (name, _) in &h.v {
-                if let Some(NameRef::Source(_)) = ns.get(&name.v) {
-                    name.error(
-                        sink,
-                        format!(
-                            "a replace-mode fault cannot hit the shared source `{}`: only a \
-                             channel reading can be replaced",
-                            name.v
-                        ),
-                        "hit the channel whose reading is replaced, or use mode = \"add\" \
-                         for a fault of the source",
-                    );
-                    ok = false;
-                }
-            }
-        }
-    }
-    let amplitude = f.amplitude.as_ref().and_then(|a| amplitude(a, raw, default_range, sink));
-    if let Some(lc) = &f.latent_coverage {
-        if !(0.0..=1.0).contains(&lc.v) {
-            lc.error(
+    if let (Some(mode), Some(h)) = (&f.mode, &f.hits)
+        && mode.v == Mode::Replace
+    {
+        if h.v.len() > 1 {
+            h.error(
                 sink,
-                format!("latent_coverage is {}, outside [0, 1]", lc.v),
-                "give the share of latent faults found by other means, from 0 to 1",
+                format!(
+                    "a replace-mode fault must hit exactly one channel, this one hits {}",
+                    h.v.len()
+                ),
+                "split it into one site per channel, or use mode = \"add\"",
             );
             ok = false;
         }
+        for (name, _) in &h.v {
+            if let Some(NameRef::Source(_)) = ns.get(&name.v) {
+                name.error(
+                    sink,
+                    format!(
+                        "a replace-mode fault cannot hit the shared source `{}`: only a \
+                             channel reading can be replaced",
+                        name.v
+                    ),
+                    "hit the channel whose reading is replaced, or use mode = \"add\" \
+                         for a fault of the source",
+                );
+                ok = false;
+            }
+        }
+    }
+    let amplitude = f
+        .amplitude
+        .as_ref()
+        .and_then(|a| amplitude(a, raw, default_range, sink));
+    if let Some(lc) = &f.latent_coverage
+        && !(0.0..=1.0).contains(&lc.v)
+    {
+        lc.error(
+            sink,
+            format!("latent_coverage is {}, outside [0, 1]", lc.v),
+            "give the share of latent faults found by other means, from 0 to 1",
+        );
+        ok = false;
     }
     let mode = match f.mode.as_ref()?.v {
         Mode::Add => VMode::Add,
@@ -222,7 +228,10 @@ fn amplitude(
                     if lo.v <= 0.0 {
                         lo.error(
                             sink,
-                            format!("the search range starts at {}, but must start above 0", lo.v),
+                            format!(
+                                "the search range starts at {}, but must start above 0",
+                                lo.v
+                            ),
                             "give a small positive lower end, e.g. unknown = [0.01, 1000.0]",
                         );
                         return None;

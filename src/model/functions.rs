@@ -50,7 +50,10 @@ fn list(
         Args::One(name) => {
             of.error(
                 sink,
-                format!("{what} takes a list of names, found the single name \"{}\"", name.v),
+                format!(
+                    "{what} takes a list of names, found the single name \"{}\"",
+                    name.v
+                ),
                 format!("write of = [\"{}\", ...]", name.v),
             );
             return None;
@@ -261,7 +264,10 @@ pub(crate) fn output_fn(o: &RawOutput, ns: &Namespace, sink: &mut Sink<'_>) -> O
     let def = match kind.v {
         OutputKind::Mean => FnDef::Mean(list(ns, sink, of, &what, 1, limits::MAX_ARGS)?),
         OutputKind::Select => FnDef::Select(one(ns, sink, of, &what)?),
-        OutputKind::Median => FnDef::Order(Stat::Median, list(ns, sink, of, &what, 2, max_order_args())?),
+        OutputKind::Median => FnDef::Order(
+            Stat::Median,
+            list(ns, sink, of, &what, 2, max_order_args())?,
+        ),
         OutputKind::Min => FnDef::Order(Stat::Min, list(ns, sink, of, &what, 2, max_order_args())?),
         OutputKind::Max => FnDef::Order(Stat::Max, list(ns, sink, of, &what, 2, max_order_args())?),
         OutputKind::Weighted => {
@@ -315,16 +321,16 @@ pub(crate) fn check_fn(c: &RawCheck, ns: &Namespace, sink: &mut Sink<'_>) -> Opt
     }
     let def = match kind.v {
         CheckKind::Difference => {
-            if let Args::List(names) = &of.v {
-                if names.len() != 2 {
-                    of.error(
-                        sink,
-                        format!("{what} takes exactly two names, found {}", names.len()),
-                        "write of = [\"a\", \"b\"] (the check value is a - b); use kind = \
+            if let Args::List(names) = &of.v
+                && names.len() != 2
+            {
+                of.error(
+                    sink,
+                    format!("{what} takes exactly two names, found {}", names.len()),
+                    "write of = [\"a\", \"b\"] (the check value is a - b); use kind = \
                          \"spread\" for more than two",
-                    );
-                    return None;
-                }
+                );
+                return None;
             }
             let a = list(ns, sink, of, &what, 2, 2)?;
             FnDef::Difference(*a.first()?, *a.get(1)?)

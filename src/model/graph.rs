@@ -140,7 +140,11 @@ pub(crate) fn build(m: &Resolved) -> ModelGraph {
 
 /// Reports cycles among derived signals; returns the signal indices in an evaluation order
 /// (inputs first) when there is none.
-pub(crate) fn signal_order(m: &Resolved, g: &ModelGraph, sink: &mut Sink<'_>) -> Option<Vec<usize>> {
+pub(crate) fn signal_order(
+    m: &Resolved,
+    g: &ModelGraph,
+    sink: &mut Sink<'_>,
+) -> Option<Vec<usize>> {
     let signal_index: HashMap<NodeIndex, usize> = m
         .signals
         .iter()
@@ -154,7 +158,11 @@ pub(crate) fn signal_order(m: &Resolved, g: &ModelGraph, sink: &mut Sink<'_>) ->
             continue;
         }
         cyclic = true;
-        let mut members: Vec<usize> = scc.iter().filter_map(|n| signal_index.get(n)).copied().collect();
+        let mut members: Vec<usize> = scc
+            .iter()
+            .filter_map(|n| signal_index.get(n))
+            .copied()
+            .collect();
         members.sort_unstable();
         let cycle = cycle_path(g, &scc);
         let first = members.first().copied().unwrap_or(0);
@@ -176,7 +184,13 @@ pub(crate) fn signal_order(m: &Resolved, g: &ModelGraph, sink: &mut Sink<'_>) ->
         return None;
     }
     let order = g.topological_order()?;
-    Some(order.iter().filter_map(|n| signal_index.get(n)).copied().collect())
+    Some(
+        order
+            .iter()
+            .filter_map(|n| signal_index.get(n))
+            .copied()
+            .collect(),
+    )
 }
 
 /// A cycle through the first node of a strongly connected component, as names.
@@ -249,14 +263,20 @@ pub(crate) fn unused(m: &Resolved, g: &ModelGraph, sink: &mut Sink<'_>) {
             sink.warning(
                 span,
                 &format!("channels.{}", c.name),
-                format!("channel `{}` is used by neither the output nor any check", c.name),
+                format!(
+                    "channel `{}` is used by neither the output nor any check",
+                    c.name
+                ),
                 "use it in the output, a signal or a check, or remove it",
             );
         }
     }
     for (i, s) in m.sources.iter().enumerate() {
         if !is_used(NodeKind::Source, &s.name) {
-            let feeds = m.channels.iter().any(|c| c.from.iter().any(|(j, _)| *j == i));
+            let feeds = m
+                .channels
+                .iter()
+                .any(|c| c.from.iter().any(|(j, _)| *j == i));
             let span = m.source_spans.get(i).copied().unwrap_or_default();
             sink.warning(
                 span,
@@ -275,7 +295,10 @@ pub(crate) fn unused(m: &Resolved, g: &ModelGraph, sink: &mut Sink<'_>) {
             sink.warning(
                 s.loc.span,
                 &s.loc.key,
-                format!("signal `{}` is used by neither the output nor any check", s.name),
+                format!(
+                    "signal `{}` is used by neither the output nor any check",
+                    s.name
+                ),
                 "use it, or remove it",
             );
         }

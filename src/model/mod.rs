@@ -61,18 +61,18 @@ pub fn load(path: &Path) -> Result<Architecture, ModelError> {
             severity: Severity::Error,
         },
     };
-    if let Ok(meta) = std::fs::metadata(path) {
-        if meta.len() > limits::MAX_FILE_BYTES as u64 {
-            return Err(read_error(
-                format!(
-                    "the file has {} bytes, more than the limit of {} (an architecture file \
+    if let Ok(meta) = std::fs::metadata(path)
+        && meta.len() > limits::MAX_FILE_BYTES as u64
+    {
+        return Err(read_error(
+            format!(
+                "the file has {} bytes, more than the limit of {} (an architecture file \
                      has a few kilobytes)",
-                    meta.len(),
-                    limits::MAX_FILE_BYTES
-                ),
-                "give the architecture file, not a data file",
-            ));
-        }
+                meta.len(),
+                limits::MAX_FILE_BYTES
+            ),
+            "give the architecture file, not a data file",
+        ));
     }
     let bytes = std::fs::read(path).map_err(|e| {
         read_error(
@@ -82,7 +82,10 @@ pub fn load(path: &Path) -> Result<Architecture, ModelError> {
     })?;
     let text = String::from_utf8(bytes).map_err(|e| {
         read_error(
-            format!("the file is not UTF-8 text (invalid byte at offset {})", e.utf8_error().valid_up_to()),
+            format!(
+                "the file is not UTF-8 text (invalid byte at offset {})",
+                e.utf8_error().valid_up_to()
+            ),
             "save the file as UTF-8",
         )
     })?;
@@ -138,13 +141,21 @@ pub fn load_str_with_overrides(
         let model = compile::compile(&resolved, &order, &mut sink)?;
         Some((model, graph))
     });
-    let warnings = sink.finish()?;
     let Some((model, graph)) = compiled else {
-        // every path without a model records an error, so this is not reached
-        return Err(ModelError::Invalid {
+        // Every path without a model records an error; should one not, say so rather than
+        // return an empty list.
+        if sink.error_count() == 0 {
+            sink.error_nowhere(
+                "",
+                "the model could not be compiled (an internal inconsistency of concord)",
+                "report this file to the concord maintainers",
+            );
+        }
+        return Err(sink.finish().err().unwrap_or(ModelError::Invalid {
             diagnostics: Vec::new(),
-        });
+        }));
     };
+    let warnings = sink.finish()?;
     Ok(Architecture {
         path: path_for_messages.to_string(),
         source: text.to_string(),

@@ -11,7 +11,14 @@ use super::error::Sink;
 use super::tree::{Entry, Node, Value};
 
 /// Keys that may be added by an override when the file leaves them out.
-const OPTIONAL_NUMERIC: &[&str] = &["mean", "limit", "lower", "upper", "constant", "latent_coverage"];
+const OPTIONAL_NUMERIC: &[&str] = &[
+    "mean",
+    "limit",
+    "lower",
+    "upper",
+    "constant",
+    "latent_coverage",
+];
 
 /// Applies every override; records an error for each path that names nothing settable.
 pub(crate) fn apply(root: &mut Node, overrides: &[(String, f64)], sink: &mut Sink<'_>) {

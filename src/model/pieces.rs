@@ -54,6 +54,9 @@ pub(crate) struct Pw {
 
 type Key = (Vec<u64>, u64, bool);
 
+/// One combination of pieces: the merged guards and the value of each factor.
+type Combo = (Vec<u32>, Vec<LinearForm>);
+
 /// A guard after simplification.
 #[derive(Clone)]
 enum Interned {
@@ -170,10 +173,10 @@ impl Builder {
         let negated = neg(&form);
         let nk = key(&negated, !strict);
         let nid = self.index.get(&nk).copied();
-        if let Some(nid) = nid {
-            if let Some(slot) = self.neg.get_mut(nid as usize) {
-                *slot = Some(id);
-            }
+        if let Some(nid) = nid
+            && let Some(slot) = self.neg.get_mut(nid as usize)
+        {
+            *slot = Some(id);
         }
         self.guards.push(Guard { form, strict });
         self.neg.push(nid);
@@ -209,10 +212,10 @@ impl Builder {
             out.push(next);
         }
         for g in &out {
-            if let Some(Some(n)) = self.neg.get(*g as usize) {
-                if out.binary_search(n).is_ok() {
-                    return None;
-                }
+            if let Some(Some(n)) = self.neg.get(*g as usize)
+                && out.binary_search(n).is_ok()
+            {
+                return None;
             }
         }
         Some(out)
@@ -229,8 +232,8 @@ impl Builder {
     }
 
     /// Every non-empty combination of one piece from each function: (guards, values).
-    fn product(&self, fns: &[&Pw]) -> Result<Vec<(Vec<u32>, Vec<LinearForm>)>, PieceError> {
-        let mut acc: Vec<(Vec<u32>, Vec<LinearForm>)> = vec![(Vec::new(), Vec::new())];
+    fn product(&self, fns: &[&Pw]) -> Result<Vec<Combo>, PieceError> {
+        let mut acc: Vec<Combo> = vec![(Vec::new(), Vec::new())];
         let mut pairs = 0usize;
         for f in fns {
             let mut next = Vec::new();
@@ -329,7 +332,9 @@ impl Builder {
                 let value = match kind {
                     OrderKind::Min => v(0).clone(),
                     OrderKind::Max => v(k - 1).clone(),
-                    OrderKind::Spread => combine_forms(&[(1.0, v(k - 1)), (-1.0, v(0))], 0.0, self.n),
+                    OrderKind::Spread => {
+                        combine_forms(&[(1.0, v(k - 1)), (-1.0, v(0))], 0.0, self.n)
+                    }
                     OrderKind::Median if k % 2 == 1 => v(k / 2).clone(),
                     OrderKind::Median => {
                         combine_forms(&[(0.5, v(k / 2 - 1)), (0.5, v(k / 2))], 0.0, self.n)
@@ -380,9 +385,13 @@ mod tests {
     #[test]
     fn median_of_three_has_six_pieces_with_three_guards() {
         let mut b = Builder::new(3);
-        let args: Vec<Pw> = (0..3).map(|i| b.linear(LinearForm::coordinate(3, i))).collect();
+        let args: Vec<Pw> = (0..3)
+            .map(|i| b.linear(LinearForm::coordinate(3, i)))
+            .collect();
         let refs: Vec<&Pw> = args.iter().collect();
-        let m = b.order(&refs, OrderKind::Median).unwrap_or(Pw { pieces: vec![] });
+        let m = b
+            .order(&refs, OrderKind::Median)
+            .unwrap_or(Pw { pieces: vec![] });
         assert_eq!(m.pieces.len(), 6);
         assert!(m.pieces.iter().all(|p| p.guards.len() == 3));
         let f = b.export(&m);
@@ -395,12 +404,20 @@ mod tests {
     #[test]
     fn product_of_same_orderings_drops_contradictions() {
         let mut b = Builder::new(3);
-        let args: Vec<Pw> = (0..3).map(|i| b.linear(LinearForm::coordinate(3, i))).collect();
+        let args: Vec<Pw> = (0..3)
+            .map(|i| b.linear(LinearForm::coordinate(3, i)))
+            .collect();
         let refs: Vec<&Pw> = args.iter().collect();
-        let m = b.order(&refs, OrderKind::Median).unwrap_or(Pw { pieces: vec![] });
-        let s = b.order(&refs, OrderKind::Spread).unwrap_or(Pw { pieces: vec![] });
+        let m = b
+            .order(&refs, OrderKind::Median)
+            .unwrap_or(Pw { pieces: vec![] });
+        let s = b
+            .order(&refs, OrderKind::Spread)
+            .unwrap_or(Pw { pieces: vec![] });
         // median + spread over the same arguments: 6 x 6 pairs, only the 6 matching survive
-        let c = b.combine(&[(1.0, &m), (1.0, &s)], 0.0).unwrap_or(Pw { pieces: vec![] });
+        let c = b
+            .combine(&[(1.0, &m), (1.0, &s)], 0.0)
+            .unwrap_or(Pw { pieces: vec![] });
         assert_eq!(c.pieces.len(), 6);
     }
 }

@@ -26,7 +26,12 @@ impl<T> Sp<T> {
     }
 
     /// Records an error about this value.
-    pub(crate) fn error(&self, sink: &mut Sink<'_>, message: impl Into<String>, fix: impl Into<String>) {
+    pub(crate) fn error(
+        &self,
+        sink: &mut Sink<'_>,
+        message: impl Into<String>,
+        fix: impl Into<String>,
+    ) {
         let mut message = message.into();
         if self.overridden {
             message.push_str(" (the value was set by an override)");
@@ -35,7 +40,12 @@ impl<T> Sp<T> {
     }
 
     /// Records a warning about this value.
-    pub(crate) fn warning(&self, sink: &mut Sink<'_>, message: impl Into<String>, fix: impl Into<String>) {
+    pub(crate) fn warning(
+        &self,
+        sink: &mut Sink<'_>,
+        message: impl Into<String>,
+        fix: impl Into<String>,
+    ) {
         sink.warning(self.span, &self.key, message, fix);
     }
 }
@@ -164,7 +174,10 @@ pub(crate) enum RawSigma {
 
 #[derive(Debug, Clone, PartialEq)]
 pub(crate) enum RawAmplitude {
-    Gaussian { mean: Sp<f64>, sigma: Sp<RawSigma> },
+    Gaussian {
+        mean: Sp<f64>,
+        sigma: Sp<RawSigma>,
+    },
     UniformFullScale,
     Uniform(Sp<f64>, Sp<f64>),
     /// `(value, weight)` pairs.

@@ -49,7 +49,13 @@ pub(crate) fn read(root: &Node, sink: &mut Sink<'_>) -> RawModel {
         model.full_scale = pair(sink, &e.value, "full_scale", "full_scale = [-540.0, 540.0]");
     }
     if let Some(e) = top.take("sources") {
-        for (name, t) in named_tables(sink, e, "sources", &mut model.names_incomplete, "[sources.vref]") {
+        for (name, t) in named_tables(
+            sink,
+            e,
+            "sources",
+            &mut model.names_incomplete,
+            "[sources.vref]",
+        ) {
             if let Some(s) = read_source(sink, name, t) {
                 model.sources.push(s);
             }
@@ -58,7 +64,13 @@ pub(crate) fn read(root: &Node, sink: &mut Sink<'_>) -> RawModel {
     match top.take("channels") {
         Some(e) => {
             model.channels_given = true;
-            for (name, t) in named_tables(sink, e, "channels", &mut model.names_incomplete, "[channels.a]") {
+            for (name, t) in named_tables(
+                sink,
+                e,
+                "channels",
+                &mut model.names_incomplete,
+                "[channels.a]",
+            ) {
                 if let Some(c) = read_channel(sink, name, t) {
                     model.channels.push(c);
                 }
@@ -75,7 +87,13 @@ pub(crate) fn read(root: &Node, sink: &mut Sink<'_>) -> RawModel {
         model.correlations = read_correlations(sink, &e.value);
     }
     if let Some(e) = top.take("signals") {
-        for (name, t) in named_tables(sink, e, "signals", &mut model.names_incomplete, "[signals.est]") {
+        for (name, t) in named_tables(
+            sink,
+            e,
+            "signals",
+            &mut model.names_incomplete,
+            "[signals.est]",
+        ) {
             model.signals.push(read_signal(sink, name, t));
         }
     }
@@ -89,7 +107,13 @@ pub(crate) fn read(root: &Node, sink: &mut Sink<'_>) -> RawModel {
         ),
     }
     if let Some(e) = top.take("checks") {
-        for (name, t) in named_tables(sink, e, "checks", &mut model.names_incomplete, "[checks.ab]") {
+        for (name, t) in named_tables(
+            sink,
+            e,
+            "checks",
+            &mut model.names_incomplete,
+            "[checks.ab]",
+        ) {
             model.checks.push(read_check(sink, name, t));
         }
     }
@@ -112,7 +136,13 @@ pub(crate) fn read(root: &Node, sink: &mut Sink<'_>) -> RawModel {
         ),
     }
     if let Some(e) = top.take("faults") {
-        for (name, t) in named_tables(sink, e, "faults", &mut model.names_incomplete, "[faults.a_drift]") {
+        for (name, t) in named_tables(
+            sink,
+            e,
+            "faults",
+            &mut model.names_incomplete,
+            "[faults.a_drift]",
+        ) {
             model.faults.push(read_fault(sink, name, t));
         }
     }
@@ -333,7 +363,10 @@ fn pair(sink: &mut Sink<'_>, node: &Node, key: &str, example: &str) -> Option<Sp
         sink.error(
             node.span,
             key,
-            format!("expected two numbers [lower, upper], found {} values", items.len()),
+            format!(
+                "expected two numbers [lower, upper], found {} values",
+                items.len()
+            ),
             format!("write it as {example}"),
         );
         return None;
@@ -463,7 +496,12 @@ fn args(sink: &mut Sink<'_>, node: &Node, key: &str) -> Option<Sp<Args>> {
             let mut names = Vec::new();
             let mut ok = true;
             for (i, item) in items.iter().enumerate() {
-                match string(sink, item, &format!("{key}[{i}]"), "a quoted name like \"a\"") {
+                match string(
+                    sink,
+                    item,
+                    &format!("{key}[{i}]"),
+                    "a quoted name like \"a\"",
+                ) {
                     Some(s) => names.push(s),
                     None => ok = false,
                 }
@@ -481,11 +519,7 @@ fn args(sink: &mut Sink<'_>, node: &Node, key: &str) -> Option<Sp<Args>> {
 }
 
 /// A kind keyword out of `allowed`.
-fn kind<T: Copy>(
-    sink: &mut Sink<'_>,
-    t: &mut Tbl<'_>,
-    allowed: &[(&str, T)],
-) -> Option<Sp<T>> {
+fn kind<T: Copy>(sink: &mut Sink<'_>, t: &mut Tbl<'_>, allowed: &[(&str, T)]) -> Option<Sp<T>> {
     let key = t.path("kind");
     let names: Vec<&str> = allowed.iter().map(|(n, _)| *n).collect();
     let example = format!("kind = \"{}\"", names.first().copied().unwrap_or(""));
@@ -546,8 +580,9 @@ fn read_channel(sink: &mut Sink<'_>, name: Sp<String>, mut t: Tbl<'_>) -> Option
         .req_num(sink, "sigma", "sigma = 0.5")
         .unwrap_or_else(|| Sp::new(0.0, t.span, t.path("sigma")));
     let from = match t.take("from") {
-        Some(e) => weights(sink, &e.value, &t.path("from"), "from = { vref = 1.0 }")
-            .unwrap_or_default(),
+        Some(e) => {
+            weights(sink, &e.value, &t.path("from"), "from = { vref = 1.0 }").unwrap_or_default()
+        }
         None => Vec::new(),
     };
     t.finish(sink, &["mean", "sigma", "from"]);
@@ -603,7 +638,13 @@ fn read_correlations(sink: &mut Sink<'_>, node: &Node) -> Vec<RawCorrelation> {
                     None
                 }
                 _ => {
-                    type_error(sink, &e.value, &between_key, "two channel names", "between = [\"a\", \"b\"]");
+                    type_error(
+                        sink,
+                        &e.value,
+                        &between_key,
+                        "two channel names",
+                        "between = [\"a\", \"b\"]",
+                    );
                     None
                 }
             },
@@ -754,9 +795,9 @@ fn read_detection(sink: &mut Sink<'_>, node: &Node) -> Option<Sp<RawFires>> {
             }
             Value::Table(_) => {
                 let mut ft = Tbl::of(&e.value, &key, sink)?;
-                let k = ft.take("at_least").and_then(|a| {
-                    int(sink, &a.value, &join(&key, "at_least"), "at_least = 2")
-                });
+                let k = ft
+                    .take("at_least")
+                    .and_then(|a| int(sink, &a.value, &join(&key, "at_least"), "at_least = 2"));
                 if k.is_none() && ft.entries.iter().all(|x| x.key != "at_least") {
                     sink.error(
                         e.value.span,
@@ -877,7 +918,11 @@ fn read_amplitude(sink: &mut Sink<'_>, node: &Node, key: &str) -> Option<Sp<RawA
             format!(
                 "gives {} amplitude models ({}); a fault has exactly one",
                 known.len(),
-                known.iter().map(|e| e.key.as_str()).collect::<Vec<_>>().join(", ")
+                known
+                    .iter()
+                    .map(|e| e.key.as_str())
+                    .collect::<Vec<_>>()
+                    .join(", ")
             )
         };
         for k in AMPLITUDE_KINDS {
@@ -926,7 +971,12 @@ fn read_gaussian(sink: &mut Sink<'_>, node: &Node, key: &str) -> Option<RawAmpli
     let example = "sigma = 1.5, sigma = \"unknown\" or sigma = { unknown = [0.01, 1000.0] }";
     let sigma = match t.take("sigma") {
         None => {
-            sink.error(t.span, &sigma_key, "missing key `sigma`", format!("add {example}"));
+            sink.error(
+                t.span,
+                &sigma_key,
+                "missing key `sigma`",
+                format!("add {example}"),
+            );
             None
         }
         Some(e) => match &e.value.value {
@@ -982,7 +1032,13 @@ fn read_gaussian(sink: &mut Sink<'_>, node: &Node, key: &str) -> Option<RawAmpli
 fn read_points(sink: &mut Sink<'_>, node: &Node, key: &str) -> Option<RawAmplitude> {
     let example = "points = [[540.0, 0.5], [-540.0, 0.5]]";
     let Value::Array(items) = &node.value else {
-        type_error(sink, node, key, "an array of [value, weight] pairs", example);
+        type_error(
+            sink,
+            node,
+            key,
+            "an array of [value, weight] pairs",
+            example,
+        );
         return None;
     };
     if items.len() > limits::MAX_POINTS {

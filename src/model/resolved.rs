@@ -112,13 +112,24 @@ pub(crate) enum Site {
 pub(crate) enum VSigma {
     Known(f64),
     /// Search range and whether it is the default.
-    Unknown { lo: f64, hi: f64, defaulted: bool },
+    Unknown {
+        lo: f64,
+        hi: f64,
+        defaulted: bool,
+    },
 }
 
 #[derive(Debug, Clone, PartialEq)]
 pub(crate) enum VAmplitude {
-    Gaussian { mean: f64, sigma: VSigma },
-    Uniform { lower: f64, upper: f64, full_scale: bool },
+    Gaussian {
+        mean: f64,
+        sigma: VSigma,
+    },
+    Uniform {
+        lower: f64,
+        upper: f64,
+        full_scale: bool,
+    },
     Points(Vec<(f64, f64)>),
 }
 

@@ -94,7 +94,11 @@ impl Namespace {
             Some(r) => {
                 name.error(
                     sink,
-                    format!("`{}` is {}, but {expected} is expected here", name.v, r.word()),
+                    format!(
+                        "`{}` is {}, but {expected} is expected here",
+                        name.v,
+                        r.word()
+                    ),
                     fix_wrong_kind,
                 );
                 None
@@ -176,28 +180,65 @@ fn non_negative(sink: &mut Sink<'_>, v: &Sp<f64>, what: &str) {
 pub(crate) fn validate(raw: &RawModel, sink: &mut Sink<'_>) -> Option<Resolved> {
     let errors_before = sink.error_count();
     for (v, what) in [(&raw.name, "the name"), (&raw.unit, "the unit")] {
-        if let Some(v) = v {
-            if v.v.trim().is_empty() {
-                v.error(sink, format!("{what} is empty"), "write a short text, e.g. unit = \"deg\"");
-            }
-        }
-    }
-    if let Some(fs) = &raw.full_scale {
-        if fs.v.0 >= fs.v.1 {
-            fs.error(
+        if let Some(v) = v
+            && v.v.trim().is_empty()
+        {
+            v.error(
                 sink,
-                format!("the lower end {} is not below the upper end {}", fs.v.0, fs.v.1),
-                "write full_scale = [lower, upper] with lower < upper",
+                format!("{what} is empty"),
+                "write a short text, e.g. unit = \"deg\"",
             );
         }
     }
+    if let Some(fs) = &raw.full_scale
+        && fs.v.0 >= fs.v.1
+    {
+        fs.error(
+            sink,
+            format!(
+                "the lower end {} is not below the upper end {}",
+                fs.v.0, fs.v.1
+            ),
+            "write full_scale = [lower, upper] with lower < upper",
+        );
+    }
     let root = Span::default();
-    let spans = |v: Vec<Span>| v;
-    too_many(sink, &spans(raw.channels.iter().map(|x| x.name.span).collect()), "channels", "channels", limits::MAX_CHANNELS);
-    too_many(sink, &spans(raw.sources.iter().map(|x| x.name.span).collect()), "sources", "sources", limits::MAX_SOURCES);
-    too_many(sink, &spans(raw.signals.iter().map(|x| x.name.span).collect()), "signals", "signals", limits::MAX_SIGNALS);
-    too_many(sink, &spans(raw.checks.iter().map(|x| x.name.span).collect()), "checks", "checks", limits::MAX_CHECKS);
-    too_many(sink, &spans(raw.faults.iter().map(|x| x.name.span).collect()), "faults", "fault sites", limits::MAX_FAULTS);
+    let name_spans = |names: &mut dyn Iterator<Item = Span>| names.collect::<Vec<Span>>();
+    let sizes = [
+        (
+            name_spans(&mut raw.channels.iter().map(|x| x.name.span)),
+            "channels",
+            "channels",
+            limits::MAX_CHANNELS,
+        ),
+        (
+            name_spans(&mut raw.sources.iter().map(|x| x.name.span)),
+            "sources",
+            "sources",
+            limits::MAX_SOURCES,
+        ),
+        (
+            name_spans(&mut raw.signals.iter().map(|x| x.name.span)),
+            "signals",
+            "signals",
+            limits::MAX_SIGNALS,
+        ),
+        (
+            name_spans(&mut raw.checks.iter().map(|x| x.name.span)),
+            "checks",
+            "checks",
+            limits::MAX_CHECKS,
+        ),
+        (
+            name_spans(&mut raw.faults.iter().map(|x| x.name.span)),
+            "faults",
+            "fault sites",
+            limits::MAX_FAULTS,
+        ),
+    ];
+    for (spans, key, what, limit) in &sizes {
+        too_many(sink, spans, key, what, *limit);
+    }
 
     let ns = build_namespace(raw, sink);
 
@@ -230,7 +271,11 @@ pub(crate) fn validate(raw: &RawModel, sink: &mut Sink<'_>) -> Option<Resolved> 
                      [[correlations]] instead",
                 ) {
                     if gain.v == 0.0 {
-                        gain.warning(sink, "gain 0: the source has no effect on this channel", "drop the entry or give the gain");
+                        gain.warning(
+                            sink,
+                            "gain 0: the source has no effect on this channel",
+                            "drop the entry or give the gain",
+                        );
                     }
                     from.push((s, gain.v));
                 }
@@ -430,7 +475,14 @@ pub(crate) fn band(sink: &mut Sink<'_>, b: &RawBand, what: &str) -> Option<(f64,
             if l.v == 0.0 {
                 l.error(
                     sink,
-                    format!("a limit of zero: {what} would {} on any deviation", if what.contains("check") { "fire" } else { "be violated" }),
+                    format!(
+                        "a limit of zero: {what} would {} on any deviation",
+                        if what.contains("check") {
+                            "fire"
+                        } else {
+                            "be violated"
+                        }
+                    ),
                     "give a positive limit in the file's unit",
                 );
                 None
