@@ -4,14 +4,20 @@
 //!
 //! - [`normal`]: the standard normal CDF, its complement and quantile, accurate in both tails.
 //! - [`bivariate`]: bivariate normal rectangle probabilities (Genz 2004).
+//! - [`legendre`]: the Gauss–Legendre rules (6, 12, 20 points) that [`bivariate`] uses.
 //! - [`polytope`]: `P(l <= A x <= u)` for `x ~ N(mu, Sigma)` (Genz 1992; Genz and Bretz 2009).
+//! - [`cholesky`]: pivoted Cholesky factor of a (possibly singular) covariance.
+//! - [`lattice`]: randomised extensible lattice integration with a fixed seed.
 //! - [`quadrature`]: adaptive Gauss–Kronrod integration (QUADPACK style).
 //! - [`optimise`]: Brent's bounded minimisation and a scan that keeps every local minimum.
 //! - [`tolerance`]: the named numerical tolerances shared by the engine.
 
 pub mod bivariate;
+pub mod cholesky;
 pub mod error;
 pub mod estimate;
+pub mod lattice;
+pub mod legendre;
 pub mod normal;
 pub mod optimise;
 pub mod polytope;

@@ -1,1 +1,956 @@
-//! (being written)
+//! The probability that a gaussian vector lands in a polytope:
+//! `P(l_i <= a_i . x <= u_i for all i)` for `x ~ N(mu, Sigma)`, `Sigma` positive
+//! semi-definite (possibly singular), up to [`MAX_DIM`] coordinates and [`MAX_ROWS`] rows.
+//!
+//! Method.
+//! 1. `Sigma = L L^T` by a pivoted Cholesky factor of rank `r` ([`cholesky`]), so
+//!    `x = mu + L z` with `z` standard normal in `r` dimensions.
+//! 2. Row `a_i` becomes `b_i = a_i L` with its band shifted by `a_i . mu`. A row whose
+//!    random part vanishes (relative [`tolerance::DEGENERATE_ROW_REL`]) is deterministic:
+//!    it contributes exactly 1 or 0 by [`Band::contains`] on `a_i . mu`, open ends honoured.
+//! 3. Random rows are normalised to unit length and parallel or antiparallel rows merged
+//!    ([`tolerance::PARALLEL_ROW_ABS`]), intersecting their bands.
+//! 4. No random row: probability 1. One direction: the exact normal interval. Two
+//!    directions: the bivariate normal rectangle with the cosine of the two directions as
+//!    correlation. Otherwise Genz's sequential conditioning (Genz 1992, J. Comput. Graph.
+//!    Stat. 1:141-149; Genz and Bretz 2009, *Computation of Multivariate Normal and t
+//!    Probabilities*, Springer, ch. 4) on the rows made lower-trapezoidal by Householder
+//!    reflections of the `z` variables, pivoting by the smallest expected conditional
+//!    probability first (Genz and Bretz 2009, sec. 4.1.3); rows that depend linearly on
+//!    the pivots so far share the last pivot's variable (the singular case of that
+//!    section: their bounds combine, max of lowers and min of uppers). The integral over
+//!    the unit cube is done by the randomised lattice rule of [`lattice`], deterministic
+//!    for a given seed.
+//!
+//! Every factor of the sequential conditioning is a normal interval from
+//! [`normal::interval`], which takes the tail that does not cancel, and the conditioning
+//! variables are drawn from the tail they lie in, so tiny probabilities keep their relative
+//! accuracy (the method samples the polytope, not the whole space).
+
+use nalgebra::DMatrix;
+use serde::Serialize;
+
+use crate::prob::cholesky::{self, Factor};
+use crate::prob::error::ProbError;
+use crate::prob::estimate::Estimate;
+use crate::prob::lattice;
+use crate::prob::normal;
+use crate::prob::tolerance;
+
+/// Largest number of coordinates of the gaussian vector.
+pub const MAX_DIM: usize = 12;
+
+/// Largest number of rows of a polytope.
+pub const MAX_ROWS: usize = 64;
+
+/// The fixed seed of the random shifts of the lattice rule.
+pub const DEFAULT_SEED: u64 = 0x636f_6e63_6f72_6401;
+
+/// Numerical targets for one polytope probability.
+///
+/// The lattice rule stops as soon as its error estimate is at most
+/// `max(abs, rel * value)`; `max_points` bounds the integrand evaluations over all shifts.
+/// Exact paths (one or two directions) ignore the targets: their error is rounding only.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Tolerance {
+    /// Absolute error target.
+    pub abs: f64,
+    /// Relative error target.
+    pub rel: f64,
+    /// Budget of lattice points, summed over all random shifts.
+    pub max_points: usize,
+}
+
+impl Default for Tolerance {
+    fn default() -> Self {
+        Self {
+            abs: 1e-12,
+            rel: 1e-6,
+            max_points: 2_000_000,
+        }
+    }
+}
+
+impl Tolerance {
+    fn validate(&self) -> Result<(), ProbError> {
+        if !(self.abs >= 0.0) || self.abs.is_infinite() {
+            return Err(ProbError::InvalidArgument(format!(
+                "absolute tolerance must be a finite number >= 0, got {}",
+                self.abs
+            )));
+        }
+        if !(self.rel >= 0.0) || self.rel.is_infinite() {
+            return Err(ProbError::InvalidArgument(format!(
+                "relative tolerance must be a finite number >= 0, got {}",
+                self.rel
+            )));
+        }
+        if self.max_points < lattice::SHIFTS {
+            return Err(ProbError::InvalidArgument(format!(
+                "max_points must be at least {} (one point per random shift), got {}",
+                lattice::SHIFTS,
+                self.max_points
+            )));
+        }
+        Ok(())
+    }
+
+    fn target(&self, value: f64) -> f64 {
+        self.abs.max(self.rel * value.abs())
+    }
+}
+
+/// The interval a constraint row must lie in. Open ends matter only for rows that are
+/// deterministic (zero variance); for random rows the boundary has probability zero.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Band {
+    /// Lower end (may be `-inf`).
+    pub lower: f64,
+    /// Upper end (may be `+inf`).
+    pub upper: f64,
+    /// Whether `lower` itself is excluded.
+    pub lower_open: bool,
+    /// Whether `upper` itself is excluded.
+    pub upper_open: bool,
+}
+
+impl Band {
+    /// `[lower, upper]`.
+    pub fn closed(lower: f64, upper: f64) -> Self {
+        Self {
+            lower,
+            upper,
+            lower_open: false,
+            upper_open: false,
+        }
+    }
+
+    /// `(lower, upper)`.
+    pub fn open(lower: f64, upper: f64) -> Self {
+        Self {
+            lower,
+            upper,
+            lower_open: true,
+            upper_open: true,
+        }
+    }
+
+    /// `(-inf, upper)`, open at `upper`.
+    pub fn below(upper: f64) -> Self {
+        Self {
+            lower: f64::NEG_INFINITY,
+            upper,
+            lower_open: true,
+            upper_open: true,
+        }
+    }
+
+    /// `(lower, +inf)`, open at `lower`.
+    pub fn above(lower: f64) -> Self {
+        Self {
+            lower,
+            upper: f64::INFINITY,
+            lower_open: true,
+            upper_open: true,
+        }
+    }
+
+    /// Whether `v` lies in the band, honouring open and closed ends (NaN never does).
+    pub fn contains(&self, v: f64) -> bool {
+        let above_lower = if self.lower_open {
+            v > self.lower
+        } else {
+            v >= self.lower
+        };
+        let below_upper = if self.upper_open {
+            v < self.upper
+        } else {
+            v <= self.upper
+        };
+        above_lower && below_upper
+    }
+
+    /// Whether no number lies in the band (`lower > upper`, or equal ends with one open).
+    pub fn is_empty(&self) -> bool {
+        self.lower > self.upper
+            || (self.lower == self.upper && (self.lower_open || self.upper_open))
+    }
+}
+
+/// A polytope `{ x : row_i . x in band_i for all i }`.
+#[derive(Debug, Clone, PartialEq, Default)]
+pub struct Polytope {
+    /// Constraint rows, each of the dimension of the gaussian vector.
+    pub rows: Vec<Vec<f64>>,
+    /// One band per row.
+    pub bands: Vec<Band>,
+}
+
+impl Polytope {
+    /// The whole space (no constraint).
+    pub fn new() -> Self {
+        Self::default()
+    }
+
+    /// Add the constraint `row . x in band`.
+    pub fn push(&mut self, row: Vec<f64>, band: Band) {
+        self.rows.push(row);
+        self.bands.push(band);
+    }
+
+    /// Number of constraints.
+    pub fn len(&self) -> usize {
+        self.rows.len()
+    }
+
+    /// Whether there is no constraint.
+    pub fn is_empty(&self) -> bool {
+        self.rows.is_empty()
+    }
+}
+
+/// How a probability was computed.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+pub enum Method {
+    /// No random constraint is left (or a band is empty): the answer is 0 or 1 exactly.
+    Deterministic,
+    /// One random direction: the normal interval.
+    Univariate,
+    /// Two random directions: the bivariate normal rectangle.
+    Bivariate,
+    /// Genz's sequential conditioning with the randomised lattice rule.
+    Lattice,
+}
+
+/// A polytope probability with diagnostics.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+pub struct PolytopeProbability {
+    /// The probability and its absolute error bound.
+    pub estimate: Estimate,
+    /// The path that computed it.
+    pub method: Method,
+    /// Lattice points evaluated (0 on exact paths).
+    pub points: usize,
+    /// Rank of the covariance factor.
+    pub rank: usize,
+    /// Distinct random constraint directions after merging parallel rows.
+    pub directions: usize,
+    /// Variables of the sequential conditioning (the lattice dimension is one less).
+    pub variables: usize,
+}
+
+/// Choices that tests and verification runs may change; the default is what
+/// [`Gaussian::probability`] uses.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct Options {
+    /// Seed of the random shifts.
+    pub seed: u64,
+    /// Use the exact one- and two-direction paths where they apply (else the lattice rule
+    /// for two or more directions).
+    pub exact_paths: bool,
+    /// Return the last estimate with its honest error instead of
+    /// [`ProbError::BudgetExhausted`] when the point budget runs out.
+    pub best_effort: bool,
+}
+
+impl Default for Options {
+    fn default() -> Self {
+        Self {
+            seed: DEFAULT_SEED,
+            exact_paths: true,
+            best_effort: false,
+        }
+    }
+}
+
+/// `x ~ N(mean, cov)`, factored once (pivoted Cholesky) and reused for many polytopes.
+#[derive(Debug, Clone)]
+pub struct Gaussian {
+    mean: Vec<f64>,
+    factor: Factor,
+    /// Largest row norm of the factor (the largest standard deviation).
+    scale: f64,
+}
+
+impl Gaussian {
+    /// Validate and factor `N(mean, cov)`.
+    ///
+    /// # Errors
+    /// `NonFinite` for NaN or infinite entries, `DimensionMismatch` when `cov` is not square
+    /// of the size of `mean`, `TooLarge` beyond [`MAX_DIM`] coordinates, `NotSymmetric`
+    /// beyond [`tolerance::SYMMETRY_REL`], `NotPositiveSemiDefinite` naming the coordinate.
+    pub fn new(mean: &[f64], cov: &DMatrix<f64>) -> Result<Self, ProbError> {
+        let n = mean.len();
+        if n > MAX_DIM {
+            return Err(ProbError::TooLarge {
+                what: "number of coordinates".into(),
+                limit: MAX_DIM,
+                found: n,
+            });
+        }
+        if cov.nrows() != n {
+            return Err(ProbError::DimensionMismatch {
+                what: "covariance rows (must equal the length of the mean)".into(),
+                expected: n,
+                found: cov.nrows(),
+            });
+        }
+        if cov.ncols() != n {
+            return Err(ProbError::DimensionMismatch {
+                what: "covariance columns (must equal the length of the mean)".into(),
+                expected: n,
+                found: cov.ncols(),
+            });
+        }
+        for (i, &m) in mean.iter().enumerate() {
+            if !m.is_finite() {
+                return Err(ProbError::NonFinite {
+                    what: format!("mean[{i}]"),
+                    value: m,
+                });
+            }
+        }
+        let mut flat = vec![0.0; n * n];
+        for i in 0..n {
+            for j in 0..n {
+                let a = cov[(i, j)];
+                if !a.is_finite() {
+                    return Err(ProbError::NonFinite {
+                        what: format!("covariance entry ({i}, {j})"),
+                        value: a,
+                    });
+                }
+            }
+        }
+        for i in 0..n {
+            for j in 0..n {
+                let a = cov[(i, j)];
+                let b = cov[(j, i)];
+                let scale = a
+                    .abs()
+                    .max(b.abs())
+                    .max((cov[(i, i)] * cov[(j, j)]).abs().sqrt());
+                if (a - b).abs() > tolerance::SYMMETRY_REL * scale {
+                    return Err(ProbError::NotSymmetric {
+                        row: i,
+                        col: j,
+                        a,
+                        b,
+                    });
+                }
+                flat[i * n + j] = 0.5 * (a + b);
+            }
+        }
+        let factor = cholesky::pivoted(&flat, n)?;
+        let scale = (0..n)
+            .map(|i| factor.row(i).iter().map(|v| v * v).sum::<f64>().sqrt())
+            .fold(0.0, f64::max);
+        Ok(Self {
+            mean: mean.to_vec(),
+            factor,
+            scale,
+        })
+    }
+
+    /// Number of coordinates `n`.
+    pub fn dim(&self) -> usize {
+        self.mean.len()
+    }
+
+    /// Numerical rank `r` of the covariance.
+    pub fn rank(&self) -> usize {
+        self.factor.rank
+    }
+
+    /// The mean vector.
+    pub fn mean(&self) -> &[f64] {
+        &self.mean
+    }
+
+    /// The factor `L` (`n x r`) with `cov = L L^T` up to rounding.
+    pub fn factor(&self) -> DMatrix<f64> {
+        DMatrix::from_row_slice(self.dim(), self.rank(), &self.factor.entries)
+    }
+
+    /// The same covariance with mean `mean + delta` (no refactorisation).
+    ///
+    /// # Errors
+    /// `DimensionMismatch` or `NonFinite` for a bad `delta`.
+    pub fn shifted(&self, delta: &[f64]) -> Result<Self, ProbError> {
+        if delta.len() != self.dim() {
+            return Err(ProbError::DimensionMismatch {
+                what: "mean shift".into(),
+                expected: self.dim(),
+                found: delta.len(),
+            });
+        }
+        let mut out = self.clone();
+        for (i, (m, d)) in out.mean.iter_mut().zip(delta.iter()).enumerate() {
+            *m += d;
+            if !m.is_finite() {
+                return Err(ProbError::NonFinite {
+                    what: format!("shifted mean[{i}]"),
+                    value: *m,
+                });
+            }
+        }
+        Ok(out)
+    }
+
+    /// `x = mean + L z` for a standard-normal vector `z` of length `rank` (Monte Carlo).
+    ///
+    /// Never panics: a short `z` counts as padded with zeros, and only the first
+    /// `min(out.len(), dim)` entries of `out` are written. [`Gaussian::try_sample`] checks
+    /// the lengths instead.
+    pub fn sample(&self, rng_normals: &[f64], out: &mut [f64]) {
+        for (i, o) in out.iter_mut().enumerate().take(self.dim()) {
+            let lz: f64 = self
+                .factor
+                .row(i)
+                .iter()
+                .zip(rng_normals.iter())
+                .map(|(l, z)| l * z)
+                .sum();
+            *o = self.mean[i] + lz;
+        }
+    }
+
+    /// [`Gaussian::sample`] with the lengths checked.
+    ///
+    /// # Errors
+    /// `DimensionMismatch` when `z` is not of length `rank` or `out` not of length `dim`.
+    pub fn try_sample(&self, rng_normals: &[f64], out: &mut [f64]) -> Result<(), ProbError> {
+        if rng_normals.len() != self.rank() {
+            return Err(ProbError::DimensionMismatch {
+                what: "standard-normal vector (length must equal the rank)".into(),
+                expected: self.rank(),
+                found: rng_normals.len(),
+            });
+        }
+        if out.len() != self.dim() {
+            return Err(ProbError::DimensionMismatch {
+                what: "sample output".into(),
+                expected: self.dim(),
+                found: out.len(),
+            });
+        }
+        self.sample(rng_normals, out);
+        Ok(())
+    }
+
+    /// `P(x in polytope)` with its error bound.
+    ///
+    /// # Errors
+    /// Input errors (see [`Gaussian::probability_with`]) and
+    /// [`ProbError::BudgetExhausted`] when neither tolerance is met within the budget.
+    pub fn probability(&self, polytope: &Polytope, tol: &Tolerance) -> Result<Estimate, ProbError> {
+        Ok(self.probability_detailed(polytope, tol)?.estimate)
+    }
+
+    /// [`Gaussian::probability`] with the method, the points used and the rank.
+    ///
+    /// # Errors
+    /// As [`Gaussian::probability`].
+    pub fn probability_detailed(
+        &self,
+        polytope: &Polytope,
+        tol: &Tolerance,
+    ) -> Result<PolytopeProbability, ProbError> {
+        self.probability_with(polytope, tol, &Options::default())
+    }
+
+    /// Like [`Gaussian::probability_detailed`], but when the point budget runs out the last
+    /// estimate is returned with its (large, honest) error instead of an error.
+    ///
+    /// # Errors
+    /// Input errors only.
+    pub fn probability_best_effort(
+        &self,
+        polytope: &Polytope,
+        tol: &Tolerance,
+    ) -> Result<PolytopeProbability, ProbError> {
+        let options = Options {
+            best_effort: true,
+            ..Options::default()
+        };
+        self.probability_with(polytope, tol, &options)
+    }
+
+    /// The general entry point with explicit [`Options`].
+    ///
+    /// # Errors
+    /// `DimensionMismatch` for a row not of length `dim` or bands not matching rows,
+    /// `NonFinite` for a NaN or infinite row entry or a NaN band end, `TooLarge` beyond
+    /// [`MAX_ROWS`] rows, `InvalidArgument` for a bad tolerance, and `BudgetExhausted`
+    /// (unless `best_effort`). An empty band is not an error: the probability is 0.
+    pub fn probability_with(
+        &self,
+        polytope: &Polytope,
+        tol: &Tolerance,
+        options: &Options,
+    ) -> Result<PolytopeProbability, ProbError> {
+        tol.validate()?;
+        self.validate(polytope)?;
+        let rank = self.rank();
+        let exact = |value: f64, directions: usize| PolytopeProbability {
+            estimate: Estimate::new(value, 0.0),
+            method: Method::Deterministic,
+            points: 0,
+            rank,
+            directions,
+            variables: 0,
+        };
+        if polytope.bands.iter().any(Band::is_empty) {
+            return Ok(exact(0.0, 0));
+        }
+        let rows = match self.reduce(polytope) {
+            Reduced::Zero => return Ok(exact(0.0, 0)),
+            Reduced::Rows(rows) => rows,
+        };
+        let directions = rows.len();
+        let rounding: f64 = rows.iter().map(UnitRow::rounding_error).sum();
+        let with_error = |value: f64, error: f64, method: Method, points, variables| {
+            let value = value.clamp(0.0, 1.0);
+            PolytopeProbability {
+                estimate: Estimate::new(value, error + rounding),
+                method,
+                points,
+                rank,
+                directions,
+                variables,
+            }
+        };
+        if rows.is_empty() {
+            return Ok(exact(1.0, 0));
+        }
+        if rows.iter().any(|row| row.lower >= row.upper) {
+            // A random direction confined to a single point (or less) after merging.
+            return Ok(with_error(0.0, 0.0, Method::Univariate, 0, 1));
+        }
+        if rows.len() == 1 {
+            let value = normal::interval(rows[0].lower, rows[0].upper);
+            let error = value * tolerance::ROUNDING_REL;
+            return Ok(with_error(value, error, Method::Univariate, 0, 1));
+        }
+        let _ = options.exact_paths;
+        let plan = Plan::build(&rows, rank);
+        if plan.variables == 1 {
+            let value = plan.first_factor();
+            let error = value * tolerance::ROUNDING_REL;
+            return Ok(with_error(value, error, Method::Univariate, 0, 1));
+        }
+        let outcome = plan.integrate(tol, options.seed);
+        let floor = outcome.value * tolerance::ROUNDING_REL * (plan.variables as f64 + 1.0);
+        let result = with_error(
+            outcome.value,
+            outcome.error + floor,
+            Method::Lattice,
+            outcome.points,
+            plan.variables,
+        );
+        if !outcome.converged && !options.best_effort {
+            return Err(ProbError::BudgetExhausted {
+                achieved: result.estimate.error,
+                requested: tol.target(outcome.value),
+                points: outcome.points,
+            });
+        }
+        Ok(result)
+    }
+
+    fn validate(&self, polytope: &Polytope) -> Result<(), ProbError> {
+        let m = polytope.rows.len();
+        if m > MAX_ROWS {
+            return Err(ProbError::TooLarge {
+                what: "number of polytope rows".into(),
+                limit: MAX_ROWS,
+                found: m,
+            });
+        }
+        if polytope.bands.len() != m {
+            return Err(ProbError::DimensionMismatch {
+                what: "polytope bands (one per row)".into(),
+                expected: m,
+                found: polytope.bands.len(),
+            });
+        }
+        for (i, (row, band)) in polytope.rows.iter().zip(polytope.bands.iter()).enumerate() {
+            if row.len() != self.dim() {
+                return Err(ProbError::DimensionMismatch {
+                    what: format!("polytope row {i} (length must equal the dimension)"),
+                    expected: self.dim(),
+                    found: row.len(),
+                });
+            }
+            if let Some((j, &v)) = row.iter().enumerate().find(|(_, v)| !v.is_finite()) {
+                return Err(ProbError::NonFinite {
+                    what: format!("polytope row {i}, entry {j}"),
+                    value: v,
+                });
+            }
+            if band.lower.is_nan() {
+                return Err(ProbError::NonFinite {
+                    what: format!("lower end of band {i}"),
+                    value: band.lower,
+                });
+            }
+            if band.upper.is_nan() {
+                return Err(ProbError::NonFinite {
+                    what: format!("upper end of band {i}"),
+                    value: band.upper,
+                });
+            }
+        }
+        Ok(())
+    }
+
+    /// Steps 2 and 3 of the method: deterministic rows out, random rows normalised and
+    /// merged.
+    fn reduce(&self, polytope: &Polytope) -> Reduced {
+        let r = self.rank();
+        let mut rows: Vec<UnitRow> = Vec::new();
+        for (a, band) in polytope.rows.iter().zip(polytope.bands.iter()) {
+            let mut b = vec![0.0; r];
+            let mut shift = 0.0;
+            let mut shift_abs = 0.0;
+            for (i, &ai) in a.iter().enumerate() {
+                if ai == 0.0 {
+                    continue;
+                }
+                shift += ai * self.mean[i];
+                shift_abs += (ai * self.mean[i]).abs();
+                for (bk, &lk) in b.iter_mut().zip(self.factor.row(i).iter()) {
+                    *bk += ai * lk;
+                }
+            }
+            let a_norm = a.iter().map(|v| v * v).sum::<f64>().sqrt();
+            let b_norm = b.iter().map(|v| v * v).sum::<f64>().sqrt();
+            if b_norm <= tolerance::DEGENERATE_ROW_REL * a_norm * self.scale || b_norm == 0.0 {
+                if band.contains(shift) {
+                    continue;
+                }
+                return Reduced::Zero;
+            }
+            if band.lower == f64::NEG_INFINITY && band.upper == f64::INFINITY {
+                continue;
+            }
+            let lower = (band.lower - shift) / b_norm;
+            let upper = (band.upper - shift) / b_norm;
+            let finite_end = |v: f64| if v.is_finite() { v.abs() } else { 0.0 };
+            let slack = tolerance::ROUNDING_REL
+                * ((finite_end(band.lower).max(finite_end(band.upper)) + shift_abs) / b_norm
+                    + finite_end(lower).max(finite_end(upper)));
+            for v in b.iter_mut() {
+                *v /= b_norm;
+            }
+            let new = UnitRow {
+                dir: b,
+                lower,
+                upper,
+                slack,
+            };
+            rows_merge(&mut rows, new);
+        }
+        Reduced::Rows(rows)
+    }
+}
+
+/// Add a unit row, intersecting it with a parallel or antiparallel row already present.
+fn rows_merge(rows: &mut Vec<UnitRow>, new: UnitRow) {
+    for row in rows.iter_mut() {
+        let same = row
+            .dir
+            .iter()
+            .zip(new.dir.iter())
+            .all(|(a, b)| (a - b).abs() <= tolerance::PARALLEL_ROW_ABS);
+        let opposite = row
+            .dir
+            .iter()
+            .zip(new.dir.iter())
+            .all(|(a, b)| (a + b).abs() <= tolerance::PARALLEL_ROW_ABS);
+        if same || opposite {
+            let (lower, upper) = if same {
+                (new.lower, new.upper)
+            } else {
+                (-new.upper, -new.lower)
+            };
+            row.lower = row.lower.max(lower);
+            row.upper = row.upper.min(upper);
+            row.slack = row.slack.max(new.slack);
+            return;
+        }
+    }
+    rows.push(new);
+}
+
+enum Reduced {
+    /// A deterministic row fails: the probability is exactly 0.
+    Zero,
+    /// The random rows left (possibly none).
+    Rows(Vec<UnitRow>),
+}
+
+/// A random constraint `lower <= dir . z <= upper` with `|dir| = 1`.
+#[derive(Debug, Clone)]
+struct UnitRow {
+    dir: Vec<f64>,
+    lower: f64,
+    upper: f64,
+    /// Bound on the rounding error of `lower` and `upper`.
+    slack: f64,
+}
+
+impl UnitRow {
+    /// Moving an end by `slack` moves the probability by at most the density of the unit
+    /// row at that end times `slack`.
+    fn rounding_error(&self) -> f64 {
+        self.slack * (normal::pdf(self.lower) + normal::pdf(self.upper))
+    }
+}
+
+/// One row of the lower-trapezoidal system, divided by its leading coefficient:
+/// `lower <= w_j + coef . w[..j] <= upper`, or an indicator on `w[..j]` when its leading
+/// coefficient vanished.
+#[derive(Debug, Clone)]
+struct PlanRow {
+    coef: Vec<f64>,
+    lower: f64,
+    upper: f64,
+    indicator: bool,
+}
+
+/// The sequential-conditioning integrand: variables in order, each with its rows.
+#[derive(Debug, Clone)]
+struct Plan {
+    variables: usize,
+    groups: Vec<Vec<PlanRow>>,
+}
+
+/// `E[Z | a < Z < b]` for standard normal `Z`, with a finite fallback when the interval
+/// has no representable mass.
+fn truncated_mean(a: f64, b: f64) -> f64 {
+    let fallback = || match (a.is_finite(), b.is_finite()) {
+        (true, true) => 0.5 * (a + b),
+        (true, false) => a,
+        (false, true) => b,
+        (false, false) => 0.0,
+    };
+    if a >= b {
+        return fallback();
+    }
+    let mass = normal::interval(a, b);
+    if !(mass > f64::MIN_POSITIVE * 1e10) {
+        return fallback();
+    }
+    let m = (normal::pdf(a) - normal::pdf(b)) / mass;
+    if m.is_finite() { m.clamp(a, b) } else { fallback() }
+}
+
+/// Largest magnitude of a conditioning variable (the normal quantile of the smallest
+/// positive double is about -38.5).
+const W_CLAMP: f64 = 38.5;
+
+/// A standard normal variable conditioned on `(a, b)` (mass `mass`) at uniform `u`,
+/// computed from the tail it lies in so that extreme intervals stay accurate.
+fn conditional_draw(a: f64, b: f64, mass: f64, u: f64) -> f64 {
+    let w = if a >= 0.0 {
+        -normal::quantile(normal::sf(b) + (1.0 - u) * mass)
+    } else if b <= 0.0 {
+        normal::quantile(normal::cdf(a) + u * mass)
+    } else {
+        let below = normal::cdf(a) + u * mass;
+        if below <= 0.5 {
+            normal::quantile(below)
+        } else {
+            -normal::quantile(normal::sf(b) + (1.0 - u) * mass)
+        }
+    };
+    if w.is_nan() {
+        truncated_mean(a, b)
+    } else {
+        w.clamp(a.max(-W_CLAMP), b.min(W_CLAMP))
+    }
+}
+
+impl Plan {
+    /// Triangularise the unit rows by Householder reflections of `z`, choosing at each
+    /// step the row with the smallest conditional probability given the earlier variables
+    /// at their truncated means (Genz and Bretz 2009, sec. 4.1.3).
+    fn build(rows: &[UnitRow], rank: usize) -> Self {
+        let m = rows.len();
+        let mut w: Vec<Vec<f64>> = rows.iter().map(|row| row.dir.clone()).collect();
+        let mut remaining: Vec<usize> = (0..m).collect();
+        let mut means: Vec<f64> = Vec::new();
+        let mut groups: Vec<Vec<usize>> = Vec::new();
+        for j in 0..rank {
+            if remaining.is_empty() {
+                break;
+            }
+            // Pivot choice.
+            let mut best = (f64::INFINITY, 0usize);
+            for (pos, &i) in remaining.iter().enumerate() {
+                let s: f64 = w[i][..j].iter().zip(means.iter()).map(|(c, y)| c * y).sum();
+                let d = w[i][j..].iter().map(|v| v * v).sum::<f64>().sqrt();
+                let a = (rows[i].lower - s) / d;
+                let b = (rows[i].upper - s) / d;
+                let p = normal::interval(a, b);
+                if p < best.0 {
+                    best = (p, pos);
+                }
+            }
+            let pivot = remaining.remove(best.1);
+            // Householder reflection of columns j.. mapping the pivot row onto +d e_j.
+            let x: Vec<f64> = w[pivot][j..].to_vec();
+            let d = x.iter().map(|v| v * v).sum::<f64>().sqrt();
+            let alpha = if x[0] >= 0.0 { -d } else { d };
+            let mut v = x.clone();
+            v[0] -= alpha;
+            let vv: f64 = v.iter().map(|t| t * t).sum();
+            let flip = alpha < 0.0;
+            for &q in remaining.iter().chain(std::iter::once(&pivot)) {
+                if vv > 0.0 {
+                    let dot: f64 = v.iter().zip(w[q][j..].iter()).map(|(a, b)| a * b).sum();
+                    let f = 2.0 * dot / vv;
+                    for (wq, vk) in w[q][j..].iter_mut().zip(v.iter()) {
+                        *wq -= f * vk;
+                    }
+                }
+                if flip {
+                    w[q][j] = -w[q][j];
+                }
+            }
+            w[pivot][j] = d;
+            for t in w[pivot][j + 1..].iter_mut() {
+                *t = 0.0;
+            }
+            let mut group = vec![pivot];
+            remaining.retain(|&q| {
+                let res = w[q][j + 1..].iter().map(|t| t * t).sum::<f64>().sqrt();
+                if res <= tolerance::LINEAR_DEPENDENCE_ABS {
+                    group.push(q);
+                    false
+                } else {
+                    true
+                }
+            });
+            for &q in &group {
+                for t in w[q][j + 1..].iter_mut() {
+                    *t = 0.0;
+                }
+            }
+            // Truncated mean of the new variable over its combined bounds.
+            let (mut a, mut b) = (f64::NEG_INFINITY, f64::INFINITY);
+            for &q in &group {
+                let lead = w[q][j];
+                if lead == 0.0 {
+                    continue;
+                }
+                let s: f64 = w[q][..j].iter().zip(means.iter()).map(|(c, y)| c * y).sum();
+                let (lo, hi) = ((rows[q].lower - s) / lead, (rows[q].upper - s) / lead);
+                let (lo, hi) = if lead > 0.0 { (lo, hi) } else { (hi, lo) };
+                a = a.max(lo);
+                b = b.min(hi);
+            }
+            means.push(truncated_mean(a, b));
+            groups.push(group);
+        }
+        let groups: Vec<Vec<PlanRow>> = groups
+            .iter()
+            .enumerate()
+            .map(|(j, group)| {
+                group
+                    .iter()
+                    .map(|&q| {
+                        let lead = w[q][j];
+                        if lead == 0.0 {
+                            PlanRow {
+                                coef: w[q][..j].to_vec(),
+                                lower: rows[q].lower,
+                                upper: rows[q].upper,
+                                indicator: true,
+                            }
+                        } else if lead > 0.0 {
+                            PlanRow {
+                                coef: w[q][..j].iter().map(|c| c / lead).collect(),
+                                lower: rows[q].lower / lead,
+                                upper: rows[q].upper / lead,
+                                indicator: false,
+                            }
+                        } else {
+                            PlanRow {
+                                coef: w[q][..j].iter().map(|c| c / lead).collect(),
+                                lower: rows[q].upper / lead,
+                                upper: rows[q].lower / lead,
+                                indicator: false,
+                            }
+                        }
+                    })
+                    .collect()
+            })
+            .collect();
+        Plan {
+            variables: groups.len(),
+            groups,
+        }
+    }
+
+    /// The probability of the first variable's interval (the whole answer when there is
+    /// only one variable).
+    fn first_factor(&self) -> f64 {
+        let w: [f64; 0] = [];
+        match self.groups.first() {
+            Some(group) => match bounds(group, &w) {
+                Some((a, b)) => normal::interval(a, b),
+                None => 0.0,
+            },
+            None => 1.0,
+        }
+    }
+
+    /// The integrand at a point `x` of the unit cube of dimension `variables - 1`.
+    fn eval(&self, x: &[f64], w: &mut [f64]) -> f64 {
+        let mut prod = 1.0;
+        for (j, group) in self.groups.iter().enumerate() {
+            let Some((a, b)) = bounds(group, &w[..j]) else {
+                return 0.0;
+            };
+            let mass = normal::interval(a, b);
+            prod *= mass;
+            if !(prod > 0.0) {
+                return 0.0;
+            }
+            if j + 1 < self.variables {
+                w[j] = conditional_draw(a, b, mass, x[j]);
+            }
+        }
+        prod
+    }
+
+    fn integrate(&self, tol: &Tolerance, seed: u64) -> lattice::Outcome {
+        let mut w = vec![0.0; self.variables];
+        lattice::integrate(
+            self.variables - 1,
+            seed,
+            tol.max_points,
+            |v| tol.target(v),
+            |x| self.eval(x, &mut w),
+        )
+    }
+}
+
+/// Combined bounds `(a, b)` of a variable given the earlier ones, `None` when empty.
+fn bounds(group: &[PlanRow], w: &[f64]) -> Option<(f64, f64)> {
+    let (mut a, mut b) = (f64::NEG_INFINITY, f64::INFINITY);
+    for row in group {
+        let s: f64 = row.coef.iter().zip(w.iter()).map(|(c, y)| c * y).sum();
+        if row.indicator {
+            if !(row.lower <= s && s <= row.upper) {
+                return None;
+            }
+            continue;
+        }
+        a = a.max(row.lower - s);
+        b = b.min(row.upper - s);
+    }
+    if a < b { Some((a, b)) } else { None }
+}

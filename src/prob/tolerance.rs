@@ -45,3 +45,17 @@ pub const CORRELATION_PSD_ABS: f64 = 1e-10;
 
 /// Weights of a `points` amplitude or a `weighted` output must sum to 1 within this.
 pub const WEIGHT_SUM_ABS: f64 = 1e-9;
+/// A Schur-complement (conditional) variance below `-PSD_NEGATIVE_REL` times the largest
+/// variance is a negative direction beyond rounding: the covariance is not positive
+/// semi-definite.
+pub const PSD_NEGATIVE_REL: f64 = 1e-10;
+
+/// A unit constraint row whose component outside the span of the rows already used as
+/// pivots is shorter than this depends linearly on them: it shares their leading variable
+/// in the sequential conditioning instead of opening a new one.
+pub const LINEAR_DEPENDENCE_ABS: f64 = 1e-10;
+
+/// The error of a randomised lattice estimate is this many standard errors of the means
+/// over the random shifts. With 12 shifts (11 degrees of freedom) a Student t quantile of
+/// 3.5 leaves about 0.5 % two-sided; Genz and Bretz (2009, sec. 4.2.2) use 2.5 to 3.5.
+pub const LATTICE_SPREAD_FACTOR: f64 = 3.5;
