@@ -175,7 +175,13 @@ fn equicorrelated_one_half_orthant_is_one_over_n_plus_one() {
         }
         let r = g.probability_detailed(&p, &tol(0.0, 1e-5)).unwrap();
         let exact = 1.0 / (n as f64 + 1.0);
-        assert_covers(&format!("n = {n}"), r.estimate.value, r.estimate.error, exact, 1e-15);
+        assert_covers(
+            &format!("n = {n}"),
+            r.estimate.value,
+            r.estimate.error,
+            exact,
+            1e-15,
+        );
         assert!(r.estimate.error <= 1e-5 * exact);
     }
 }
@@ -222,12 +228,22 @@ fn stored_reference_table() {
             let band = Band::open(json_number(&case.lower[i]), json_number(&case.upper[i]));
             p.push(unit(n, i), band);
         }
-        let t = if case.rel { tol(0.0, 1e-6) } else { tol(1e-9, 0.0) };
+        let t = if case.rel {
+            tol(0.0, 1e-6)
+        } else {
+            tol(1e-9, 0.0)
+        };
         let r = g.probability_detailed(&p, &t).unwrap();
         let diff = (r.estimate.value - case.value).abs();
         max_abs = max_abs.max(diff);
         max_rel = max_rel.max(diff / case.value);
-        assert_covers(&case.name, r.estimate.value, r.estimate.error, case.value, case.tol);
+        assert_covers(
+            &case.name,
+            r.estimate.value,
+            r.estimate.error,
+            case.value,
+            case.tol,
+        );
         if case.rel {
             assert!(r.estimate.error <= 1e-6 * case.value, "{}", case.name);
         }
@@ -257,14 +273,22 @@ fn ordering_polytopes_are_one_over_r_factorial() {
     // P(z_1 > ... > z_r) = 1 / r! (exchangeability). All r (r - 1) / 2 pairwise rows are
     // given, so m > r and most rows are redundant without being parallel.
     for r in 3..=6 {
-        let cov: Vec<f64> = (0..r * r).map(|k| if k / r == k % r { 1.0 } else { 0.0 }).collect();
+        let cov: Vec<f64> = (0..r * r)
+            .map(|k| if k / r == k % r { 1.0 } else { 0.0 })
+            .collect();
         let g = gaussian(&vec![0.0; r], &cov);
         let mut p = Polytope::new();
         ordering_rows(r, &mut p);
         let res = g.probability_detailed(&p, &tol(1e-7, 0.0)).unwrap();
         assert_eq!(res.method, Method::Lattice);
         let exact = 1.0 / factorial(r);
-        assert_covers(&format!("r = {r}"), res.estimate.value, res.estimate.error, exact, 1e-15);
+        assert_covers(
+            &format!("r = {r}"),
+            res.estimate.value,
+            res.estimate.error,
+            exact,
+            1e-15,
+        );
     }
 }
 
@@ -275,7 +299,9 @@ fn ordered_tail_keeps_relative_accuracy() {
     // 0.0013498980316300945266518147676.
     let sf3 = 0.001_349_898_031_630_094_5_f64;
     let r = 4;
-    let cov: Vec<f64> = (0..r * r).map(|k| if k / r == k % r { 1.0 } else { 0.0 }).collect();
+    let cov: Vec<f64> = (0..r * r)
+        .map(|k| if k / r == k % r { 1.0 } else { 0.0 })
+        .collect();
     let g = gaussian(&vec![0.0; r], &cov);
     let mut p = Polytope::new();
     ordering_rows(r, &mut p);
@@ -284,7 +310,13 @@ fn ordered_tail_keeps_relative_accuracy() {
     }
     let res = g.probability_detailed(&p, &tol(0.0, 1e-4)).unwrap();
     let exact = sf3.powi(4) / 24.0;
-    assert_covers("ordered tail", res.estimate.value, res.estimate.error, exact, 1e-16 * exact);
+    assert_covers(
+        "ordered tail",
+        res.estimate.value,
+        res.estimate.error,
+        exact,
+        1e-16 * exact,
+    );
     assert!(res.estimate.error <= 1e-4 * exact);
     assert!((res.estimate.value / exact - 1.0).abs() < 1e-4);
 }
@@ -294,7 +326,11 @@ fn planar_cones_are_angle_fractions() {
     // For a standard normal in the plane the angle is uniform (rotational symmetry), so
     // P(a_i . z > 0 for all i) = (pi - spread) / (2 pi), spread the angle range of the
     // normals a_i (less than pi).
-    let sets: [&[f64]; 3] = [&[0.0, 0.4, 1.1, 2.0], &[-1.0, -0.2, 0.3, 0.9, 1.5], &[0.1, 0.2, 0.25]];
+    let sets: [&[f64]; 3] = [
+        &[0.0, 0.4, 1.1, 2.0],
+        &[-1.0, -0.2, 0.3, 0.9, 1.5],
+        &[0.1, 0.2, 0.25],
+    ];
     for angles in sets {
         let g = gaussian(&[0.0, 0.0], &[1.0, 0.0, 0.0, 1.0]);
         let mut p = Polytope::new();
@@ -305,7 +341,13 @@ fn planar_cones_are_angle_fractions() {
         let spread = angles.iter().cloned().fold(f64::NEG_INFINITY, f64::max)
             - angles.iter().cloned().fold(f64::INFINITY, f64::min);
         let exact = (PI - spread) / (2.0 * PI);
-        assert_covers(&format!("{angles:?}"), res.estimate.value, res.estimate.error, exact, 1e-15);
+        assert_covers(
+            &format!("{angles:?}"),
+            res.estimate.value,
+            res.estimate.error,
+            exact,
+            1e-15,
+        );
     }
 }
 
@@ -330,7 +372,13 @@ fn pyramid_cones_follow_girard() {
         let exact = (2.0 * PI - k as f64 * cos_gamma.acos()) / (4.0 * PI);
         let res = g.probability_detailed(&p, &tol(1e-7, 0.0)).unwrap();
         assert_eq!(res.directions, k);
-        assert_covers(&format!("k = {k}"), res.estimate.value, res.estimate.error, exact, 1e-15);
+        assert_covers(
+            &format!("k = {k}"),
+            res.estimate.value,
+            res.estimate.error,
+            exact,
+            1e-15,
+        );
     }
 }
 
@@ -369,15 +417,27 @@ fn change_of_variables_gives_product_of_intervals() {
             let shift: f64 = row.iter().zip(mean.iter()).map(|(a, b)| a * b).sum();
             p.push(row.clone(), Band::closed(l + shift, u + shift));
             if i % 2 == 0 {
-                p.push(row.iter().map(|v| 2.5 * v).collect(), Band::closed(2.5 * (l + shift), 2.5 * (u + shift)));
+                p.push(
+                    row.iter().map(|v| 2.5 * v).collect(),
+                    Band::closed(2.5 * (l + shift), 2.5 * (u + shift)),
+                );
             } else {
-                p.push(row.iter().map(|v| -v).collect(), Band::closed(-(u + shift), -(l + shift)));
+                p.push(
+                    row.iter().map(|v| -v).collect(),
+                    Band::closed(-(u + shift), -(l + shift)),
+                );
             }
             exact *= ref_interval(l, u);
         }
         let res = g.probability_detailed(&p, &tol(1e-9, 0.0)).unwrap();
         assert_eq!(res.directions, r);
-        assert_covers(&format!("r = {r}"), res.estimate.value, res.estimate.error, exact, 1e-14);
+        assert_covers(
+            &format!("r = {r}"),
+            res.estimate.value,
+            res.estimate.error,
+            exact,
+            1e-14,
+        );
     }
 }
 
@@ -398,7 +458,14 @@ fn singular_twelve_dimensional_with_deterministic_rows() {
     assert_eq!(g.rank(), r);
     let inv = gm.clone().try_inverse().unwrap();
     let row = |k: usize| -> Vec<f64> { (0..n).map(|j| inv[(k, j)]).collect() };
-    let bounds = [(-1.0, 1.2), (f64::NEG_INFINITY, 0.3), (-0.4, f64::INFINITY), (-2.0, -0.5), (0.1, 2.5), (-1.5, 1.5)];
+    let bounds = [
+        (-1.0, 1.2),
+        (f64::NEG_INFINITY, 0.3),
+        (-0.4, f64::INFINITY),
+        (-2.0, -0.5),
+        (0.1, 2.5),
+        (-1.5, 1.5),
+    ];
     let base = |p: &mut Polytope| {
         let mut exact = 1.0;
         for (k, &(l, u)) in bounds.iter().enumerate() {
@@ -406,7 +473,10 @@ fn singular_twelve_dimensional_with_deterministic_rows() {
             exact *= ref_interval(l, u);
         }
         for k in 0..r {
-            p.push(row(k).iter().map(|v| 3.0 * v).collect(), Band::closed(3.0 * bounds[k].0, 3.0 * bounds[k].1));
+            p.push(
+                row(k).iter().map(|v| 3.0 * v).collect(),
+                Band::closed(3.0 * bounds[k].0, 3.0 * bounds[k].1),
+            );
         }
         exact
     };
@@ -423,16 +493,29 @@ fn singular_twelve_dimensional_with_deterministic_rows() {
         let mut p = Polytope::new();
         let exact = base(&mut p);
         for k in r..n {
-            let b = if k == r { band } else { Band::closed(-1.0, 1.0) };
+            let b = if k == r {
+                band
+            } else {
+                Band::closed(-1.0, 1.0)
+            };
             p.push(row(k), b);
         }
         assert_eq!(p.len(), 18);
         p.push(vec![0.0; n], Band::closed(-1.0, 1.0)); // a zero row: deterministic, inside
-        p.push(row(0).iter().map(|v| -v).collect(), Band::closed(-bounds[0].1, -bounds[0].0));
+        p.push(
+            row(0).iter().map(|v| -v).collect(),
+            Band::closed(-bounds[0].1, -bounds[0].0),
+        );
         assert_eq!(p.len(), 20);
         let res = g.probability_detailed(&p, &tol(1e-9, 0.0)).unwrap();
         let expect = if inside { exact } else { 0.0 };
-        assert_covers(&format!("{band:?}"), res.estimate.value, res.estimate.error, expect, 1e-14);
+        assert_covers(
+            &format!("{band:?}"),
+            res.estimate.value,
+            res.estimate.error,
+            expect,
+            1e-14,
+        );
         if !inside {
             assert_eq!(res.estimate.value, 0.0);
             assert_eq!(res.method, Method::Deterministic);
@@ -457,7 +540,10 @@ fn combination_row_equals_reduced_problem() {
     let mut p = Polytope::new();
     p.push(vec![1.0, 0.0, 0.0, 0.0], Band::closed(-1.0, 1.5));
     p.push(vec![0.0, 1.0, 0.0, 0.0], Band::closed(-0.5, 2.0));
-    p.push(vec![0.0, 0.0, 1.0, 1.0], Band::closed(-0.5 + 0.5, 1.0 + 0.5));
+    p.push(
+        vec![0.0, 0.0, 1.0, 1.0],
+        Band::closed(-0.5 + 0.5, 1.0 + 0.5),
+    );
     p.push(vec![0.0, 0.0, 0.0, 1.0], Band::closed(0.5, 0.5)); // deterministic, on both closed ends
     let full = g.probability_detailed(&p, &tol(1e-9, 0.0)).unwrap();
     let reduced_g = gaussian(&[0.1, -0.2], &[1.0, 0.6, 0.6, 1.0]);
@@ -475,14 +561,20 @@ fn combination_row_equals_reduced_problem() {
     );
     // Independent check of the reduced problem by its complement structure: x1 + x2 has
     // variance 1 + 1 + 2 * 0.6 = 3.2 and the value lies below the tightest marginal.
-    let marginal = ref_interval((-0.5 - 0.1 + 0.2) / 3.2_f64.sqrt(), (1.0 - 0.1 + 0.2) / 3.2_f64.sqrt());
+    let marginal = ref_interval(
+        (-0.5 - 0.1 + 0.2) / 3.2_f64.sqrt(),
+        (1.0 - 0.1 + 0.2) / 3.2_f64.sqrt(),
+    );
     assert!(full.estimate.value < marginal);
     assert!(full.estimate.value > 0.0);
 }
 
 #[test]
 fn empty_bands_and_whole_space() {
-    let g = gaussian(&[0.0, 0.0, 0.0], &[1.0, 0.2, 0.1, 0.2, 1.0, 0.3, 0.1, 0.3, 1.0]);
+    let g = gaussian(
+        &[0.0, 0.0, 0.0],
+        &[1.0, 0.2, 0.1, 0.2, 1.0, 0.3, 0.1, 0.3, 1.0],
+    );
     let mut p = Polytope::new();
     p.push(vec![1.0, 0.0, 0.0], Band::closed(1.0, 0.5));
     p.push(vec![0.0, 1.0, 0.0], Band::above(0.0));
@@ -490,11 +582,16 @@ fn empty_bands_and_whole_space() {
     assert_eq!(r.estimate.value, 0.0);
     assert_eq!(r.estimate.error, 0.0);
     // No constraint at all: probability 1.
-    let r = g.probability_detailed(&Polytope::new(), &Tolerance::default()).unwrap();
+    let r = g
+        .probability_detailed(&Polytope::new(), &Tolerance::default())
+        .unwrap();
     assert_eq!(r.estimate.value, 1.0);
     // Only infinite bands: 1.
     let mut p = Polytope::new();
-    p.push(vec![1.0, 2.0, 0.0], Band::closed(f64::NEG_INFINITY, f64::INFINITY));
+    p.push(
+        vec![1.0, 2.0, 0.0],
+        Band::closed(f64::NEG_INFINITY, f64::INFINITY),
+    );
     assert_eq!(g.probability(&p, &Tolerance::default()).unwrap().value, 1.0);
     // Antiparallel rows with disjoint bands: 0.
     let mut p = Polytope::new();
@@ -509,7 +606,11 @@ fn univariate_path_matches_erfc() {
     // in the tail where relative accuracy matters.
     let g = gaussian(&[1.0, -2.0], &[4.0, 1.0, 1.0, 2.0]);
     // Row (1, 1): mean -1, variance 4 + 2 + 2 = 8.
-    for (l, u) in [(-3.0, 0.5), (20.0, f64::INFINITY), (f64::NEG_INFINITY, -30.0)] {
+    for (l, u) in [
+        (-3.0, 0.5),
+        (20.0, f64::INFINITY),
+        (f64::NEG_INFINITY, -30.0),
+    ] {
         let mut p = Polytope::new();
         p.push(vec![1.0, 1.0], Band::closed(l, u));
         p.push(vec![2.0, 2.0], Band::closed(2.0 * l - 1.0, 2.0 * u + 1.0));
@@ -542,28 +643,49 @@ fn bad_input_is_reported() {
         Err(ProbError::TooLarge { .. })
     ));
     let asym = DMatrix::from_row_slice(2, 2, &[1.0, 0.5, 0.4, 1.0]);
-    assert!(matches!(Gaussian::new(&[0.0; 2], &asym), Err(ProbError::NotSymmetric { .. })));
-    let indefinite = DMatrix::from_row_slice(3, 3, &[1.0, 0.9, 0.9, 0.9, 1.0, -0.9, 0.9, -0.9, 1.0]);
+    assert!(matches!(
+        Gaussian::new(&[0.0; 2], &asym),
+        Err(ProbError::NotSymmetric { .. })
+    ));
+    let indefinite =
+        DMatrix::from_row_slice(3, 3, &[1.0, 0.9, 0.9, 0.9, 1.0, -0.9, 0.9, -0.9, 1.0]);
     match Gaussian::new(&[0.0; 3], &indefinite) {
-        Err(ProbError::NotPositiveSemiDefinite { detail }) => assert!(detail.contains("coordinate")),
+        Err(ProbError::NotPositiveSemiDefinite { detail }) => {
+            assert!(detail.contains("coordinate"))
+        }
         other => panic!("expected NotPositiveSemiDefinite, got {other:?}"),
     }
     let g = Gaussian::new(&[0.0; 2], &eye).unwrap();
     let mut p = Polytope::new();
     p.push(vec![1.0, 0.0, 0.0], Band::above(0.0));
-    assert!(matches!(g.probability(&p, &Tolerance::default()), Err(ProbError::DimensionMismatch { .. })));
+    assert!(matches!(
+        g.probability(&p, &Tolerance::default()),
+        Err(ProbError::DimensionMismatch { .. })
+    ));
     let mut p = Polytope::new();
     p.push(vec![1.0, f64::NAN], Band::above(0.0));
-    assert!(matches!(g.probability(&p, &Tolerance::default()), Err(ProbError::NonFinite { .. })));
+    assert!(matches!(
+        g.probability(&p, &Tolerance::default()),
+        Err(ProbError::NonFinite { .. })
+    ));
     let mut p = Polytope::new();
     p.push(vec![1.0, 0.0], Band::above(f64::NAN));
-    assert!(matches!(g.probability(&p, &Tolerance::default()), Err(ProbError::NonFinite { .. })));
+    assert!(matches!(
+        g.probability(&p, &Tolerance::default()),
+        Err(ProbError::NonFinite { .. })
+    ));
     let mut p = Polytope::new();
     for _ in 0..65 {
         p.push(vec![1.0, 0.0], Band::above(0.0));
     }
-    assert!(matches!(g.probability(&p, &Tolerance::default()), Err(ProbError::TooLarge { .. })));
-    let bad_tol = Tolerance { abs: -1.0, ..Tolerance::default() };
+    assert!(matches!(
+        g.probability(&p, &Tolerance::default()),
+        Err(ProbError::TooLarge { .. })
+    ));
+    let bad_tol = Tolerance {
+        abs: -1.0,
+        ..Tolerance::default()
+    };
     assert!(matches!(
         g.probability(&Polytope::new(), &bad_tol),
         Err(ProbError::InvalidArgument(_))
@@ -578,7 +700,10 @@ fn bad_input_is_reported() {
 }
 
 fn three_row_problem() -> (Gaussian, Polytope) {
-    let g = gaussian(&[0.2, -0.1, 0.3], &[1.0, 0.4, -0.2, 0.4, 2.0, 0.5, -0.2, 0.5, 1.5]);
+    let g = gaussian(
+        &[0.2, -0.1, 0.3],
+        &[1.0, 0.4, -0.2, 0.4, 2.0, 0.5, -0.2, 0.5, 1.5],
+    );
     let mut p = Polytope::new();
     p.push(vec![1.0, 0.0, 0.0], Band::closed(-1.0, 1.0));
     p.push(vec![0.0, 1.0, 1.0], Band::below(1.2));
@@ -611,7 +736,11 @@ fn budget_exhaustion_and_best_effort() {
         max_points: 12 * 256,
     };
     match g.probability_detailed(&p, &t) {
-        Err(ProbError::BudgetExhausted { achieved, requested, points }) => {
+        Err(ProbError::BudgetExhausted {
+            achieved,
+            requested,
+            points,
+        }) => {
             assert!(achieved > requested);
             assert!(points <= 12 * 256);
         }
@@ -621,7 +750,13 @@ fn budget_exhaustion_and_best_effort() {
     assert!(best.estimate.error > 1e-15);
     // The honest error covers a tight rerun.
     let tight = g.probability_detailed(&p, &tol(1e-9, 0.0)).unwrap();
-    assert_covers("best effort", best.estimate.value, best.estimate.error, tight.estimate.value, tight.estimate.error);
+    assert_covers(
+        "best effort",
+        best.estimate.value,
+        best.estimate.error,
+        tight.estimate.value,
+        tight.estimate.error,
+    );
     // A shifted copy equals a polytope with shifted bands.
     let shifted = g.shifted(&[0.5, 0.0, 0.0]).unwrap();
     let mut q = Polytope::new();
@@ -675,8 +810,9 @@ mod properties {
                     let mut cov = vec![0.0; r * r];
                     for i in 0..r {
                         for j in 0..r {
-                            cov[i * r + j] = (0..r).map(|k| b[i * r + k] * b[j * r + k]).sum::<f64>()
-                                + if i == j { 0.1 } else { 0.0 };
+                            cov[i * r + j] =
+                                (0..r).map(|k| b[i * r + k] * b[j * r + k]).sum::<f64>()
+                                    + if i == j { 0.1 } else { 0.0 };
                         }
                     }
                     (cov, mean, rows)
@@ -765,7 +901,10 @@ fn error_bound_covers_a_precise_rerun_in_99_percent() {
             seed: 0x5eed_0000 + case as u64,
             ..Options::default()
         };
-        let tight = g.probability_with(&p, &tol(1e-6, 0.0), &other).unwrap().estimate;
+        let tight = g
+            .probability_with(&p, &tol(1e-6, 0.0), &other)
+            .unwrap()
+            .estimate;
         if (loose.value - tight.value).abs() <= loose.error + tight.error {
             covered += 1;
         }

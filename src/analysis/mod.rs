@@ -1,1 +1,27 @@
-//! (being written)
+//! The analysis layer: coverage figures per fault site, the worst case over an unknown
+//! spread, the fault-free baseline, hardware metrics, and an independent Monte Carlo engine.
+//!
+//! - [`cells`]: the output and checks split into linear cells.
+//! - [`evaluate`]: each outcome as disjoint polytopes, evaluated for a gaussian scenario.
+//! - [`scenario`]: a fault site as a family of gaussians in its amplitude.
+//! - [`site`]: amplitude models (known and unknown sigma, uniform, points) per site.
+//! - [`metrics`]: SPFM, LFM, SFF, residual and latent FIT, ASIL targets.
+//! - [`run`]: the whole exact analysis of a file.
+//! - [`montecarlo`]: plain sampling through separate code, for verification.
+//! - [`outcome`]: the four probabilities and the coverage figures derived from them.
+
+pub mod cells;
+pub mod error;
+pub mod evaluate;
+pub mod metrics;
+pub mod montecarlo;
+pub mod options;
+pub mod outcome;
+pub mod run;
+pub mod scenario;
+pub mod site;
+
+pub use error::AnalysisError;
+pub use options::AnalysisOptions;
+pub use outcome::{Figure, Outcome};
+pub use run::{Analysis, analyze};

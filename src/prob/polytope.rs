@@ -30,6 +30,7 @@
 use nalgebra::DMatrix;
 use serde::Serialize;
 
+use crate::prob::bivariate;
 use crate::prob::cholesky::{self, Factor};
 use crate::prob::error::ProbError;
 use crate::prob::estimate::Estimate;
@@ -532,7 +533,23 @@ impl Gaussian {
             let error = value * tolerance::ROUNDING_REL;
             return Ok(with_error(value, error, Method::Univariate, 0, 1));
         }
-        let _ = options.exact_paths;
+        if rows.len() == 2 && options.exact_paths {
+            // Two unit directions: the bivariate normal rectangle (Genz 2004) with the cosine
+            // of the two directions as the correlation.
+            let rho: f64 = rows[0]
+                .dir
+                .iter()
+                .zip(&rows[1].dir)
+                .map(|(a, b)| a * b)
+                .sum();
+            let rho = rho.clamp(-1.0, 1.0);
+            let e = bivariate::rectangle_estimate(
+                [rows[0].lower, rows[1].lower],
+                [rows[0].upper, rows[1].upper],
+                rho,
+            );
+            return Ok(with_error(e.value, e.error, Method::Bivariate, 0, 2));
+        }
         let plan = Plan::build(&rows, rank);
         if plan.variables == 1 {
             let value = plan.first_factor();
@@ -743,7 +760,11 @@ fn truncated_mean(a: f64, b: f64) -> f64 {
         return fallback();
     }
     let m = (normal::pdf(a) - normal::pdf(b)) / mass;
-    if m.is_finite() { m.clamp(a, b) } else { fallback() }
+    if m.is_finite() {
+        m.clamp(a, b)
+    } else {
+        fallback()
+    }
 }
 
 /// Largest magnitude of a conditioning variable (the normal quantile of the smallest

@@ -1,1 +1,53 @@
-//! (being written)
+//! The report layer: the figures of an analysis as a terminal table, JSON and CSV.
+//!
+//! - [`json`]: the JSON object that scripts rely on (the contract of DESIGN.md).
+//! - [`table`]: the table for a terminal, 100 columns wide.
+//! - [`csv`]: one row per scenario, for spreadsheets.
+//! - [`format`]: number formatting shared by the text formats.
+//! - [`cautions`]: the cautions every report carries.
+
+pub mod cautions;
+pub mod csv;
+pub mod format;
+pub mod json;
+pub mod table;
+
+use crate::analysis::Analysis;
+use crate::analysis::montecarlo::Agreement;
+use crate::model::Architecture;
+
+/// What one report is made from.
+#[derive(Clone, Copy)]
+pub struct ReportInput<'a> {
+    /// The loaded architecture file.
+    pub architecture: &'a Architecture,
+    /// The computed figures.
+    pub analysis: &'a Analysis,
+    /// `exact` or `montecarlo`.
+    pub method: &'a str,
+    /// The Monte Carlo cross-check, when it was run.
+    pub verification: Option<&'a [Agreement]>,
+}
+
+/// The version of concord, as reports print it.
+pub const TOOL_VERSION: &str = env!("CARGO_PKG_VERSION");
+
+/// SHA-256 of the input file's text, in lower-case hex, so a reviewer can tell that a report
+/// belongs to a file.
+pub fn input_sha256(text: &str) -> String {
+    use sha2::{Digest, Sha256};
+    let digest = Sha256::digest(text.as_bytes());
+    digest.iter().map(|b| format!("{b:02x}")).collect()
+}
+
+#[cfg(test)]
+mod tests {
+    #[test]
+    fn sha256_of_abc_matches_the_fips_example() {
+        // FIPS 180-2, Appendix B.1: SHA-256("abc").
+        assert_eq!(
+            super::input_sha256("abc"),
+            "ba7816bf8f01cfea414140de5dae2223b00361a396177a9cb410ff61f20015ad"
+        );
+    }
+}

@@ -1,0 +1,156 @@
+//! The decomposition of an architecture into linear cells.
+//!
+//! The output and every check are piecewise-linear functions of the channel deviations `x`.
+//! Their common refinement splits `x`-space into disjoint convex cells (for order statistics:
+//! orderings of the channels); inside a cell the output and every check are affine, so every
+//! event of the analysis (violation, detection, their complements) is, inside the cell, a
+//! finite union of disjoint polytopes. DESIGN.md "The engine" describes the approach.
+
+use crate::model::{CompiledModel, Detection, Guard, LinearForm};
+
+use super::error::AnalysisError;
+
+/// Upper limit on cells after the product of pieces (the number of orderings of 7 inputs).
+pub const MAX_CELLS: usize = 5040;
+
+/// A convex region of `x`-space where the output and every check are affine.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Cell {
+    /// Half-space conditions that define the region (all must hold).
+    pub guards: Vec<Guard>,
+    /// The output inside the cell.
+    pub output: LinearForm,
+    /// Each check's value inside the cell, in the model's check order.
+    pub checks: Vec<LinearForm>,
+}
+
+/// The cells of a model together with the bands that classify outcomes.
+#[derive(Debug, Clone)]
+pub struct CellSet {
+    /// Disjoint cells that together cover `x`-space.
+    pub cells: Vec<Cell>,
+    /// Safety band `[lower, upper]` of the output (violated outside, strictly).
+    pub safety: (f64, f64),
+    /// Pass band `[lower, upper]` of each check (fires outside, strictly).
+    pub check_bands: Vec<(f64, f64)>,
+    /// How check firings combine into detection.
+    pub detection: Detection,
+}
+
+impl CellSet {
+    /// Builds the cells of a compiled model: the product of the pieces of the output and of
+    /// every check, without the combinations whose guards contradict each other.
+    ///
+    /// # Errors
+    /// [`AnalysisError::TooLarge`] when the product has more than [`MAX_CELLS`] cells.
+    pub fn from_model(model: &CompiledModel) -> Result<Self, AnalysisError> {
+        let mut cells: Vec<Cell> = model
+            .output
+            .pieces
+            .iter()
+            .map(|piece| Cell {
+                guards: merge_guards(&[], &piece.guards).unwrap_or_default(),
+                output: piece.value.clone(),
+                checks: Vec::new(),
+            })
+            .collect();
+        for check in &model.checks {
+            let mut next = Vec::new();
+            for cell in &cells {
+                for piece in &check.function.pieces {
+                    if let Some(guards) = merge_guards(&cell.guards, &piece.guards) {
+                        let mut checks = cell.checks.clone();
+                        checks.push(piece.value.clone());
+                        next.push(Cell {
+                            guards,
+                            output: cell.output.clone(),
+                            checks,
+                        });
+                        if next.len() > MAX_CELLS {
+                            return Err(AnalysisError::TooLarge {
+                                what: format!(
+                                    "the product of the pieces of the output and the checks up to '{}'",
+                                    check.name
+                                ),
+                                unit: "cells",
+                                limit: MAX_CELLS,
+                                found: next.len(),
+                            });
+                        }
+                    }
+                }
+            }
+            cells = next;
+        }
+        Ok(Self {
+            cells,
+            safety: (model.safety_lower, model.safety_upper),
+            check_bands: model.checks.iter().map(|c| (c.lower, c.upper)).collect(),
+            detection: model.detection.clone(),
+        })
+    }
+
+    /// Number of channels (the dimension of `x`).
+    pub fn dim(&self) -> usize {
+        self.cells.first().map_or(0, |c| c.output.coeffs.len())
+    }
+}
+
+/// Joins two guard lists; `None` when they contradict (a guard and its exact negation with
+/// at least one strict side: the intersection is empty). Identical guards are kept once; of
+/// a strict and a non-strict copy of the same half-space the strict one is kept.
+fn merge_guards(left: &[Guard], right: &[Guard]) -> Option<Vec<Guard>> {
+    let mut merged: Vec<Guard> = Vec::with_capacity(left.len() + right.len());
+    for guard in left.iter().chain(right) {
+        let mut keep = true;
+        for existing in merged.iter_mut() {
+            if same_form(&existing.form, &guard.form) {
+                existing.strict |= guard.strict;
+                keep = false;
+                break;
+            }
+            if negated_form(&existing.form, &guard.form) && (existing.strict || guard.strict) {
+                return None;
+            }
+        }
+        if keep {
+            merged.push(guard.clone());
+        }
+    }
+    Some(merged)
+}
+
+fn same_form(a: &LinearForm, b: &LinearForm) -> bool {
+    a.constant == b.constant && a.coeffs == b.coeffs
+}
+
+fn negated_form(a: &LinearForm, b: &LinearForm) -> bool {
+    a.constant == -b.constant && a.coeffs.iter().zip(&b.coeffs).all(|(p, q)| *p == -*q)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn form(coeffs: &[f64]) -> LinearForm {
+        LinearForm {
+            coeffs: coeffs.to_vec(),
+            constant: 0.0,
+        }
+    }
+
+    #[test]
+    fn a_guard_and_its_strict_negation_contradict() {
+        let ge = Guard {
+            form: form(&[1.0, -1.0]),
+            strict: false,
+        };
+        let gt_neg = Guard {
+            form: form(&[-1.0, 1.0]),
+            strict: true,
+        };
+        assert_eq!(merge_guards(&[ge.clone()], &[gt_neg]), None);
+        // The same guard twice is kept once.
+        assert_eq!(merge_guards(&[ge.clone()], &[ge.clone()]), Some(vec![ge]));
+    }
+}

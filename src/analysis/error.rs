@@ -1,0 +1,52 @@
+//! Errors of the analysis layer.
+
+use thiserror::Error;
+
+use crate::prob::ProbError;
+
+/// What went wrong while analysing a compiled architecture.
+#[derive(Debug, Clone, PartialEq, Error)]
+pub enum AnalysisError {
+    /// The probability engine failed on one figure of one fault site (or the baseline).
+    #[error("{context}: {source}")]
+    Engine {
+        /// Where in the analysis it happened, e.g. `fault site 'a_stuck', residual p_vu`.
+        context: String,
+        /// The engine's own error.
+        #[source]
+        source: ProbError,
+    },
+    /// The decomposition into linear cells and polytopes is larger than the limit.
+    #[error(
+        "{what} needs {found} {unit}, more than the limit of {limit}; \
+         simplify the architecture (fewer checks or fewer order-statistic inputs)"
+    )]
+    TooLarge {
+        /// What grew too large.
+        what: String,
+        /// The unit counted (cells, polytopes, samples).
+        unit: &'static str,
+        /// The limit.
+        limit: usize,
+        /// What the input needs.
+        found: usize,
+    },
+    /// An option or argument of the analysis is out of range.
+    #[error("invalid analysis option {option}: {message}")]
+    InvalidOption {
+        /// The option at fault, as the user spells it.
+        option: String,
+        /// What is wrong and how to fix it.
+        message: String,
+    },
+}
+
+impl AnalysisError {
+    /// Wraps an engine error with the place of the analysis where it happened.
+    pub fn engine(context: impl Into<String>, source: ProbError) -> Self {
+        Self::Engine {
+            context: context.into(),
+            source,
+        }
+    }
+}

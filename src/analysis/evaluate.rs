@@ -1,0 +1,276 @@
+//! Exact evaluation of the four outcome probabilities for one gaussian scenario.
+//!
+//! Each outcome is split, cell by cell, into disjoint polytopes: the output is below,
+//! inside or above its safety band, and each check below, inside or above its pass band.
+//! The residual `p_vu` is a sum of polytopes of its own (output outside, every check
+//! quiet): it is integrated directly, never obtained as a difference of large numbers.
+
+use crate::model::{Detection, Guard, LinearForm};
+use crate::prob::Estimate;
+use crate::prob::polytope::{Band, Gaussian, Polytope, Tolerance};
+
+use super::cells::{Cell, CellSet};
+use super::error::AnalysisError;
+use super::outcome::{Figure, Outcome};
+
+/// Where a linear value lies relative to its band.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Side {
+    /// Strictly below the lower end.
+    Below,
+    /// Inside the closed band.
+    Inside,
+    /// Strictly above the upper end.
+    Above,
+    /// Not constrained.
+    Free,
+}
+
+/// One disjoint piece of an outcome: the side of the output and of every check.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct Pattern {
+    /// Side of the output relative to the safety band.
+    pub output: Side,
+    /// Side of each check relative to its pass band.
+    pub checks: Vec<Side>,
+}
+
+/// The disjoint patterns whose union is `figure`, for `k` checks combined by `detection`.
+pub fn patterns(figure: Figure, k: usize, detection: &Detection) -> Vec<Pattern> {
+    let outputs: &[Side] = if figure.violated() {
+        &[Side::Below, Side::Above]
+    } else {
+        &[Side::Inside]
+    };
+    let mut check_patterns: Vec<Vec<Side>> = Vec::new();
+    match detection {
+        Detection::Any => {
+            if figure.detected() {
+                // "some check fires" as a disjoint union: check j fires, checks before j pass.
+                for j in 0..k {
+                    for fired in [Side::Below, Side::Above] {
+                        let mut sides = vec![Side::Free; k];
+                        sides.iter_mut().take(j).for_each(|s| *s = Side::Inside);
+                        sides[j] = fired;
+                        check_patterns.push(sides);
+                    }
+                }
+            } else {
+                check_patterns.push(vec![Side::Inside; k]);
+            }
+        }
+        Detection::AtLeast(needed) => {
+            // Every assignment of below / inside / above, kept when its count of firing checks
+            // agrees with the figure: 3^k disjoint patterns at most.
+            let total = 3usize.pow(k as u32);
+            for code in 0..total {
+                let mut rest = code;
+                let mut sides = Vec::with_capacity(k);
+                for _ in 0..k {
+                    sides.push([Side::Inside, Side::Below, Side::Above][rest % 3]);
+                    rest /= 3;
+                }
+                let fired = sides.iter().filter(|s| **s != Side::Inside).count();
+                if (fired >= *needed) == figure.detected() {
+                    check_patterns.push(sides);
+                }
+            }
+        }
+    }
+    let mut out = Vec::with_capacity(outputs.len() * check_patterns.len());
+    for &output in outputs {
+        for checks in &check_patterns {
+            out.push(Pattern {
+                output,
+                checks: checks.clone(),
+            });
+        }
+    }
+    out
+}
+
+/// The band a linear form must lie in for a side of `[lower, upper]`, shifted by the form's
+/// constant so that it applies to `coeffs . x`. `None` when the side is empty (e.g. below
+/// a lower end of minus infinity) or unconstrained.
+fn band_for(side: Side, form: &LinearForm, lower: f64, upper: f64) -> Option<Option<Band>> {
+    let c = form.constant;
+    match side {
+        Side::Free => Some(None),
+        Side::Inside => Some(Some(Band::closed(lower - c, upper - c))),
+        Side::Below => (lower > f64::NEG_INFINITY).then(|| Some(Band::below(lower - c))),
+        Side::Above => (upper < f64::INFINITY).then(|| Some(Band::above(upper - c))),
+    }
+}
+
+fn guard_band(guard: &Guard) -> Band {
+    Band {
+        lower: -guard.form.constant,
+        upper: f64::INFINITY,
+        lower_open: guard.strict,
+        upper_open: true,
+    }
+}
+
+/// The polytope of one pattern inside one cell; `None` when it is empty by construction.
+pub fn polytope(cells: &CellSet, cell: &Cell, pattern: &Pattern) -> Option<Polytope> {
+    let mut poly = Polytope::new();
+    for guard in &cell.guards {
+        poly.push(guard.form.coeffs.clone(), guard_band(guard));
+    }
+    let (lo, hi) = cells.safety;
+    if let Some(band) = band_for(pattern.output, &cell.output, lo, hi)? {
+        poly.push(cell.output.coeffs.clone(), band);
+    }
+    for ((form, side), (lo, hi)) in cell
+        .checks
+        .iter()
+        .zip(&pattern.checks)
+        .zip(&cells.check_bands)
+    {
+        if let Some(band) = band_for(*side, form, *lo, *hi)? {
+            poly.push(form.coeffs.clone(), band);
+        }
+    }
+    Some(poly)
+}
+
+/// Precomputed polytopes of every figure for a cell set: built once per architecture and
+/// evaluated for many gaussian scenarios (amplitudes, sigmas).
+#[derive(Debug, Clone)]
+pub struct Evaluator {
+    polytopes: [Vec<Polytope>; 4],
+    tolerance: Tolerance,
+}
+
+impl Evaluator {
+    /// Builds the polytopes of all four figures.
+    ///
+    /// # Errors
+    /// [`AnalysisError::TooLarge`] when one figure needs more than `max_polytopes`.
+    pub fn new(
+        cells: &CellSet,
+        tolerance: Tolerance,
+        max_polytopes: usize,
+    ) -> Result<Self, AnalysisError> {
+        let k = cells.check_bands.len();
+        let mut polytopes: [Vec<Polytope>; 4] = Default::default();
+        for (slot, figure) in polytopes.iter_mut().zip(Figure::ALL) {
+            let pats = patterns(figure, k, &cells.detection);
+            let found = pats.len().saturating_mul(cells.cells.len());
+            if found > max_polytopes {
+                return Err(AnalysisError::TooLarge {
+                    what: format!("the outcome {}", figure.key()),
+                    unit: "polytopes",
+                    limit: max_polytopes,
+                    found,
+                });
+            }
+            for cell in &cells.cells {
+                for pattern in &pats {
+                    if let Some(p) = polytope(cells, cell, pattern) {
+                        slot.push(p);
+                    }
+                }
+            }
+        }
+        Ok(Self {
+            polytopes,
+            tolerance,
+        })
+    }
+
+    /// The polytopes whose disjoint union is `figure`.
+    pub fn polytopes(&self, figure: Figure) -> &[Polytope] {
+        let index = Figure::ALL.iter().position(|f| *f == figure).unwrap_or(0);
+        &self.polytopes[index]
+    }
+
+    /// Every row of every polytope with its finite band ends (for amplitude breakpoints).
+    pub fn rows_with_ends(&self) -> impl Iterator<Item = (&[f64], f64)> {
+        self.polytopes.iter().flatten().flat_map(|p| {
+            p.rows.iter().zip(&p.bands).flat_map(|(row, band)| {
+                [band.lower, band.upper]
+                    .into_iter()
+                    .filter(|e| e.is_finite())
+                    .map(move |e| (row.as_slice(), e))
+            })
+        })
+    }
+
+    /// `P(figure)` for `x ~ gaussian`, with the summed error bound of its polytopes.
+    ///
+    /// # Errors
+    /// Engine failures, with the figure named.
+    pub fn figure(&self, gaussian: &Gaussian, figure: Figure) -> Result<Estimate, AnalysisError> {
+        let mut total = Estimate::zero();
+        for poly in self.polytopes(figure) {
+            let p = gaussian
+                .probability_best_effort(poly, &self.tolerance)
+                .map_err(|e| AnalysisError::engine(format!("outcome {}", figure.key()), e))?;
+            total = total.add(p.estimate);
+        }
+        Ok(total.clamp_probability())
+    }
+
+    /// All four figures for `x ~ gaussian`.
+    ///
+    /// # Errors
+    /// Engine failures, with the figure named.
+    pub fn outcome(&self, gaussian: &Gaussian) -> Result<Outcome, AnalysisError> {
+        Ok(Outcome {
+            p_vd: self.figure(gaussian, Figure::ViolatedDetected)?,
+            p_vu: self.figure(gaussian, Figure::ViolatedUndetected)?,
+            p_sd: self.figure(gaussian, Figure::SafeDetected)?,
+            p_sq: self.figure(gaussian, Figure::SafeQuiet)?,
+        })
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn patterns_of_any_detection_partition_the_check_states() {
+        // Counting argument (common practice): with k checks of three states each, the
+        // "all inside" pattern plus the disjoint "first firing check is j" patterns cover
+        // every one of the 3^k states exactly once.
+        for k in 0..5 {
+            let quiet = patterns(Figure::SafeQuiet, k, &Detection::Any);
+            let alarm = patterns(Figure::SafeDetected, k, &Detection::Any);
+            let mut covered = 0usize;
+            for code in 0..3usize.pow(k as u32) {
+                let mut rest = code;
+                let state: Vec<Side> = (0..k)
+                    .map(|_| {
+                        let s = [Side::Inside, Side::Below, Side::Above][rest % 3];
+                        rest /= 3;
+                        s
+                    })
+                    .collect();
+                let hits = quiet
+                    .iter()
+                    .chain(&alarm)
+                    .filter(|p| {
+                        p.checks
+                            .iter()
+                            .zip(&state)
+                            .all(|(a, b)| *a == Side::Free || a == b)
+                    })
+                    .count();
+                assert_eq!(hits, 1, "state {state:?} covered {hits} times");
+                covered += 1;
+            }
+            assert_eq!(covered, 3usize.pow(k as u32));
+        }
+    }
+
+    #[test]
+    fn at_least_two_of_three_counts_firings() {
+        // 2oo3 detection: patterns with two or three firing checks: 3*4 + 8 = 20 (counting).
+        let det = patterns(Figure::SafeDetected, 3, &Detection::AtLeast(2));
+        assert_eq!(det.len(), 20);
+        let quiet = patterns(Figure::SafeQuiet, 3, &Detection::AtLeast(2));
+        assert_eq!(quiet.len(), 27 - 20);
+    }
+}

@@ -1,0 +1,168 @@
+//! Hardware metrics from per-site figures: residual and latent rates, SPFM, LFM, SFF and the
+//! ASIL targets they meet (ISO 26262-5:2018 clauses 8 and 9, Tables 4 to 6; IEC 61508-2
+//! Annex C for the SFF). The targets below are from memory and must be checked against the
+//! standard in force; the analyst remains responsible for the classification.
+
+use serde::Serialize;
+
+use crate::prob::Estimate;
+
+use super::site::SiteResult;
+
+/// An automotive safety integrity level whose metric targets a design meets.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord, Serialize)]
+pub enum Asil {
+    /// No ASIL target met (quality management only).
+    #[serde(rename = "QM")]
+    Qm,
+    /// ASIL B.
+    B,
+    /// ASIL C.
+    C,
+    /// ASIL D.
+    D,
+}
+
+impl Asil {
+    /// The label used in reports.
+    pub fn label(self) -> &'static str {
+        match self {
+            Asil::Qm => "QM",
+            Asil::B => "B",
+            Asil::C => "C",
+            Asil::D => "D",
+        }
+    }
+}
+
+/// SPFM targets for ASIL B, C, D: ISO 26262-5:2018 Table 4 (from memory): >= 90 / 97 / 99 %.
+pub const SPFM_TARGETS: [(Asil, f64); 3] = [(Asil::D, 0.99), (Asil::C, 0.97), (Asil::B, 0.90)];
+/// LFM targets for ASIL B, C, D: ISO 26262-5:2018 Table 5 (from memory): >= 60 / 80 / 90 %.
+pub const LFM_TARGETS: [(Asil, f64); 3] = [(Asil::D, 0.90), (Asil::C, 0.80), (Asil::B, 0.60)];
+/// Residual-rate targets (the PMHF budget) for ASIL B, C, D: ISO 26262-5:2018 Table 6 (from
+/// memory): < 100 FIT for B and C, < 10 FIT for D.
+pub const PMHF_TARGETS_FIT: [(Asil, f64); 3] =
+    [(Asil::D, 10.0), (Asil::C, 100.0), (Asil::B, 100.0)];
+
+/// The highest ASIL whose lower-bound target `value` meets, judged on the pessimistic end of
+/// its bound (value minus error), so that numerical error never lifts a design a level.
+pub fn asil_for_minimum(value: Estimate, targets: &[(Asil, f64)]) -> Asil {
+    let pessimistic = value.value - value.error;
+    targets
+        .iter()
+        .find(|(_, t)| pessimistic >= *t)
+        .map_or(Asil::Qm, |(a, _)| *a)
+}
+
+/// The highest ASIL whose upper-limit target (in FIT) `value` stays below, judged on the
+/// pessimistic end (value plus error).
+pub fn asil_for_maximum(value: Estimate, targets: &[(Asil, f64)]) -> Asil {
+    let pessimistic = value.value + value.error;
+    targets
+        .iter()
+        .find(|(_, t)| pessimistic < *t)
+        .map_or(Asil::Qm, |(a, _)| *a)
+}
+
+/// The hardware metrics of an architecture.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Metrics {
+    /// Sum of the failure rates of the sites, FIT.
+    pub total_fit: f64,
+    /// `sum(fit_i * p_vu,i)`, FIT.
+    pub residual_fit: Estimate,
+    /// `sum(fit_i * p_sq,i * (1 - latent_coverage_i))`, FIT.
+    pub latent_fit: Estimate,
+    /// Single-point fault metric `1 - residual / total` (ISO 26262-5:2018, 8.4.5).
+    pub spfm: Estimate,
+    /// Latent fault metric `1 - latent / sum(fit_i (1 - p_vu,i))` (ISO 26262-5:2018, 8.4.6).
+    pub lfm: Estimate,
+    /// Safe failure fraction (IEC 61508-2, C.1), with all residual outcomes dangerous
+    /// undetected: `1 - residual / total`.
+    pub sff: Estimate,
+    /// Coverage averaged over the dangerous rate: `sum(fit p_vd) / sum(fit (p_vd + p_vu))`.
+    pub dc_avg: Option<Estimate>,
+    /// Highest ASIL whose SPFM target is met.
+    pub asil_spfm: Asil,
+    /// Highest ASIL whose LFM target is met.
+    pub asil_lfm: Asil,
+    /// Highest ASIL whose residual-rate budget the residual rate stays under (the
+    /// single-point part of the PMHF only; multiple-point contributions are not included).
+    pub asil_residual_budget: Asil,
+}
+
+/// Rolls site figures up into the hardware metrics.
+///
+/// Bounds propagate linearly: each metric's error is the FIT-weighted sum of the sites'
+/// error bounds; for the ratios the interval of the quotient is taken.
+pub fn metrics(sites: &[SiteResult]) -> Metrics {
+    let total_fit: f64 = sites.iter().map(|s| s.fit).sum();
+    let residual_fit: Estimate = sites.iter().map(SiteResult::residual_fit).sum();
+    let latent_fit: Estimate = sites.iter().map(SiteResult::latent_fit).sum();
+    let not_residual: Estimate = sites
+        .iter()
+        .map(|s| {
+            Estimate::new(
+                s.fit * (1.0 - s.outcome.p_vu.value),
+                s.fit * s.outcome.p_vu.error,
+            )
+        })
+        .sum();
+    let spfm = if total_fit > 0.0 {
+        Estimate::new(
+            1.0 - residual_fit.value / total_fit,
+            residual_fit.error / total_fit,
+        )
+    } else {
+        Estimate::new(1.0, 0.0)
+    };
+    let lfm = one_minus_ratio(latent_fit, not_residual);
+    let detected: Estimate = sites.iter().map(|s| s.outcome.p_vd.scale(s.fit)).sum();
+    let dangerous: Estimate = sites
+        .iter()
+        .map(|s| s.outcome.violation().scale(s.fit))
+        .sum();
+    let dc_avg = (dangerous.value > 0.0).then(|| ratio(detected, residual_fit, dangerous));
+    Metrics {
+        total_fit,
+        residual_fit,
+        latent_fit,
+        spfm,
+        lfm,
+        sff: spfm,
+        dc_avg,
+        asil_spfm: asil_for_minimum(spfm, &SPFM_TARGETS),
+        asil_lfm: asil_for_minimum(lfm, &LFM_TARGETS),
+        asil_residual_budget: asil_for_maximum(residual_fit, &PMHF_TARGETS_FIT),
+    }
+}
+
+/// `1 - a / b` with the bound from the extreme quotients.
+fn one_minus_ratio(a: Estimate, b: Estimate) -> Estimate {
+    if b.value <= 0.0 {
+        return Estimate::new(1.0, 0.0);
+    }
+    let centre = a.value / b.value;
+    let b_lo = (b.value - b.error).max(f64::MIN_POSITIVE);
+    let high = (a.value + a.error) / b_lo;
+    let low = (a.value - a.error).max(0.0) / (b.value + b.error);
+    Estimate::new(1.0 - centre, (high - centre).max(centre - low))
+}
+
+/// `d / (d + r)` where `total = d + r`, bounded by interval arithmetic on `d` and `r`.
+fn ratio(d: Estimate, r: Estimate, total: Estimate) -> Estimate {
+    let centre = d.value / total.value;
+    let d_lo = (d.value - d.error).max(0.0);
+    let r_lo = (r.value - r.error).max(0.0);
+    let low = if d_lo + r.value + r.error > 0.0 {
+        d_lo / (d_lo + r.value + r.error)
+    } else {
+        0.0
+    };
+    let high = if d.value + d.error + r_lo > 0.0 {
+        (d.value + d.error) / (d.value + d.error + r_lo)
+    } else {
+        1.0
+    };
+    Estimate::new(centre, (centre - low).max(high - centre))
+}

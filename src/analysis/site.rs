@@ -1,0 +1,390 @@
+//! Figures of one fault site: the amplitude models of DESIGN.md "Fault sites" and the worst
+//! case over an unknown spread ("Unknown spread").
+
+use crate::model::{Amplitude, CompiledFault, CompiledModel, FaultMode};
+use crate::prob::Estimate;
+use crate::prob::optimise::{log_grid, scan_then_refine};
+use crate::prob::quadrature::integrate_best_effort;
+
+use super::error::AnalysisError;
+use super::evaluate::Evaluator;
+use super::options::AnalysisOptions;
+use super::outcome::{Figure, Outcome};
+use super::scenario::FaultScenario;
+
+/// One point of the curve over an unknown fault sigma.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct CurvePoint {
+    /// The fault sigma.
+    pub sigma: f64,
+    /// All four figures at that sigma.
+    pub outcome: Outcome,
+}
+
+/// A local maximum of the residual over the fault sigma.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct LocalWorst {
+    /// The sigma where the residual peaks.
+    pub sigma: f64,
+    /// The residual `p_vu` there.
+    pub p_vu: f64,
+    /// Whether the peak sits at an end of the searched range.
+    pub at_range_end: bool,
+}
+
+/// The worst case over an unknown fault sigma.
+#[derive(Debug, Clone, PartialEq)]
+pub struct WorstCase {
+    /// The sigma with the largest residual; every figure of the site is taken there.
+    pub sigma: f64,
+    /// The searched range `[lo, hi]`.
+    pub range: (f64, f64),
+    /// Whether the range was the default one (not written in the file).
+    pub range_defaulted: bool,
+    /// Every local maximum the scan found, largest residual first.
+    pub local_maxima: Vec<LocalWorst>,
+    /// The scan: every grid sigma with its residual.
+    pub scan: Vec<(f64, Estimate)>,
+}
+
+/// Everything computed for one fault site.
+#[derive(Debug, Clone, PartialEq)]
+pub struct SiteResult {
+    /// Name of the site in the file.
+    pub name: String,
+    /// Failure rate in FIT.
+    pub fit: f64,
+    /// `add` or `replace`.
+    pub mode: &'static str,
+    /// The amplitude model in words, e.g. `gaussian(mean 0, sigma unknown in [0.001, 5400])`.
+    pub amplitude: String,
+    /// The four outcome probabilities (at the worst sigma when searched).
+    pub outcome: Outcome,
+    /// The worst case when the sigma is unknown.
+    pub worst: Option<WorstCase>,
+    /// The whole curve over sigma, when requested.
+    pub curve: Option<Vec<CurvePoint>>,
+    /// Share of latent faults found by other means, from the file.
+    pub latent_coverage: f64,
+    /// Warnings for the analyst.
+    pub warnings: Vec<String>,
+}
+
+impl SiteResult {
+    /// `fit * p_vu`: the residual rate of the site.
+    pub fn residual_fit(&self) -> Estimate {
+        self.outcome.p_vu.scale(self.fit)
+    }
+
+    /// `fit * p_sq * (1 - latent_coverage)`: the latent rate of the site.
+    pub fn latent_fit(&self) -> Estimate {
+        self.outcome
+            .p_sq
+            .scale(self.fit * (1.0 - self.latent_coverage))
+    }
+}
+
+/// The amplitude model in words.
+pub fn describe_amplitude(amplitude: &Amplitude) -> String {
+    match amplitude {
+        Amplitude::Gaussian { mean, sigma } => format!("gaussian(mean {mean}, sigma {sigma})"),
+        Amplitude::GaussianUnknownSigma {
+            mean,
+            sigma_lo,
+            sigma_hi,
+            ..
+        } => {
+            format!("gaussian(mean {mean}, sigma unknown in [{sigma_lo}, {sigma_hi}])")
+        }
+        Amplitude::Uniform { lower, upper } => format!("uniform[{lower}, {upper}]"),
+        Amplitude::Points(points) => {
+            let list: Vec<String> = points.iter().map(|(v, w)| format!("{v} w {w}")).collect();
+            format!("points({})", list.join("; "))
+        }
+    }
+}
+
+/// Analyses one fault site exactly.
+///
+/// # Errors
+/// Engine failures, with the site named.
+pub fn analyze_site(
+    model: &CompiledModel,
+    evaluator: &Evaluator,
+    fault: &CompiledFault,
+    options: &AnalysisOptions,
+    want_curve: bool,
+) -> Result<SiteResult, AnalysisError> {
+    let scenario = FaultScenario::new(model, fault)?;
+    let named = |e: AnalysisError| match e {
+        AnalysisError::Engine { context, source } => AnalysisError::Engine {
+            context: format!("fault site '{}', {context}", fault.name),
+            source,
+        },
+        other => other,
+    };
+    let mut warnings = Vec::new();
+    let mut worst = None;
+    let mut curve = None;
+    let outcome = match &fault.amplitude {
+        Amplitude::Gaussian { mean, sigma } => evaluator
+            .outcome(
+                &scenario
+                    .with_gaussian_amplitude(*mean, *sigma)
+                    .map_err(named)?,
+            )
+            .map_err(named)?,
+        Amplitude::Points(points) => points_outcome(evaluator, &scenario, points).map_err(named)?,
+        Amplitude::Uniform { lower, upper } => {
+            uniform_outcome(evaluator, &scenario, *lower, *upper, options).map_err(named)?
+        }
+        Amplitude::GaussianUnknownSigma {
+            mean,
+            sigma_lo,
+            sigma_hi,
+            defaulted,
+        } => {
+            let (found, outcome, points) = worst_case(
+                evaluator,
+                &scenario,
+                *mean,
+                (*sigma_lo, *sigma_hi),
+                options,
+                want_curve,
+            )
+            .map_err(named)?;
+            let mut found = found;
+            found.range_defaulted = *defaulted;
+            if found.local_maxima.first().is_some_and(|m| m.at_range_end) {
+                warnings.push(format!(
+                    "the worst case of '{}' sits at an end of the sigma range [{}, {}]: \
+                     widen the range (amplitude.gaussian.sigma = {{ unknown = [lo, hi] }}) to be sure \
+                     it is the true maximum",
+                    fault.name, sigma_lo, sigma_hi
+                ));
+            }
+            if found.local_maxima.len() > 1 {
+                warnings.push(format!(
+                    "the residual of '{}' has {} local maxima over sigma; the largest is reported",
+                    fault.name,
+                    found.local_maxima.len()
+                ));
+            }
+            worst = Some(found);
+            curve = points;
+            outcome
+        }
+    };
+    let sum = outcome.sum();
+    if (sum.value - 1.0).abs() > sum.error + 1e-9 {
+        warnings.push(format!(
+            "the four figures of '{}' sum to {:.12} instead of 1 (bound {:.1e}): treat them with care",
+            fault.name, sum.value, sum.error
+        ));
+    }
+    Ok(SiteResult {
+        name: fault.name.clone(),
+        fit: fault.fit,
+        mode: match fault.mode {
+            FaultMode::Add { .. } => "add",
+            FaultMode::Replace { .. } => "replace",
+        },
+        amplitude: describe_amplitude(&fault.amplitude),
+        outcome,
+        worst,
+        curve,
+        latent_coverage: fault.latent_coverage,
+        warnings,
+    })
+}
+
+fn points_outcome(
+    evaluator: &Evaluator,
+    scenario: &FaultScenario,
+    points: &[(f64, f64)],
+) -> Result<Outcome, AnalysisError> {
+    let mut parts = Vec::with_capacity(points.len());
+    for (value, weight) in points {
+        parts.push((evaluator.outcome(&scenario.at_amplitude(*value)?)?, *weight));
+    }
+    Ok(Outcome::from_fn(|f| {
+        parts
+            .iter()
+            .map(|(o, w)| o.get(f).scale(*w))
+            .sum::<Estimate>()
+            .clamp_probability()
+    }))
+}
+
+/// Breakpoints of the amplitude integrand: where a row's mean crosses a band end, and a few
+/// noise widths either side, so that the adaptive rule sees every step of the integrand
+/// (with noise far below full scale the integrand changes within a tiny part of the range).
+fn amplitude_breakpoints(
+    evaluator: &Evaluator,
+    scenario: &FaultScenario,
+    lower: f64,
+    upper: f64,
+) -> Vec<f64> {
+    let mut points = Vec::new();
+    for (row, end) in evaluator.rows_with_ends() {
+        let (mean, slope, sd) = scenario.row_profile(row);
+        if slope.abs() <= f64::EPSILON * row.iter().map(|r| r.abs()).sum::<f64>() {
+            continue;
+        }
+        let centre = (end - mean) / slope;
+        let width = sd / slope.abs();
+        points.push(centre);
+        if width > 0.0 {
+            for k in [-6.0, -2.0, 2.0, 6.0] {
+                points.push(centre + k * width);
+            }
+        }
+    }
+    points.retain(|p| p.is_finite() && *p > lower && *p < upper);
+    points.sort_by(f64::total_cmp);
+    let min_gap = (upper - lower) * 1e-9;
+    points.dedup_by(|a, b| (*a - *b).abs() <= min_gap);
+    points
+}
+
+fn uniform_outcome(
+    evaluator: &Evaluator,
+    scenario: &FaultScenario,
+    lower: f64,
+    upper: f64,
+    options: &AnalysisOptions,
+) -> Result<Outcome, AnalysisError> {
+    if upper <= lower {
+        return evaluator.outcome(&scenario.at_amplitude(lower)?);
+    }
+    let width = upper - lower;
+    let breakpoints = amplitude_breakpoints(evaluator, scenario, lower, upper);
+    let mut quad = options.quadrature();
+    quad.max_intervals += breakpoints.len();
+    // The tolerances apply to the mean over the range, so scale them by its width.
+    quad.abs_tol *= width;
+    let mut figures = [Estimate::zero(); 4];
+    for (slot, figure) in figures.iter_mut().zip(Figure::ALL) {
+        let integral = integrate_best_effort(
+            |amplitude| {
+                let g = scenario.at_amplitude(amplitude).map_err(engine_of)?;
+                evaluator.figure(&g, figure).map_err(engine_of)
+            },
+            lower,
+            upper,
+            &breakpoints,
+            &quad,
+        )
+        .map_err(|e| {
+            AnalysisError::engine(
+                format!("integral of {} over the amplitude", figure.key()),
+                e,
+            )
+        })?;
+        *slot = Estimate::new(integral.value / width, integral.error / width).clamp_probability();
+    }
+    Ok(Outcome {
+        p_vd: figures[0],
+        p_vu: figures[1],
+        p_sd: figures[2],
+        p_sq: figures[3],
+    })
+}
+
+/// The quadrature takes engine errors only; analysis errors are carried through as their
+/// engine cause or as an invalid argument with the message.
+fn engine_of(e: AnalysisError) -> crate::prob::ProbError {
+    match e {
+        AnalysisError::Engine { source, .. } => source,
+        other => crate::prob::ProbError::InvalidArgument(other.to_string()),
+    }
+}
+
+type WorstFound = (WorstCase, Outcome, Option<Vec<CurvePoint>>);
+
+fn worst_case(
+    evaluator: &Evaluator,
+    scenario: &FaultScenario,
+    mean: f64,
+    range: (f64, f64),
+    options: &AnalysisOptions,
+    want_curve: bool,
+) -> Result<WorstFound, AnalysisError> {
+    let (lo, hi) = range;
+    let grid = log_grid(lo, hi, options.sigma_scan_points.max(3))
+        .map_err(|e| AnalysisError::engine("grid over the fault sigma", e))?;
+    let residual_at = |sigma: f64| -> Result<Estimate, AnalysisError> {
+        evaluator.figure(
+            &scenario.with_gaussian_amplitude(mean, sigma)?,
+            Figure::ViolatedUndetected,
+        )
+    };
+    let mut scan_values = Vec::with_capacity(grid.len());
+    let scan = scan_then_refine(
+        |sigma| {
+            let r = residual_at(sigma).map_err(engine_of)?;
+            scan_values.push((sigma, r));
+            Ok(-r.value)
+        },
+        &grid,
+        options.sigma_rel_tol,
+        options.sigma_max_evaluations,
+        true,
+    )
+    .map_err(|e| AnalysisError::engine("search of the worst fault sigma", e))?;
+    // Keep the grid part of the evaluations, in grid order, for the report.
+    let mut scan_grid: Vec<(f64, Estimate)> = Vec::with_capacity(grid.len());
+    for g in &grid {
+        if let Some(found) = scan_values.iter().find(|(s, _)| s == g) {
+            scan_grid.push(*found);
+        }
+    }
+    let local_maxima: Vec<LocalWorst> = scan
+        .minima
+        .iter()
+        .map(|m| LocalWorst {
+            sigma: m.x,
+            p_vu: -m.value,
+            at_range_end: m.at_boundary,
+        })
+        .collect();
+    let sigma = local_maxima.first().map_or(lo, |m| m.sigma);
+    let at = |s: f64| -> Result<Outcome, AnalysisError> {
+        evaluator.outcome(&scenario.with_gaussian_amplitude(mean, s)?)
+    };
+    let centre = at(sigma)?;
+    // The location of the maximum is known to sigma_rel_tol: the figures may move by as much
+    // as they do over that distance, so widen every bound by it (DESIGN.md "Semantics").
+    let step = options.sigma_rel_tol.max(1e-12);
+    let left = at((sigma * (1.0 - step)).max(lo))?;
+    let right = at((sigma * (1.0 + step)).min(hi))?;
+    let outcome = centre.widened(|f| {
+        let c = centre.get(f).value;
+        (left.get(f).value - c)
+            .abs()
+            .max((right.get(f).value - c).abs())
+    });
+    let curve = if want_curve {
+        let mut points = Vec::with_capacity(grid.len());
+        for s in &grid {
+            points.push(CurvePoint {
+                sigma: *s,
+                outcome: at(*s)?,
+            });
+        }
+        Some(points)
+    } else {
+        None
+    };
+    Ok((
+        WorstCase {
+            sigma,
+            range,
+            range_defaulted: false,
+            local_maxima,
+            scan: scan_grid,
+        },
+        outcome,
+        curve,
+    ))
+}

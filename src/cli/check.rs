@@ -1,0 +1,14 @@
+//! `concord check FILE [--dot]`.
+
+use super::args::CheckArgs;
+use super::{Failure, load};
+
+/// Validates the file and returns the summary (or the DOT graph).
+pub fn run(args: &CheckArgs) -> Result<String, Failure> {
+    let arch = load(&args.file)?;
+    Ok(if args.dot {
+        crate::model::to_dot(&arch)
+    } else {
+        crate::model::describe(&arch)
+    })
+}

@@ -1,0 +1,67 @@
+//! CSV output: one row for the baseline and one per fault site, columns named as in JSON.
+
+use super::ReportInput;
+
+/// The CSV header.
+pub const HEADER: &str = "scenario,fit,mode,amplitude,dc,dc_error,dc_all_dangerous,p_vd,p_vd_error,\
+p_vu,p_vu_error,p_sd,p_sd_error,p_sq,p_sq_error,worst_sigma,residual_fit,latent_fit";
+
+/// Quotes a text field when it holds a comma, quote or line break (RFC 4180, 2.6 and 2.7).
+fn field(text: &str) -> String {
+    if text.contains([',', '"', '\n', '\r']) {
+        format!("\"{}\"", text.replace('"', "\"\""))
+    } else {
+        text.to_string()
+    }
+}
+
+fn opt(v: Option<f64>) -> String {
+    v.map_or(String::new(), |x| format!("{x:e}"))
+}
+
+/// The CSV text.
+pub fn render(input: &ReportInput<'_>) -> String {
+    let a = input.analysis;
+    let mut out = String::from(HEADER);
+    out.push('\n');
+    let b = &a.baseline;
+    out.push_str(&format!(
+        "baseline,,,,{},{},{:e},{:e},{:e},{:e},{:e},{:e},{:e},{:e},{:e},,,\n",
+        opt(b.dc().map(|d| d.value)),
+        opt(b.dc().map(|d| d.error)),
+        b.dc_all_dangerous().value,
+        b.p_vd.value,
+        b.p_vd.error,
+        b.p_vu.value,
+        b.p_vu.error,
+        b.p_sd.value,
+        b.p_sd.error,
+        b.p_sq.value,
+        b.p_sq.error
+    ));
+    for s in &a.sites {
+        let o = &s.outcome;
+        out.push_str(&format!(
+            "{},{:e},{},{},{},{},{:e},{:e},{:e},{:e},{:e},{:e},{:e},{:e},{:e},{},{:e},{:e}\n",
+            field(&s.name),
+            s.fit,
+            s.mode,
+            field(&s.amplitude),
+            opt(o.dc().map(|d| d.value)),
+            opt(o.dc().map(|d| d.error)),
+            o.dc_all_dangerous().value,
+            o.p_vd.value,
+            o.p_vd.error,
+            o.p_vu.value,
+            o.p_vu.error,
+            o.p_sd.value,
+            o.p_sd.error,
+            o.p_sq.value,
+            o.p_sq.error,
+            opt(s.worst.as_ref().map(|w| w.sigma)),
+            s.residual_fit().value,
+            s.latent_fit().value
+        ));
+    }
+    out
+}

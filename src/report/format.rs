@@ -1,0 +1,69 @@
+//! Number formatting shared by the text outputs.
+
+use crate::prob::Estimate;
+
+/// A probability in scientific form with four significant digits, e.g. `1.234e-05`.
+pub fn probability(p: f64) -> String {
+    if p == 0.0 {
+        "0".to_string()
+    } else {
+        format!("{p:.3e}")
+    }
+}
+
+/// An error bound in short scientific form, e.g. `2e-12`.
+pub fn bound(e: f64) -> String {
+    if e == 0.0 {
+        "0".to_string()
+    } else {
+        format!("{e:.0e}")
+    }
+}
+
+/// A coverage as a percentage with two decimals, truncated (never rounded up, so that
+/// 99.996 % is shown as 99.99 and not as 100.00).
+pub fn percent_floor(fraction: f64) -> String {
+    // The tiny allowance keeps exact decimals such as 0.57 (5699.999... hundredths) whole.
+    let hundredths = (fraction * 10_000.0 + 1e-7).floor() / 100.0;
+    format!("{hundredths:.2}")
+}
+
+/// An estimate of a coverage as `99.12 ± 0.01` percent.
+pub fn percent_with_bound(e: Estimate) -> String {
+    format!("{} ± {}", percent_floor(e.value), bound(e.error * 100.0))
+}
+
+/// A rate in FIT with four significant digits.
+pub fn fit(value: f64) -> String {
+    if value == 0.0 {
+        "0".to_string()
+    } else if value.abs() >= 0.01 && value.abs() < 1e5 {
+        format!("{value:.4}")
+    } else {
+        format!("{value:.3e}")
+    }
+}
+
+/// A sigma or other plain number, short.
+pub fn number(value: f64) -> String {
+    if value == 0.0 {
+        "0".to_string()
+    } else if value.abs() >= 1e-3 && value.abs() < 1e5 {
+        let s = format!("{value:.4}");
+        s.trim_end_matches('0').trim_end_matches('.').to_string()
+    } else {
+        format!("{value:.3e}")
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn percentages_are_never_rounded_up() {
+        assert_eq!(percent_floor(0.99996), "99.99");
+        assert_eq!(percent_floor(1.0), "100.00");
+        assert_eq!(percent_floor(0.5), "50.00");
+    }
+}

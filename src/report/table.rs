@@ -1,0 +1,214 @@
+//! The terminal table of `concord analyze` (the default format), at most 100 columns wide.
+
+use std::fmt::Write as _;
+
+use crate::analysis::metrics::{LFM_TARGETS, SPFM_TARGETS};
+
+use super::cautions::CAUTIONS;
+use super::format::{bound, fit, number, percent_floor, percent_with_bound, probability};
+use super::{ReportInput, TOOL_VERSION, input_sha256};
+
+/// The table text.
+pub fn render(input: &ReportInput<'_>) -> String {
+    let arch = input.architecture;
+    let model = &arch.model;
+    let a = input.analysis;
+    let unit = &model.unit;
+    let mut out = String::new();
+    let _ = writeln!(
+        out,
+        "concord {TOOL_VERSION}  |  {}  |  {}",
+        model.name, arch.path
+    );
+    let _ = writeln!(out, "input sha256 {}", input_sha256(&arch.source));
+    let _ = writeln!(
+        out,
+        "unit {unit}  |  output {}  |  safety band [{}, {}] {unit}  |  method {}",
+        model.output_description,
+        number(model.safety_lower),
+        number(model.safety_upper),
+        input.method
+    );
+    let _ = writeln!(out);
+    let b = &a.baseline;
+    let _ = writeln!(out, "Fault-free baseline");
+    let _ = writeln!(
+        out,
+        "  nuisance alarm (a check fires)       {:>11}  ± {}",
+        probability(b.alarm().value),
+        bound(b.alarm().error)
+    );
+    let _ = writeln!(
+        out,
+        "  intrinsic violation (output outside) {:>11}  ± {}",
+        probability(b.violation().value),
+        bound(b.violation().error)
+    );
+    let _ = writeln!(
+        out,
+        "  of which undetected, p_vu            {:>11}  ± {}",
+        probability(b.p_vu.value),
+        bound(b.p_vu.error)
+    );
+    let _ = writeln!(out);
+    let _ = writeln!(out, "Fault sites: coverage and residual");
+    let _ = writeln!(
+        out,
+        "{:<16} {:>8} {:>7} {:>8} {:>8} {:>10} {:>7} {:>11} {:>11}",
+        "site", "FIT", "mode", "DC %", "DCad %", "p_vu", "bound", "worst sigma", "resid. FIT"
+    );
+    for s in &a.sites {
+        let o = &s.outcome;
+        let dc = o.dc().map_or("-".to_string(), |d| percent_floor(d.value));
+        let worst = s
+            .worst
+            .as_ref()
+            .map_or("-".to_string(), |w| number(w.sigma));
+        let _ = writeln!(
+            out,
+            "{:<16} {:>8} {:>7} {:>8} {:>8} {:>10} {:>7} {:>11} {:>11}",
+            clip(&s.name, 16),
+            fit(s.fit),
+            s.mode,
+            dc,
+            percent_floor(o.dc_all_dangerous().value),
+            probability(o.p_vu.value),
+            bound(o.p_vu.error),
+            worst,
+            fit(s.residual_fit().value)
+        );
+    }
+    let _ = writeln!(out);
+    let _ = writeln!(out, "Fault sites: the other outcomes");
+    let _ = writeln!(
+        out,
+        "{:<16} {:>10} {:>7} {:>10} {:>7} {:>10} {:>7} {:>11}  amplitude",
+        "site", "p_vd", "bound", "p_sd", "bound", "p_sq", "bound", "latent FIT"
+    );
+    for s in &a.sites {
+        let o = &s.outcome;
+        let _ = writeln!(
+            out,
+            "{:<16} {:>10} {:>7} {:>10} {:>7} {:>10} {:>7} {:>11}  {}",
+            clip(&s.name, 16),
+            probability(o.p_vd.value),
+            bound(o.p_vd.error),
+            probability(o.p_sd.value),
+            bound(o.p_sd.error),
+            probability(o.p_sq.value),
+            bound(o.p_sq.error),
+            fit(s.latent_fit().value),
+            clip(&s.amplitude, 100usize.saturating_sub(91).max(8))
+        );
+    }
+    let _ = writeln!(out);
+    let m = &a.metrics;
+    let _ = writeln!(
+        out,
+        "Hardware metrics (targets: ISO 26262-5:2018 Tables 4 and 5, from memory)"
+    );
+    let _ = writeln!(out, "  total rate          {} FIT", fit(m.total_fit));
+    let _ = writeln!(
+        out,
+        "  residual rate       {} FIT ± {}",
+        fit(m.residual_fit.value),
+        bound(m.residual_fit.error)
+    );
+    let _ = writeln!(
+        out,
+        "  latent rate         {} FIT ± {}",
+        fit(m.latent_fit.value),
+        bound(m.latent_fit.error)
+    );
+    let _ = writeln!(
+        out,
+        "  SPFM                {} %   meets ASIL {}  ({})",
+        percent_with_bound(m.spfm),
+        m.asil_spfm.label(),
+        targets(&SPFM_TARGETS)
+    );
+    let _ = writeln!(
+        out,
+        "  LFM                 {} %   meets ASIL {}  ({})",
+        percent_with_bound(m.lfm),
+        m.asil_lfm.label(),
+        targets(&LFM_TARGETS)
+    );
+    let _ = writeln!(out, "  SFF (IEC 61508-2)   {} %", percent_with_bound(m.sff));
+    if let Some(dc) = m.dc_avg {
+        let _ = writeln!(out, "  DC, rate-weighted   {} %", percent_with_bound(dc));
+    }
+    let _ = writeln!(
+        out,
+        "  residual rate budget met for ASIL {} (single-point part of the PMHF only)",
+        m.asil_residual_budget.label()
+    );
+    if let Some(rows) = input.verification {
+        let _ = writeln!(out);
+        let agree = rows.iter().filter(|r| r.agrees).count();
+        let _ = writeln!(
+            out,
+            "Monte Carlo cross-check: {agree} of {} figures inside their 99.9 % interval",
+            rows.len()
+        );
+        for r in rows.iter().filter(|r| !r.agrees) {
+            let _ = writeln!(
+                out,
+                "  DISAGREES  {} {}: exact {} ± {}, sampled {} in [{}, {}]",
+                r.scenario,
+                r.figure.key(),
+                probability(r.exact.value),
+                bound(r.exact.error),
+                probability(r.sampled),
+                probability(r.interval.0),
+                probability(r.interval.1)
+            );
+        }
+    }
+    let warnings: Vec<String> = arch
+        .warnings
+        .iter()
+        .map(|w| w.to_string())
+        .chain(a.warnings.iter().cloned())
+        .collect();
+    if !warnings.is_empty() {
+        let _ = writeln!(out);
+        let _ = writeln!(out, "Warnings");
+        for w in warnings {
+            let _ = writeln!(out, "  - {w}");
+        }
+    }
+    let _ = writeln!(out);
+    let _ = writeln!(
+        out,
+        "DC = p_vd / (p_vd + p_vu); DCad = 1 - p_vu (every fault counted dangerous)."
+    );
+    let _ = writeln!(
+        out,
+        "Coverages are truncated to two decimals, never rounded up; bounds are numerical only."
+    );
+    for c in CAUTIONS {
+        let _ = writeln!(out, "Caution: {c}");
+    }
+    out
+}
+
+fn targets(list: &[(crate::analysis::metrics::Asil, f64)]) -> String {
+    let mut parts: Vec<String> = list
+        .iter()
+        .rev()
+        .map(|(a, t)| format!("{} >= {}", a.label(), percent_floor(*t)))
+        .collect();
+    parts.dedup();
+    parts.join(", ")
+}
+
+fn clip(text: &str, width: usize) -> String {
+    if text.chars().count() <= width {
+        text.to_string()
+    } else {
+        let mut s: String = text.chars().take(width.saturating_sub(1)).collect();
+        s.push('~');
+        s
+    }
+}

@@ -1,0 +1,244 @@
+//! The analysis against closed forms derived by hand (derivations in the comments).
+//!
+//! Two independent channels `a`, `b` with equal sigma `s` and zero means: the sum and the
+//! difference of two independent gaussians of equal variance are uncorrelated, hence
+//! independent (a standard property of the bivariate normal, e.g. Feller, Vol. II, III.1;
+//! common practice). With the mean output `y = (a + b) / 2` and the difference check
+//! `d = a - b`, every event is a product of a `y` event and a `d` event, so each outcome
+//! probability factorises into one-dimensional normal probabilities. The normal CDF is
+//! evaluated as `erfc(-x / sqrt 2) / 2` with the `libm` crate's erfc (a port of the FreeBSD
+//! msun library, an implementation independent of concord's own Cody-based CDF).
+
+use concord::analysis::{AnalysisOptions, analyze};
+use concord::model::load_str;
+
+fn phi(x: f64) -> f64 {
+    0.5 * libm::erfc(-x * std::f64::consts::FRAC_1_SQRT_2)
+}
+
+/// `P(|N(m, v)| > L)`, from the two tails.
+fn outside(m: f64, sd: f64, limit: f64) -> f64 {
+    phi((-limit - m) / sd) + phi((m - limit) / sd)
+}
+
+/// `P(|N(m, v)| <= T)`.
+fn inside(m: f64, sd: f64, limit: f64) -> f64 {
+    1.0 - outside(m, sd, limit)
+}
+
+const S: f64 = 0.6;
+const L: f64 = 2.0;
+const T: f64 = 1.5;
+
+fn two_channels(faults: &str) -> String {
+    format!(
+        r#"
+name = "two independent channels"
+unit = "mm"
+full_scale = [-40.0, 40.0]
+
+[sources.ref]
+mean = 0.0
+sigma = 0.0
+
+[channels.a]
+mean = 0.0
+sigma = {S}
+from = {{ ref = 1.0 }}
+
+[channels.b]
+mean = 0.0
+sigma = {S}
+from = {{ ref = 1.0 }}
+
+[output]
+kind = "mean"
+of = ["a", "b"]
+
+[checks.ab]
+kind = "difference"
+of = ["a", "b"]
+limit = {T}
+
+[safety]
+limit = {L}
+{faults}
+"#
+    )
+}
+
+fn assert_close(what: &str, computed: concord::prob::Estimate, reference: f64) {
+    let diff = (computed.value - reference).abs();
+    assert!(
+        diff <= computed.error + 1e-13 + 1e-12 * reference.abs(),
+        "{what}: computed {} ± {:e}, closed form {reference}, difference {diff:e}",
+        computed.value,
+        computed.error
+    );
+    assert!(
+        computed.error < 1e-8,
+        "{what}: bound {:e} too loose to be a check",
+        computed.error
+    );
+}
+
+#[test]
+fn baseline_factorises_into_sum_and_difference() {
+    let arch = load_str(&two_channels(""), "two.toml").unwrap();
+    let a = analyze(&arch.model, &AnalysisOptions::default(), false).unwrap();
+    // y ~ N(0, s^2 / 2), d ~ N(0, 2 s^2), independent.
+    let (sy, sd) = (S / 2f64.sqrt(), S * 2f64.sqrt());
+    let b = &a.baseline;
+    assert_close(
+        "baseline p_vu",
+        b.p_vu,
+        outside(0.0, sy, L) * inside(0.0, sd, T),
+    );
+    assert_close(
+        "baseline p_vd",
+        b.p_vd,
+        outside(0.0, sy, L) * outside(0.0, sd, T),
+    );
+    assert_close(
+        "baseline p_sd",
+        b.p_sd,
+        inside(0.0, sy, L) * outside(0.0, sd, T),
+    );
+    assert_close(
+        "baseline p_sq",
+        b.p_sq,
+        inside(0.0, sy, L) * inside(0.0, sd, T),
+    );
+}
+
+#[test]
+fn fixed_offset_on_one_channel_factorises() {
+    // F fixed (a single point of weight 1) on channel a: y ~ N(F/2, s^2/2), d ~ N(F, 2 s^2),
+    // still independent because F is not random.
+    for f in [0.5, 2.0, 3.0, 4.5, 9.0, -3.7] {
+        let faults = format!(
+            "[faults.a_offset]\nfit = 10.0\nhits = {{ a = 1.0 }}\nmode = \"add\"\namplitude = {{ points = [[{f}, 1.0]] }}\n"
+        );
+        let arch = load_str(&two_channels(&faults), "two.toml").unwrap();
+        let a = analyze(&arch.model, &AnalysisOptions::default(), false).unwrap();
+        let (sy, sd) = (S / 2f64.sqrt(), S * 2f64.sqrt());
+        let o = &a.sites[0].outcome;
+        assert_close(
+            &format!("p_vu at F={f}"),
+            o.p_vu,
+            outside(f / 2.0, sy, L) * inside(f, sd, T),
+        );
+        assert_close(
+            &format!("p_vd at F={f}"),
+            o.p_vd,
+            outside(f / 2.0, sy, L) * outside(f, sd, T),
+        );
+        assert_close(
+            &format!("p_sd at F={f}"),
+            o.p_sd,
+            inside(f / 2.0, sy, L) * outside(f, sd, T),
+        );
+        assert_close(
+            &format!("p_sq at F={f}"),
+            o.p_sq,
+            inside(f / 2.0, sy, L) * inside(f, sd, T),
+        );
+        // Residual rate = fit * p_vu (DESIGN.md "Hardware metrics").
+        assert!((a.sites[0].residual_fit().value - 10.0 * o.p_vu.value).abs() < 1e-15);
+    }
+}
+
+#[test]
+fn common_cause_gaussian_fault_is_invisible_to_the_difference_check() {
+    // A gaussian fault N(0, 1.2^2) on the shared source moves a and b equally: y gains the
+    // full fault variance, d is untouched and stays independent of y. The check's chance to
+    // fire is the same with and without the fault, so dc = P(|d| > T) = the nuisance rate:
+    // near zero by construction, whatever the fault.
+    let sf = 1.2;
+    let faults = format!(
+        "[faults.ref_noise]\nfit = 5.0\nhits = {{ ref = 1.0 }}\nmode = \"add\"\namplitude = {{ gaussian = {{ mean = 0.0, sigma = {sf} }} }}\n"
+    );
+    let arch = load_str(&two_channels(&faults), "two.toml").unwrap();
+    let a = analyze(&arch.model, &AnalysisOptions::default(), false).unwrap();
+    let sy = (S * S / 2.0 + sf * sf).sqrt();
+    let sd = S * 2f64.sqrt();
+    let o = &a.sites[0].outcome;
+    assert_close(
+        "common-cause p_vu",
+        o.p_vu,
+        outside(0.0, sy, L) * inside(0.0, sd, T),
+    );
+    assert_close(
+        "common-cause p_vd",
+        o.p_vd,
+        outside(0.0, sy, L) * outside(0.0, sd, T),
+    );
+    let dc = o.dc().unwrap();
+    assert!((dc.value - outside(0.0, sd, T)).abs() <= dc.error + 1e-12);
+    assert!(
+        dc.value < 0.1,
+        "a difference check cannot see a common-cause fault: dc {}",
+        dc.value
+    );
+}
+
+/// `G(x) = x Phi(x) + phi(x)`, the antiderivative of `Phi` (integration by parts; common
+/// calculus identity).
+fn int_phi(x: f64) -> f64 {
+    let pdf = (-0.5 * x * x).exp() / (2.0 * std::f64::consts::PI).sqrt();
+    x * phi(x) + pdf
+}
+
+#[test]
+fn uniform_common_cause_fault_integrates_phi_in_closed_form() {
+    // F ~ U(lo, hi) on the shared source: y = y0 + F with y0 ~ N(0, s^2/2), d independent.
+    // P(y > L) = mean over F of Phi((F - L)/sy) = sy [G((hi - L)/sy) - G((lo - L)/sy)] / (hi - lo),
+    // and P(y < -L) = mean of Phi((-L - F)/sy) = sy [G((-L - lo)/sy) - G((-L - hi)/sy)] / (hi - lo).
+    let (lo, hi) = (-10.0, 25.0);
+    let faults = format!(
+        "[faults.ref_wander]\nfit = 2.0\nhits = {{ ref = 1.0 }}\nmode = \"add\"\namplitude = {{ uniform = [{lo}, {hi}] }}\n"
+    );
+    let arch = load_str(&two_channels(&faults), "two.toml").unwrap();
+    let a = analyze(&arch.model, &AnalysisOptions::default(), false).unwrap();
+    let sy = S / 2f64.sqrt();
+    let sd = S * 2f64.sqrt();
+    let w = hi - lo;
+    let above = sy * (int_phi((hi - L) / sy) - int_phi((lo - L) / sy)) / w;
+    let below = sy * (int_phi((-L - lo) / sy) - int_phi((-L - hi) / sy)) / w;
+    let violated = above + below;
+    let o = &a.sites[0].outcome;
+    assert_close("uniform p_vu", o.p_vu, violated * inside(0.0, sd, T));
+    assert_close("uniform p_vd", o.p_vd, violated * outside(0.0, sd, T));
+    assert_close(
+        "uniform p_sq",
+        o.p_sq,
+        (1.0 - violated) * inside(0.0, sd, T),
+    );
+}
+
+#[test]
+fn stuck_channel_at_a_point_factorises() {
+    // Replace mode, a reads exactly F: y = (F + b)/2 ~ N(F/2, s^2/4), d = F - b ~ N(F, s^2),
+    // perfectly correlated through b: y = F - d/2 ... so not independent; instead use the
+    // exact 1-D form: with b ~ N(0, s^2) every event is an interval of b.
+    // V: |F + b| > 2L; Det: |F - b| > T. For F = 3.1, L = 2, T = 1.5:
+    //   not V: -4 - F <= b <= 4 - F  ->  b in [-7.1, 0.9]
+    //   not Det: F - T <= b <= F + T  ->  b in [1.6, 4.6]
+    // so p_vu = P(b in [1.6, 4.6]) (all of it violates), p_sq = 0, p_vd + p_sd follow.
+    let f = 3.1;
+    let faults = format!(
+        "[faults.a_stuck]\nfit = 1.0\nhits = {{ a = 1.0 }}\nmode = \"replace\"\namplitude = {{ points = [[{f}, 1.0]] }}\n"
+    );
+    let arch = load_str(&two_channels(&faults), "two.toml").unwrap();
+    let a = analyze(&arch.model, &AnalysisOptions::default(), false).unwrap();
+    let o = &a.sites[0].outcome;
+    let p = |lo: f64, hi: f64| phi(hi / S) - phi(lo / S);
+    assert_close("stuck p_vu", o.p_vu, p(f - T, f + T));
+    assert_close("stuck p_sq", o.p_sq, 0.0);
+    assert_close("stuck p_sd", o.p_sd, p(-4.0 - f, 4.0 - f));
+    assert_close(
+        "stuck p_vd",
+        o.p_vd,
+        1.0 - p(f - T, f + T) - p(-4.0 - f, 4.0 - f),
+    );
+}
