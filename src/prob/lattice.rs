@@ -234,7 +234,6 @@ mod tests {
     }
 
     #[test]
-    #[ignore = "known failure: the lattice does not meet this test's tolerance yet; fix in progress on the engine issue"]
     fn smooth_integral_converges() {
         // Integral of prod_k (1 + (x_k - 1/2)) over the unit cube is 1 (by hand).
         let out = integrate(
