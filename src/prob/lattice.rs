@@ -53,6 +53,20 @@ fn coordinate(i: u32, z: u32) -> f64 {
     f64::from(i.reverse_bits().wrapping_mul(z)) * (1.0 / 4_294_967_296.0)
 }
 
+/// How the integrand is made periodic before the lattice rule is applied.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Periodisation {
+    /// The baker's (tent) transform `x -> 1 - |2x - 1|` (Hickernell 2002): no weight, so
+    /// it suits higher dimensions.
+    Tent,
+    /// The polynomial change of variables `x = t^3 (10 - 15 t + 6 t^2)` with weight
+    /// `30 t^2 (1 - t)^2` (a Korobov-type periodising transform, Sloan and Joe 1994,
+    /// sec. 2.12): the weighted integrand and its first derivative vanish at both ends,
+    /// which removes the endpoint singularities of Genz's integrand in few dimensions;
+    /// the weight (up to 1.875 per coordinate) inflates the variance in many.
+    Polynomial,
+}
+
 /// Outcome of [`integrate`].
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct Outcome {
@@ -94,7 +108,14 @@ impl Sum {
 ///
 /// `f` receives a point of the unit cube (already tent-transformed) and returns the
 /// integrand value. At least one round of `SHIFTS` points is always evaluated.
-pub fn integrate<F, T>(dim: usize, seed: u64, max_points: usize, target: T, mut f: F) -> Outcome
+pub fn integrate<F, T>(
+    dim: usize,
+    seed: u64,
+    max_points: usize,
+    periodisation: Periodisation,
+    target: T,
+    mut f: F,
+) -> Outcome
 where
     F: FnMut(&[f64]) -> f64,
     T: Fn(f64) -> f64,
@@ -119,11 +140,21 @@ where
         for (shift, sum) in shifts.iter().zip(sums.iter_mut()) {
             for i in done..next {
                 let i = i as u32;
+                let mut weight = 1.0;
                 for ((xk, &zk), &sk) in x.iter_mut().zip(z.iter()).zip(shift.iter()) {
                     let u = (coordinate(i, zk) + sk).fract();
-                    *xk = 1.0 - (2.0 * u - 1.0).abs();
+                    match periodisation {
+                        Periodisation::Tent => *xk = 1.0 - (2.0 * u - 1.0).abs(),
+                        Periodisation::Polynomial => {
+                            let v = u * (1.0 - u);
+                            *xk = u * u * u * (10.0 - 15.0 * u + 6.0 * u * u);
+                            weight *= 30.0 * v * v;
+                        }
+                    }
                 }
-                sum.add(f(&x));
+                if weight > 0.0 {
+                    sum.add(weight * f(&x));
+                }
             }
         }
         done = next;
@@ -240,6 +271,7 @@ mod tests {
             4,
             7,
             1_000_000,
+            Periodisation::Tent,
             |_| 1e-9,
             |x| x.iter().map(|v| 0.5 + v).product(),
         );
@@ -249,11 +281,11 @@ mod tests {
 
     #[test]
     fn budget_is_respected() {
-        let out = integrate(3, 7, 10_000, |_| 0.0, |x| x[0].sin() + x[1] * x[2]);
+        let out = integrate(3, 7, 10_000, Periodisation::Polynomial, |_| 0.0, |x| x[0].sin() + x[1] * x[2]);
         assert!(!out.converged);
         assert!(out.points <= 10_000);
         // Same seed, same bits.
-        let again = integrate(3, 7, 10_000, |_| 0.0, |x| x[0].sin() + x[1] * x[2]);
+        let again = integrate(3, 7, 10_000, Periodisation::Polynomial, |_| 0.0, |x| x[0].sin() + x[1] * x[2]);
         assert_eq!(out, again);
     }
 }

@@ -509,11 +509,11 @@ impl Gaussian {
             Reduced::Rows(rows) => rows,
         };
         let directions = rows.len();
-        let rounding: f64 = rows.iter().map(UnitRow::rounding_error).sum();
+        let rounding = |value: f64| -> f64 { rows.iter().map(|row| row.rounding_error(value)).sum() };
         let with_error = |value: f64, error: f64, method: Method, points, variables| {
             let value = value.clamp(0.0, 1.0);
             PolytopeProbability {
-                estimate: Estimate::new(value, error + rounding),
+                estimate: Estimate::new(value, error + rounding(value)),
                 method,
                 points,
                 rank,
@@ -556,8 +556,12 @@ impl Gaussian {
             let error = value * tolerance::ROUNDING_REL;
             return Ok(with_error(value, error, Method::Univariate, 0, 1));
         }
-        let outcome = plan.integrate(tol, options.seed);
-        let floor = outcome.value * tolerance::ROUNDING_REL * (plan.variables as f64 + 1.0);
+        // Rounding of the sums and of the integrand, relative to the value.
+        let floor_rel = tolerance::ROUNDING_REL * (plan.variables as f64 + 1.0);
+        // The lattice must leave room for the rounding terms added below.
+        let target = |v: f64| tol.target(v) - rounding(v) - floor_rel * v.abs();
+        let outcome = plan.integrate(tol.max_points, options.seed, target);
+        let floor = outcome.value.abs() * floor_rel;
         let result = with_error(
             outcome.value,
             outcome.error + floor,
@@ -718,10 +722,19 @@ struct UnitRow {
 }
 
 impl UnitRow {
-    /// Moving an end by `slack` moves the probability by at most the density of the unit
-    /// row at that end times `slack`.
-    fn rounding_error(&self) -> f64 {
-        self.slack * (normal::pdf(self.lower) + normal::pdf(self.upper))
+    /// Moving an end `h` by `slack` moves the probability by at most the density of the
+    /// unit row at `h` times `slack`; for a small probability `value` the first-order change
+    /// is taken as `value * (|h| + 1) * slack` instead (the hazard rate of a half-space,
+    /// `phi(h) / P(Z > h) < |h| + 1`), so that tail probabilities keep a relative bound.
+    fn rounding_error(&self, value: f64) -> f64 {
+        let end = |h: f64| {
+            if h.is_finite() {
+                normal::pdf(h).min(value * (h.abs() + 1.0))
+            } else {
+                0.0
+            }
+        };
+        self.slack * (end(self.lower) + end(self.upper))
     }
 }
 
@@ -947,13 +960,15 @@ impl Plan {
         prod
     }
 
-    fn integrate(&self, tol: &Tolerance, seed: u64) -> lattice::Outcome {
+    fn integrate<T: Fn(f64) -> f64>(&self, max_points: usize, seed: u64, target: T) -> lattice::Outcome {
+        let periodisation = lattice::Periodisation::Polynomial;
         let mut w = vec![0.0; self.variables];
         lattice::integrate(
             self.variables - 1,
             seed,
-            tol.max_points,
-            |v| tol.target(v),
+            max_points,
+            periodisation,
+            target,
             |x| self.eval(x, &mut w),
         )
     }

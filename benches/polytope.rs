@@ -1,0 +1,76 @@
+//! Polytope probability timings (criterion): the targets of the engine issue are
+//! r = 3, m = 8 at absolute tolerance 1e-8 under 1 ms and r = 6, m = 20 at 1e-6 under
+//! 20 ms; the exact one- and two-direction paths for comparison. Inputs are fixed.
+
+use concord::prob::polytope::{Band, Gaussian, Polytope, Tolerance};
+use concord::prob::rng::SplitMix64;
+use criterion::{Criterion, black_box, criterion_group, criterion_main};
+use nalgebra::DMatrix;
+
+/// A fixed positive-definite covariance B B^T + 0.2 I and mean 0.
+fn gaussian(r: usize, seed: u64) -> Gaussian {
+    let mut rng = SplitMix64::new(seed);
+    let b = DMatrix::from_fn(r, r, |_, _| 2.0 * rng.next_f64() - 1.0);
+    let cov = &b * b.transpose() + DMatrix::<f64>::identity(r, r) * 0.2;
+    Gaussian::new(&vec![0.0; r], &cov).expect("valid covariance")
+}
+
+/// The r coordinate rows with two-sided bands, then m - r random rows with wide bands.
+fn polytope(r: usize, m: usize, seed: u64) -> Polytope {
+    let mut rng = SplitMix64::new(seed);
+    let mut p = Polytope::new();
+    for i in 0..m {
+        let row: Vec<f64> = if i < r {
+            (0..r).map(|j| if i == j { 1.0 } else { 0.0 }).collect()
+        } else {
+            (0..r).map(|_| 2.0 * rng.next_f64() - 1.0).collect()
+        };
+        let l = -1.0 - 2.0 * rng.next_f64();
+        let u = 1.0 + 2.0 * rng.next_f64();
+        p.push(row, Band::closed(l, u));
+    }
+    p
+}
+
+fn bench(c: &mut Criterion) {
+    let mut group = c.benchmark_group("polytope");
+    let cases = [
+        ("lattice_r3_m8_abs1e-8", 3, 8, 1e-8),
+        ("lattice_r6_m20_abs1e-6", 6, 20, 1e-6),
+    ];
+    for (name, r, m, abs) in cases {
+        let g = gaussian(r, 11);
+        let p = polytope(r, m, 12);
+        let tol = Tolerance {
+            abs,
+            rel: 0.0,
+            max_points: 4_000_000,
+        };
+        let res = g.probability_detailed(&p, &tol).expect("tolerance met");
+        println!(
+            "{name}: value {:.12} error {:.2e} points {} method {:?}",
+            res.estimate.value, res.estimate.error, res.points, res.method
+        );
+        group.bench_function(name, |bench| {
+            bench.iter(|| g.probability(black_box(&p), &tol).expect("tolerance met"))
+        });
+    }
+    let g = gaussian(3, 11);
+    let tol = Tolerance::default();
+    let mut two = Polytope::new();
+    two.push(vec![1.0, 0.5, 0.0], Band::closed(-1.0, 2.0));
+    two.push(vec![0.0, 1.0, -1.0], Band::below(0.7));
+    group.bench_function("two_directions_r3", |bench| {
+        bench.iter(|| g.probability(black_box(&two), &tol).expect("exact path"))
+    });
+    let mut one = Polytope::new();
+    one.push(vec![1.0, 0.5, 0.0], Band::closed(-1.0, 2.0));
+    one.push(vec![2.0, 1.0, 0.0], Band::above(-3.0));
+    group.bench_function("one_direction_r3", |bench| {
+        bench.iter(|| g.probability(black_box(&one), &tol).expect("exact path"))
+    });
+    group.finish();
+}
+
+criterion_group!(benches, bench);
+criterion_main!(benches);
