@@ -474,10 +474,10 @@ fn singular_twelve_dimensional_with_deterministic_rows() {
             p.push(row(k), Band::closed(l, u));
             exact *= ref_interval(l, u);
         }
-        for k in 0..r {
+        for (k, &(l, u)) in bounds.iter().enumerate().take(r) {
             p.push(
                 row(k).iter().map(|v| 3.0 * v).collect(),
-                Band::closed(3.0 * bounds[k].0, 3.0 * bounds[k].1),
+                Band::closed(3.0 * l, 3.0 * u),
             );
         }
         exact

@@ -86,7 +86,7 @@ impl CellSet {
             cells,
             safety: (model.safety_lower, model.safety_upper),
             check_bands: model.checks.iter().map(|c| (c.lower, c.upper)).collect(),
-            detection: model.detection.clone(),
+            detection: model.detection,
         })
     }
 
@@ -149,8 +149,11 @@ mod tests {
             form: form(&[-1.0, 1.0]),
             strict: true,
         };
-        assert_eq!(merge_guards(&[ge.clone()], &[gt_neg]), None);
+        assert_eq!(merge_guards(std::slice::from_ref(&ge), &[gt_neg]), None);
         // The same guard twice is kept once.
-        assert_eq!(merge_guards(&[ge.clone()], &[ge.clone()]), Some(vec![ge]));
+        assert_eq!(
+            merge_guards(std::slice::from_ref(&ge), std::slice::from_ref(&ge)),
+            Some(vec![ge])
+        );
     }
 }

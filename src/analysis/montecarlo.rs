@@ -165,9 +165,9 @@ impl<'a> Sampler<'a> {
         let m = self.model;
         let n = m.channels.len();
         let z: Vec<f64> = (0..n).map(|_| normals.next(rng)).collect();
-        for i in 0..n {
+        for (i, xi) in x.iter_mut().enumerate().take(n) {
             let own: f64 = (0..n).map(|k| self.own_factor[(i, k)] * z[k]).sum();
-            x[i] = self.own_mean[i] + m.own_sigmas[i] * own;
+            *xi = self.own_mean[i] + m.own_sigmas[i] * own;
         }
         for j in 0..m.sources.len() {
             let value = m.source_means[j] + m.source_sigmas[j] * normals.next(rng);

@@ -75,7 +75,7 @@ pub fn pivoted(cov: &[f64], n: usize) -> Result<Factor, ProbError> {
             }
         }
         let Some(q) = pivot else { break };
-        if !(best > pivot_tol) || best <= 0.0 {
+        if best.is_nan() || best <= pivot_tol || best <= 0.0 {
             break;
         }
         let root = best.sqrt();

@@ -195,6 +195,7 @@ mod tests {
     /// worst ratio to the best candidate of each size over 2^6..2^20 points.
     #[test]
     #[ignore = "offline search of the lattice generators (about a minute)"]
+    #[allow(clippy::needless_range_loop)] // index loops mirror the criterion formula
     fn search_generators() {
         const BITS: u32 = 20;
         const MIN_BITS: u32 = 6;
@@ -283,11 +284,25 @@ mod tests {
 
     #[test]
     fn budget_is_respected() {
-        let out = integrate(3, 7, 10_000, Periodisation::Polynomial, |_| 0.0, |x| x[0].sin() + x[1] * x[2]);
+        let out = integrate(
+            3,
+            7,
+            10_000,
+            Periodisation::Polynomial,
+            |_| 0.0,
+            |x| x[0].sin() + x[1] * x[2],
+        );
         assert!(!out.converged);
         assert!(out.points <= 10_000);
         // Same seed, same bits.
-        let again = integrate(3, 7, 10_000, Periodisation::Polynomial, |_| 0.0, |x| x[0].sin() + x[1] * x[2]);
+        let again = integrate(
+            3,
+            7,
+            10_000,
+            Periodisation::Polynomial,
+            |_| 0.0,
+            |x| x[0].sin() + x[1] * x[2],
+        );
         assert_eq!(out, again);
     }
 }

@@ -74,13 +74,13 @@ impl Default for Tolerance {
 
 impl Tolerance {
     fn validate(&self) -> Result<(), ProbError> {
-        if !(self.abs >= 0.0) || self.abs.is_infinite() {
+        if self.abs.is_nan() || self.abs < 0.0 || self.abs.is_infinite() {
             return Err(ProbError::InvalidArgument(format!(
                 "absolute tolerance must be a finite number >= 0, got {}",
                 self.abs
             )));
         }
-        if !(self.rel >= 0.0) || self.rel.is_infinite() {
+        if self.rel.is_nan() || self.rel < 0.0 || self.rel.is_infinite() {
             return Err(ProbError::InvalidArgument(format!(
                 "relative tolerance must be a finite number >= 0, got {}",
                 self.rel
@@ -509,7 +509,8 @@ impl Gaussian {
             Reduced::Rows(rows) => rows,
         };
         let directions = rows.len();
-        let rounding = |value: f64| -> f64 { rows.iter().map(|row| row.rounding_error(value)).sum() };
+        let rounding =
+            |value: f64| -> f64 { rows.iter().map(|row| row.rounding_error(value)).sum() };
         let with_error = |value: f64, error: f64, method: Method, points, variables| {
             let value = value.clamp(0.0, 1.0);
             PolytopeProbability {
@@ -769,7 +770,7 @@ fn truncated_mean(a: f64, b: f64) -> f64 {
         return fallback();
     }
     let mass = normal::interval(a, b);
-    if !(mass > f64::MIN_POSITIVE * 1e10) {
+    if mass.is_nan() || mass <= f64::MIN_POSITIVE * 1e10 {
         return fallback();
     }
     let m = (normal::pdf(a) - normal::pdf(b)) / mass;
@@ -950,7 +951,7 @@ impl Plan {
             };
             let mass = normal::interval(a, b);
             prod *= mass;
-            if !(prod > 0.0) {
+            if prod.is_nan() || prod <= 0.0 {
                 return 0.0;
             }
             if j + 1 < self.variables {
@@ -960,7 +961,12 @@ impl Plan {
         prod
     }
 
-    fn integrate<T: Fn(f64) -> f64>(&self, max_points: usize, seed: u64, target: T) -> lattice::Outcome {
+    fn integrate<T: Fn(f64) -> f64>(
+        &self,
+        max_points: usize,
+        seed: u64,
+        target: T,
+    ) -> lattice::Outcome {
         let periodisation = lattice::Periodisation::Polynomial;
         let mut w = vec![0.0; self.variables];
         lattice::integrate(
