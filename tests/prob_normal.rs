@@ -5,13 +5,14 @@
 
 use concord::prob::normal;
 use proptest::prelude::*;
+use proptest::test_runner::RngSeed;
 
 /// Relative error allowed for cdf, sf, pdf, log_cdf and quantile against mpmath: a few
 /// units of the last place (the measured maximum is printed by each test).
 const REL_TOL: f64 = 1e-15;
 
 /// A subnormal result can only be as exact as the subnormal spacing.
-const SUBNORMAL_ABS: f64 = 8.0 * 4.940_656_458_412_465e-324;
+const SUBNORMAL_ABS: f64 = 8.0 * 5e-324; // 5e-324 is the smallest subnormal
 
 fn table(name: &str) -> Vec<Vec<f64>> {
     let path = format!("{}/tests/reference/{name}", env!("CARGO_MANIFEST_DIR"));
@@ -39,7 +40,10 @@ fn rel_err(got: f64, want: f64) -> f64 {
 fn check_probability(what: &str, x: f64, got: f64, want: f64) -> f64 {
     if want.abs() >= f64::MIN_POSITIVE {
         let e = rel_err(got, want);
-        assert!(e <= REL_TOL, "{what}({x:e}) = {got:e}, mpmath {want:e}, rel {e:e}");
+        assert!(
+            e <= REL_TOL,
+            "{what}({x:e}) = {got:e}, mpmath {want:e}, rel {e:e}"
+        );
         e
     } else {
         assert!(
@@ -81,11 +85,17 @@ fn log_cdf_matches_mpmath() {
         let (x, want) = (r[0], r[4]);
         let got = normal::log_cdf(x);
         if want.abs() < f64::MIN_POSITIVE {
-            assert!((got - want).abs() <= SUBNORMAL_ABS, "log_cdf({x:e}) = {got:e}");
+            assert!(
+                (got - want).abs() <= SUBNORMAL_ABS,
+                "log_cdf({x:e}) = {got:e}"
+            );
             continue;
         }
         let e = rel_err(got, want);
-        assert!(e <= REL_TOL, "log_cdf({x:e}) = {got:e}, mpmath {want:e}, rel {e:e}");
+        assert!(
+            e <= REL_TOL,
+            "log_cdf({x:e}) = {got:e}, mpmath {want:e}, rel {e:e}"
+        );
         max = max.max(e);
         // and the mirror image
         let e = rel_err(normal::log_sf(-x), want);
@@ -105,7 +115,10 @@ fn quantile_matches_mpmath() {
         let (p, want) = (r[0], r[1]);
         let got = normal::quantile(p);
         let e = rel_err(got, want);
-        assert!(e <= REL_TOL, "quantile({p:e}) = {got:e}, mpmath {want:e}, rel {e:e}");
+        assert!(
+            e <= REL_TOL,
+            "quantile({p:e}) = {got:e}, mpmath {want:e}, rel {e:e}"
+        );
         max = max.max(e);
     }
     eprintln!("max rel error vs mpmath: quantile {max:e}");
@@ -121,11 +134,17 @@ fn interval_matches_mpmath() {
         let (a, b, want) = (r[0], r[1], r[2]);
         let got = normal::interval(a, b);
         if want < f64::MIN_POSITIVE {
-            assert!((got - want).abs() <= SUBNORMAL_ABS, "interval({a}, {b}) = {got:e}");
+            assert!(
+                (got - want).abs() <= SUBNORMAL_ABS,
+                "interval({a}, {b}) = {got:e}"
+            );
             continue;
         }
         let e = rel_err(got, want);
-        assert!(e <= REL_TOL, "interval({a}, {b}) = {got:e}, mpmath {want:e}, rel {e:e}");
+        assert!(
+            e <= REL_TOL,
+            "interval({a}, {b}) = {got:e}, mpmath {want:e}, rel {e:e}"
+        );
         max = max.max(e);
     }
     eprintln!("max rel error vs mpmath: interval {max:e}");
@@ -146,7 +165,10 @@ fn quantile_inverts_cdf() {
         };
         let p = normal::cdf(-x.abs());
         let tol = 4.0 * f64::EPSILON * (p / normal::pdf(x) + x.abs());
-        assert!((back - x).abs() <= tol, "x = {x}: quantile(cdf(x)) = {back}");
+        assert!(
+            (back - x).abs() <= tol,
+            "x = {x}: quantile(cdf(x)) = {back}"
+        );
         x += 0.0123;
     }
 }
@@ -213,12 +235,21 @@ fn mills_ratio_bounds() {
             let direct = normal::sf(x) / normal::pdf(x);
             assert!(rel_err(r, direct) <= 1e-15, "x = {x}: {r} vs {direct}");
         }
-        assert!(r < 1.0 / x && r > 1.0 / x - 1.0 / (x * x * x), "x = {x}: {r}");
+        assert!(
+            r < 1.0 / x && r > 1.0 / x - 1.0 / (x * x * x),
+            "x = {x}: {r}"
+        );
         x *= 1.37;
     }
 }
 
 proptest! {
+    // a fixed seed: the same cases on every run
+    #![proptest_config(ProptestConfig {
+        rng_seed: RngSeed::Fixed(20240606),
+        ..ProptestConfig::default()
+    })]
+
     // Phi is a distribution function: non-decreasing, in [0, 1].
     #[test]
     fn cdf_is_monotone(a in -40.0f64..40.0, d in 0.0f64..5.0) {

@@ -46,7 +46,7 @@ const ERFC_SPLIT: f64 = 4.0;
 
 /// Beyond this `|x|` the upper tail `P(Z > |x|)` (below `4e-350`) and the density
 /// underflow to zero in double precision.
-const UNDERFLOW_X: f64 = 40.0;
+pub const UNDERFLOW_X: f64 = 40.0;
 
 /// Cody (1969), `erf(u) = u * P(u^2) / Q(u^2)` for `|u| <= 0.46875`; numerator, highest
 /// power first.
@@ -400,5 +400,9 @@ fn lower_tail_quantile(r: f64) -> f64 {
         return x;
     }
     let e = (cdf(x) - r) / pdf(x);
-    if e.is_finite() { x - e / (1.0 + 0.5 * x * e) } else { x }
+    if e.is_finite() {
+        x - e / (1.0 + 0.5 * x * e)
+    } else {
+        x
+    }
 }

@@ -21,3 +21,16 @@ pub const PARALLEL_ROW_ABS: f64 = 1e-12;
 
 /// Relative asymmetry allowed in a covariance matrix before it is rejected.
 pub const SYMMETRY_REL: f64 = 1e-10;
+
+/// A correlation outside `[-1, 1]` by at most this much is taken as rounding in its
+/// computation and clamped to the nearest end; beyond it the correlation is invalid.
+pub const CORRELATION_SLACK: f64 = 1e-12;
+
+/// Error bound of one bivariate upper-orthant term relative to the largest quantity that
+/// entered it (Genz 2004 reports about 1e-15 absolute; the relative form, measured against
+/// mpmath in `tests/prob_bivariate.rs`, is what keeps tail probabilities meaningful).
+pub const BIVARIATE_ORTHANT_REL: f64 = 1e-13;
+
+/// Absolute error floor of one bivariate upper-orthant term that is a difference of larger
+/// terms (Genz 2004: about 1e-15; measured against mpmath in `tests/prob_bivariate.rs`).
+pub const BIVARIATE_ORTHANT_ABS: f64 = 1e-15;
