@@ -1,0 +1,52 @@
+//! Speed of the bivariate normal: one orthant and one rectangle per call, for a
+//! correlation in each branch of Genz's (2004) method (6, 12, 20 Gauss–Legendre points and
+//! the expansion about |rho| = 1), and with the correlation prepared once.
+//! Run: cargo bench --bench bivariate
+
+use concord::prob::bivariate::{self, StandardBivariate};
+use criterion::{BenchmarkId, Criterion, black_box, criterion_group, criterion_main};
+
+/// One correlation per branch: 6, 12, 20 points, expansion.
+const RHOS: [f64; 4] = [0.2, 0.5, 0.9, 0.97];
+
+fn orthant(c: &mut Criterion) {
+    let mut group = c.benchmark_group("lower_orthant");
+    for rho in RHOS {
+        group.bench_with_input(BenchmarkId::from_parameter(rho), &rho, |b, &rho| {
+            b.iter(|| bivariate::lower_orthant(black_box(0.7), black_box(-1.3), black_box(rho)))
+        });
+    }
+    group.finish();
+}
+
+fn rectangle(c: &mut Criterion) {
+    let mut group = c.benchmark_group("rectangle");
+    for rho in RHOS {
+        group.bench_with_input(BenchmarkId::new("finite", rho), &rho, |b, &rho| {
+            b.iter(|| {
+                bivariate::rectangle(
+                    black_box([-0.4, 1.1]),
+                    black_box([2.3, 3.0]),
+                    black_box(rho),
+                )
+            })
+        });
+        group.bench_with_input(BenchmarkId::new("half_infinite", rho), &rho, |b, &rho| {
+            b.iter(|| {
+                bivariate::rectangle(
+                    black_box([-0.4, 1.1]),
+                    black_box([2.3, f64::INFINITY]),
+                    black_box(rho),
+                )
+            })
+        });
+        let prepared = StandardBivariate::new(rho);
+        group.bench_with_input(BenchmarkId::new("prepared_finite", rho), &rho, |b, _| {
+            b.iter(|| prepared.rectangle(black_box([-0.4, 1.1]), black_box([2.3, 3.0])))
+        });
+    }
+    group.finish();
+}
+
+criterion_group!(benches, orthant, rectangle);
+criterion_main!(benches);
