@@ -68,7 +68,7 @@ pub fn render(input: &ReportInput<'_>) -> String {
             out,
             "{:<16} {:>8} {:>7} {:>8} {:>8} {:>10} {:>7} {:>11} {:>11}",
             clip(&s.name, 16),
-            fit(s.fit),
+            number(s.fit),
             s.mode,
             dc,
             percent_floor(o.dc_all_dangerous().value),
@@ -82,14 +82,14 @@ pub fn render(input: &ReportInput<'_>) -> String {
     let _ = writeln!(out, "Fault sites: the other outcomes");
     let _ = writeln!(
         out,
-        "{:<16} {:>10} {:>7} {:>10} {:>7} {:>10} {:>7} {:>11}  amplitude",
+        "{:<16} {:>10} {:>7} {:>10} {:>7} {:>10} {:>7} {:>11}",
         "site", "p_vd", "bound", "p_sd", "bound", "p_sq", "bound", "latent FIT"
     );
     for s in &a.sites {
         let o = &s.outcome;
         let _ = writeln!(
             out,
-            "{:<16} {:>10} {:>7} {:>10} {:>7} {:>10} {:>7} {:>11}  {}",
+            "{:<16} {:>10} {:>7} {:>10} {:>7} {:>10} {:>7} {:>11}",
             clip(&s.name, 16),
             probability(o.p_vd.value),
             bound(o.p_vd.error),
@@ -97,8 +97,18 @@ pub fn render(input: &ReportInput<'_>) -> String {
             bound(o.p_sd.error),
             probability(o.p_sq.value),
             bound(o.p_sq.error),
-            fit(s.latent_fit().value),
-            clip(&s.amplitude, 100usize.saturating_sub(91).max(8))
+            fit(s.latent_fit().value)
+        );
+    }
+    let _ = writeln!(out);
+    let _ = writeln!(out, "Fault models (amplitudes in {unit})");
+    for s in &a.sites {
+        let _ = writeln!(
+            out,
+            "  {:<16} {:<7} {}",
+            clip(&s.name, 16),
+            s.mode,
+            clip(&s.amplitude, 74)
         );
     }
     let _ = writeln!(out);
@@ -188,7 +198,9 @@ pub fn render(input: &ReportInput<'_>) -> String {
         "Coverages are truncated to two decimals, never rounded up; bounds are numerical only."
     );
     for c in CAUTIONS {
-        let _ = writeln!(out, "Caution: {c}");
+        for line in wrap(&format!("Caution: {c}"), 98) {
+            let _ = writeln!(out, "{line}");
+        }
     }
     out
 }
@@ -201,6 +213,27 @@ fn targets(list: &[(crate::analysis::metrics::Asil, f64)]) -> String {
         .collect();
     parts.dedup();
     parts.join(", ")
+}
+
+/// Word-wraps a paragraph to lines of at most `width` characters (continuation lines
+/// indented by two spaces).
+fn wrap(text: &str, width: usize) -> Vec<String> {
+    let mut lines = Vec::new();
+    let mut line = String::new();
+    for word in text.split_whitespace() {
+        if !line.is_empty() && line.chars().count() + 1 + word.chars().count() > width {
+            lines.push(std::mem::take(&mut line));
+            line.push_str("  ");
+        }
+        if !line.trim().is_empty() {
+            line.push(' ');
+        }
+        line.push_str(word);
+    }
+    if !line.trim().is_empty() {
+        lines.push(line);
+    }
+    lines
 }
 
 fn clip(text: &str, width: usize) -> String {
