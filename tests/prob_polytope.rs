@@ -107,10 +107,11 @@ fn sheppard_orthant_forced_through_lattice() {
             1e-15,
         );
         // A third, non-parallel row that cannot bind (x + y > -60: probability of
-        // violation below 1e-300) sends the default path to the lattice too.
+        // violation below 1e-300) sends the default path to the exact polygon of a rank-2
+        // problem.
         p.push(vec![1.0, 1.0], Band::above(-60.0));
         let r = g.probability_detailed(&p, &tol(1e-7, 0.0)).unwrap();
-        assert_eq!(r.method, Method::Lattice);
+        assert_eq!(r.method, Method::Planar);
         assert_eq!(r.directions, 3);
         assert_covers(
             &format!("redundant row rho {rho}"),
@@ -282,7 +283,14 @@ fn ordering_polytopes_are_one_over_r_factorial() {
         let mut p = Polytope::new();
         ordering_rows(r, &mut p);
         let res = g.probability_detailed(&p, &tol(1e-7, 0.0)).unwrap();
-        assert_eq!(res.method, Method::Lattice);
+        // The differences of r coordinates span r - 1 dimensions: two conditioning
+        // variables are exact, three nested, more go to the lattice.
+        let expected = match r {
+            3 => Method::Planar,
+            4 => Method::Nested,
+            _ => Method::Lattice,
+        };
+        assert_eq!(res.method, expected, "r = {r}");
         let exact = 1.0 / factorial(r);
         assert_covers(
             &format!("r = {r}"),
@@ -724,43 +732,70 @@ fn same_bits_on_repeated_calls() {
     let b = g.probability_detailed(&p, &t).unwrap();
     let (g2, _) = three_row_problem();
     let c = g2.probability_detailed(&p, &t).unwrap();
-    assert_eq!(a.method, Method::Lattice);
+    assert_eq!(a.method, Method::Nested);
     assert_eq!(a.estimate.value.to_bits(), b.estimate.value.to_bits());
     assert_eq!(a.estimate.error.to_bits(), b.estimate.error.to_bits());
     assert_eq!(a.estimate.value.to_bits(), c.estimate.value.to_bits());
     assert_eq!(a.points, c.points);
+    // The lattice rule, too, gives the same bits for the same seed.
+    let lattice = Options {
+        exact_paths: false,
+        ..Options::default()
+    };
+    let d = g.probability_with(&p, &t, &lattice).unwrap();
+    let e = g2.probability_with(&p, &t, &lattice).unwrap();
+    assert_eq!(d.method, Method::Lattice);
+    assert_eq!(d.estimate.value.to_bits(), e.estimate.value.to_bits());
+    assert_eq!(d.estimate.error.to_bits(), e.estimate.error.to_bits());
+    // The two paths agree within their bounds.
+    assert!(
+        (a.estimate.value - d.estimate.value).abs() <= a.estimate.error + d.estimate.error,
+        "nested {a:?} lattice {d:?}"
+    );
 }
 
 #[test]
 fn budget_exhaustion_and_best_effort() {
     let (g, p) = three_row_problem();
-    let t = Tolerance {
-        abs: 1e-15,
-        rel: 0.0,
-        max_points: 12 * 256,
-    };
-    match g.probability_detailed(&p, &t) {
-        Err(ProbError::BudgetExhausted {
-            achieved,
-            requested,
-            points,
-        }) => {
-            assert!(achieved > requested);
-            assert!(points <= 12 * 256);
+    // The lattice rule with 256 points per shift, and the nested rule with one interval
+    // (21 evaluations), cannot reach 1e-15.
+    for (exact_paths, max_points) in [(false, 12 * 256), (true, 21)] {
+        let t = Tolerance {
+            abs: 1e-15,
+            rel: 0.0,
+            max_points,
+        };
+        let strict = Options {
+            exact_paths,
+            ..Options::default()
+        };
+        match g.probability_with(&p, &t, &strict) {
+            Err(ProbError::BudgetExhausted {
+                achieved,
+                requested,
+                points,
+            }) => {
+                assert!(achieved > requested);
+                assert!(points <= max_points.max(21 * 8), "{points} points");
+            }
+            other => panic!("expected BudgetExhausted, got {other:?}"),
         }
-        other => panic!("expected BudgetExhausted, got {other:?}"),
+        let lenient = Options {
+            best_effort: true,
+            ..strict
+        };
+        let best = g.probability_with(&p, &t, &lenient).unwrap();
+        assert!(best.estimate.error > 1e-15);
+        // The honest error covers a tight rerun.
+        let tight = g.probability_detailed(&p, &tol(1e-9, 0.0)).unwrap();
+        assert_covers(
+            "best effort",
+            best.estimate.value,
+            best.estimate.error,
+            tight.estimate.value,
+            tight.estimate.error,
+        );
     }
-    let best = g.probability_best_effort(&p, &t).unwrap();
-    assert!(best.estimate.error > 1e-15);
-    // The honest error covers a tight rerun.
-    let tight = g.probability_detailed(&p, &tol(1e-9, 0.0)).unwrap();
-    assert_covers(
-        "best effort",
-        best.estimate.value,
-        best.estimate.error,
-        tight.estimate.value,
-        tight.estimate.error,
-    );
     // A shifted copy equals a polytope with shifted bands.
     let shifted = g.shifted(&[0.5, 0.0, 0.0]).unwrap();
     let mut q = Polytope::new();

@@ -6,6 +6,8 @@
 //! - [`bivariate`]: bivariate normal rectangle probabilities (Genz 2004).
 //! - [`legendre`]: the Gauss–Legendre rules (6, 12, 20 points) that [`bivariate`] uses.
 //! - [`polytope`]: `P(l <= A x <= u)` for `x ~ N(mu, Sigma)` (Genz 1992; Genz and Bretz 2009).
+//! - [`strip`]: a standard normal pair in a convex polygon, exactly (the last two variables
+//!   of the sequential conditioning).
 //! - [`cholesky`]: pivoted Cholesky factor of a (possibly singular) covariance.
 //! - [`lattice`]: randomised extensible lattice integration with a fixed seed.
 //! - [`quadrature`]: adaptive Gauss–Kronrod integration (QUADPACK style).
@@ -23,6 +25,7 @@ pub mod optimise;
 pub mod polytope;
 pub mod quadrature;
 pub mod rng;
+pub mod strip;
 pub mod tolerance;
 
 pub use error::ProbError;

@@ -22,6 +22,13 @@
 //!    the unit cube is done by the randomised lattice rule of [`lattice`], deterministic
 //!    for a given seed.
 //!
+//! 5. The last two variables of the conditioning are integrated exactly as a polygon
+//!    probability of a standard normal pair ([`strip`]): with two variables that is the
+//!    answer ([`Method::Planar`]); with three, the first variable is integrated by adaptive
+//!    Gauss–Kronrod with the projections of the polytope's vertices as breakpoints
+//!    ([`Method::Nested`], deterministic, error from the Kronrod estimate); with four or
+//!    more, the lattice rule runs over two dimensions fewer than the variables.
+//!
 //! Every factor of the sequential conditioning is a normal interval from
 //! [`normal::interval`], which takes the tail that does not cancel, and the conditioning
 //! variables are drawn from the tail they lie in, so tiny probabilities keep their relative
@@ -36,6 +43,8 @@ use crate::prob::error::ProbError;
 use crate::prob::estimate::Estimate;
 use crate::prob::lattice;
 use crate::prob::normal;
+use crate::prob::quadrature::{self, QuadratureOptions};
+use crate::prob::strip::{self, Strips};
 use crate::prob::tolerance;
 
 /// Largest number of coordinates of the gaussian vector.
@@ -219,7 +228,15 @@ pub enum Method {
     Univariate,
     /// Two random directions: the bivariate normal rectangle.
     Bivariate,
-    /// Genz's sequential conditioning with the randomised lattice rule.
+    /// Two conditioning variables, any number of directions: the polygon probability of a
+    /// standard normal pair, exactly as a sum of bivariate rectangles ([`strip`]).
+    Planar,
+    /// Three conditioning variables: adaptive Gauss–Kronrod over the first, the last two
+    /// exact ([`strip`]).
+    Nested,
+    /// Genz's sequential conditioning with the randomised lattice rule (for four or more
+    /// variables the last two are exact, so the lattice has two dimensions fewer than the
+    /// variables).
     Lattice,
 }
 
@@ -246,8 +263,10 @@ pub struct PolytopeProbability {
 pub struct Options {
     /// Seed of the random shifts.
     pub seed: u64,
-    /// Use the exact one- and two-direction paths where they apply (else the lattice rule
-    /// for two or more directions).
+    /// Use the exact and deterministic paths where they apply (one or two directions, two
+    /// or three conditioning variables, the last two variables exactly); `false` sends
+    /// everything with two or more directions through the plain lattice rule, an
+    /// independent code path for cross-checks.
     pub exact_paths: bool,
     /// Return the last estimate with its honest error instead of
     /// [`ProbError::BudgetExhausted`] when the point budget runs out.
@@ -557,11 +576,34 @@ impl Gaussian {
             let error = value * tolerance::ROUNDING_REL;
             return Ok(with_error(value, error, Method::Univariate, 0, 1));
         }
+        if options.exact_paths && plan.variables == 2 {
+            let e = plan.pair_tail(&[]);
+            return Ok(with_error(e.value, e.error, Method::Planar, 0, 2));
+        }
         // Rounding of the sums and of the integrand, relative to the value.
         let floor_rel = tolerance::ROUNDING_REL * (plan.variables as f64 + 1.0);
+        if options.exact_paths && plan.variables == 3 {
+            let nested = plan.nested(tol)?;
+            let floor = nested.value.abs() * floor_rel;
+            let result = with_error(
+                nested.value,
+                nested.error + floor,
+                Method::Nested,
+                nested.evaluations,
+                3,
+            );
+            if !nested.converged && !options.best_effort {
+                return Err(ProbError::BudgetExhausted {
+                    achieved: result.estimate.error,
+                    requested: tol.target(nested.value),
+                    points: nested.evaluations,
+                });
+            }
+            return Ok(result);
+        }
         // The lattice must leave room for the rounding terms added below.
         let target = |v: f64| tol.target(v) - rounding(v) - floor_rel * v.abs();
-        let outcome = plan.integrate(tol.max_points, options.seed, target);
+        let outcome = plan.integrate(tol.max_points, options.seed, target, options.exact_paths);
         let floor = outcome.value.abs() * floor_rel;
         let result = with_error(
             outcome.value,
@@ -755,6 +797,17 @@ struct PlanRow {
 struct Plan {
     variables: usize,
     groups: Vec<Vec<PlanRow>>,
+    /// The slopes on the second-to-last variable of the last group's strip rows (every row
+    /// of that group that is not an indicator), for the exact pair tail.
+    last_strips: Strips,
+}
+
+/// Outcome of the nested (three-variable) path.
+struct NestedOutcome {
+    value: f64,
+    error: f64,
+    evaluations: usize,
+    converged: bool,
 }
 
 /// `E[Z | a < Z < b]` for standard normal `Z`, with a finite fallback when the interval
@@ -923,10 +976,119 @@ impl Plan {
                     .collect()
             })
             .collect();
+        let variables = groups.len();
+        let slopes: Vec<f64> = if variables >= 2 {
+            groups[variables - 1]
+                .iter()
+                .filter(|row| !row.indicator)
+                .map(|row| row.coef.get(variables - 2).copied().unwrap_or(0.0))
+                .collect()
+        } else {
+            Vec::new()
+        };
         Plan {
-            variables: groups.len(),
+            variables,
             groups,
+            last_strips: Strips::new(&slopes),
         }
+    }
+
+    /// The last two variables integrated exactly given the earlier ones `w` (length
+    /// `variables - 2`): `P(second-to-last and last variable in their bounds | w)`, the
+    /// polygon probability of [`strip`].
+    fn pair_tail(&self, w: &[f64]) -> Estimate {
+        let v = self.variables;
+        if v < 2 {
+            return Estimate::new(self.first_factor(), 0.0);
+        }
+        let (jt, jy) = (v - 2, v - 1);
+        let Some((mut a, mut b)) = bounds(&self.groups[jt], &w[..jt.min(w.len())]) else {
+            return Estimate::zero();
+        };
+        let last = &self.groups[jy];
+        let mut lower = Vec::with_capacity(last.len());
+        let mut upper = Vec::with_capacity(last.len());
+        for row in last {
+            let s: f64 = row.coef.iter().zip(w.iter()).map(|(c, y)| c * y).sum();
+            let c = row.coef.get(jt).copied().unwrap_or(0.0);
+            if row.indicator {
+                // lower <= s + c t <= upper restricts the second-to-last variable t.
+                if c == 0.0 {
+                    if !(row.lower <= s && s <= row.upper) {
+                        return Estimate::zero();
+                    }
+                    continue;
+                }
+                let (lo, hi) = ((row.lower - s) / c, (row.upper - s) / c);
+                let (lo, hi) = if c > 0.0 { (lo, hi) } else { (hi, lo) };
+                a = a.max(lo);
+                b = b.min(hi);
+            } else {
+                lower.push(row.lower - s);
+                upper.push(row.upper - s);
+            }
+        }
+        if a >= b {
+            return Estimate::zero();
+        }
+        self.last_strips.probability(a, b, &lower, &upper)
+    }
+
+    /// Three variables: `e_1 ∫_0^1 pair_tail(w_1(u)) du` by adaptive Gauss–Kronrod, with
+    /// `w_1(u)` the conditional draw of the first variable (Genz's transformation); the
+    /// integrand is smooth between the kinks where the polygon of the last two variables
+    /// changes shape, which the adaptive bisection isolates.
+    fn nested(&self, tol: &Tolerance) -> Result<NestedOutcome, ProbError> {
+        let none = NestedOutcome {
+            value: 0.0,
+            error: 0.0,
+            evaluations: 0,
+            converged: true,
+        };
+        let Some((a, b)) = bounds(&self.groups[0], &[]) else {
+            return Ok(none);
+        };
+        let mass = normal::interval(a, b);
+        if mass.is_nan() || mass <= 0.0 {
+            return Ok(none);
+        }
+        // Half of the budget for the quadrature, the rest for the rounding terms.
+        let opts = QuadratureOptions {
+            abs_tol: 0.5 * tol.abs / mass,
+            rel_tol: 0.5 * tol.rel,
+            // The point budget counts integrand evaluations: 21 per interval.
+            max_intervals: (tol.max_points / 21).clamp(1, tolerance::NESTED_MAX_INTERVALS),
+        };
+        // The integrand is analytic between the projections of the polytope's vertices on
+        // the first variable; they are made interval ends, so that no narrow part of the
+        // support and no kink is left for the error estimate to miss.
+        let breakpoints: Vec<f64> = self
+            .vertex_projections()
+            .into_iter()
+            .filter(|t| *t > a && *t < b)
+            .map(|t| normal::interval(a, t) / mass)
+            .filter(|u| u.is_finite() && *u > 0.0 && *u < 1.0)
+            .collect();
+        let opts = QuadratureOptions {
+            max_intervals: opts.max_intervals + breakpoints.len(),
+            ..opts
+        };
+        let (integral, converged) = quadrature::integrate_with_status(
+            |u| {
+                let w = conditional_draw(a, b, mass, u);
+                Ok(self.pair_tail(&[w]))
+            },
+            0.0,
+            1.0,
+            &breakpoints,
+            &opts,
+        )?;
+        Ok(NestedOutcome {
+            value: mass * integral.value,
+            error: mass * integral.error,
+            evaluations: integral.evaluations,
+            converged,
+        })
     }
 
     /// The probability of the first variable's interval (the whole answer when there is
@@ -961,14 +1123,97 @@ impl Plan {
         prod
     }
 
+    /// The first coordinate of every vertex of the polytope `{w : rows hold}` of a
+    /// three-variable plan: each triple of constraint planes meeting in one point that
+    /// satisfies every row (to a rounding allowance). Vertices slightly outside only add
+    /// harmless breakpoints.
+    fn vertex_projections(&self) -> Vec<f64> {
+        let v = self.variables;
+        let mut planes: Vec<([f64; 3], f64)> = Vec::new();
+        let mut rows: Vec<([f64; 3], f64, f64)> = Vec::new();
+        for (j, group) in self.groups.iter().enumerate().take(3) {
+            for row in group {
+                let mut r = [0.0; 3];
+                for (k, c) in row.coef.iter().enumerate().take(3) {
+                    r[k] = *c;
+                }
+                if !row.indicator && j < 3 {
+                    r[j] = 1.0;
+                }
+                rows.push((r, row.lower, row.upper));
+                for end in [row.lower, row.upper] {
+                    if end.is_finite() {
+                        planes.push((r, end));
+                    }
+                }
+            }
+        }
+        if v != 3 {
+            return Vec::new();
+        }
+        let mut out = Vec::new();
+        let n = planes.len();
+        for i in 0..n {
+            for j in i + 1..n {
+                for k in j + 1..n {
+                    let Some(x) = solve3([planes[i], planes[j], planes[k]]) else {
+                        continue;
+                    };
+                    let feasible = rows.iter().all(|(r, lo, hi)| {
+                        let s = r[0] * x[0] + r[1] * x[1] + r[2] * x[2];
+                        let slack = tolerance::VERTEX_SLACK_REL
+                            * (1.0 + x.iter().map(|t| t.abs()).sum::<f64>());
+                        s >= lo - slack && s <= hi + slack
+                    });
+                    if feasible {
+                        out.push(x[0]);
+                    }
+                }
+            }
+        }
+        out.sort_by(f64::total_cmp);
+        out.dedup();
+        out
+    }
+
+    /// The integrand with the last two variables exact, at a point `x` of the unit cube of
+    /// dimension `variables - 2`.
+    fn eval_with_pair(&self, x: &[f64], w: &mut [f64]) -> f64 {
+        let head = self.variables.saturating_sub(2);
+        let mut prod = 1.0;
+        for (j, group) in self.groups.iter().enumerate().take(head) {
+            let Some((a, b)) = bounds(group, &w[..j]) else {
+                return 0.0;
+            };
+            let mass = normal::interval(a, b);
+            prod *= mass;
+            if prod.is_nan() || prod <= 0.0 {
+                return 0.0;
+            }
+            w[j] = conditional_draw(a, b, mass, x[j]);
+        }
+        prod * self.pair_tail(&w[..head]).value
+    }
+
     fn integrate<T: Fn(f64) -> f64>(
         &self,
         max_points: usize,
         seed: u64,
         target: T,
+        exact_pair: bool,
     ) -> lattice::Outcome {
         let periodisation = lattice::Periodisation::Polynomial;
         let mut w = vec![0.0; self.variables];
+        if exact_pair && self.variables >= 4 {
+            return lattice::integrate(
+                self.variables - 2,
+                seed,
+                max_points,
+                periodisation,
+                target,
+                |x| self.eval_with_pair(x, &mut w),
+            );
+        }
         lattice::integrate(
             self.variables - 1,
             seed,
@@ -978,6 +1223,31 @@ impl Plan {
             |x| self.eval(x, &mut w),
         )
     }
+}
+
+/// The point where three planes `r . x = e` meet, by Cramer's rule; `None` when they do not
+/// meet in one point (a determinant small against the rows' sizes).
+fn solve3(planes: [([f64; 3], f64); 3]) -> Option<[f64; 3]> {
+    let [(r0, e0), (r1, e1), (r2, e2)] = planes;
+    let det = |a: [f64; 3], b: [f64; 3], c: [f64; 3]| {
+        a[0] * (b[1] * c[2] - b[2] * c[1]) - a[1] * (b[0] * c[2] - b[2] * c[0])
+            + a[2] * (b[0] * c[1] - b[1] * c[0])
+    };
+    let d = det(r0, r1, r2);
+    let size = |r: [f64; 3]| r.iter().map(|v| v * v).sum::<f64>().sqrt();
+    if d.abs() <= tolerance::LINEAR_DEPENDENCE_ABS * size(r0) * size(r1) * size(r2) {
+        return None;
+    }
+    let col = |k: usize| [r0[k], r1[k], r2[k]];
+    let e = [e0, e1, e2];
+    let replace = |k: usize| {
+        let mut cols = [col(0), col(1), col(2)];
+        cols[k] = e;
+        // det of the matrix with columns `cols` equals det of its transpose.
+        det(cols[0], cols[1], cols[2])
+    };
+    let x = [replace(0) / d, replace(1) / d, replace(2) / d];
+    x.iter().all(|t| t.is_finite()).then_some(x)
 }
 
 /// Combined bounds `(a, b)` of a variable given the earlier ones, `None` when empty.

@@ -600,6 +600,24 @@ where
     Ok(adaptive(f, a, b, breakpoints, opts)?.integral)
 }
 
+/// As [`integrate_best_effort`], and says whether the requested tolerance was met.
+///
+/// # Errors
+/// As [`integrate`], except that an exhausted budget is not an error.
+pub fn integrate_with_status<F>(
+    f: F,
+    a: f64,
+    b: f64,
+    breakpoints: &[f64],
+    opts: &QuadratureOptions,
+) -> Result<(Integral, bool), ProbError>
+where
+    F: FnMut(f64) -> Result<Estimate, ProbError>,
+{
+    let out = adaptive(f, a, b, breakpoints, opts)?;
+    Ok((out.integral, out.converged))
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;

@@ -71,3 +71,12 @@ pub const BIVARIATE_ORTHANT_REL: f64 = 1e-13;
 /// Absolute error floor of one bivariate upper-orthant term that is a difference of larger
 /// terms (Genz 2004: about 1e-15; measured against mpmath in `tests/prob_bivariate.rs`).
 pub const BIVARIATE_ORTHANT_ABS: f64 = 1e-15;
+
+/// Subinterval budget of the adaptive Gauss–Kronrod rule over the first of three
+/// conditioning variables (the nested path of the polytope engine); each kink of the
+/// integrand costs about a dozen bisections at the default tolerances.
+pub const NESTED_MAX_INTERVALS: usize = 400;
+
+/// Relative allowance with which a computed vertex of a three-variable polytope still
+/// counts as satisfying the other rows (rounding of a 3 x 3 solve).
+pub const VERTEX_SLACK_REL: f64 = 1e-9;
