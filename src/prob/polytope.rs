@@ -23,7 +23,7 @@
 //!    for a given seed.
 //!
 //! 5. The last two variables of the conditioning are integrated exactly as a polygon
-//!    probability of a standard normal pair ([`strip`]): with two variables that is the
+//!    probability of a standard normal pair ([`crate::prob::strip`]): with two variables that is the
 //!    answer ([`Method::Planar`]); with three, the first variable is integrated by adaptive
 //!    Gauss–Kronrod with the projections of the polytope's vertices as breakpoints
 //!    ([`Method::Nested`], deterministic, error from the Kronrod estimate); with four or
@@ -44,7 +44,7 @@ use crate::prob::estimate::Estimate;
 use crate::prob::lattice;
 use crate::prob::normal;
 use crate::prob::quadrature::{self, QuadratureOptions};
-use crate::prob::strip::{self, Strips};
+use crate::prob::strip::Strips;
 use crate::prob::tolerance;
 
 /// Largest number of coordinates of the gaussian vector.
@@ -229,10 +229,10 @@ pub enum Method {
     /// Two random directions: the bivariate normal rectangle.
     Bivariate,
     /// Two conditioning variables, any number of directions: the polygon probability of a
-    /// standard normal pair, exactly as a sum of bivariate rectangles ([`strip`]).
+    /// standard normal pair, exactly as a sum of bivariate rectangles ([`crate::prob::strip`]).
     Planar,
     /// Three conditioning variables: adaptive Gauss–Kronrod over the first, the last two
-    /// exact ([`strip`]).
+    /// exact ([`crate::prob::strip`]).
     Nested,
     /// Genz's sequential conditioning with the randomised lattice rule (for four or more
     /// variables the last two are exact, so the lattice has two dimensions fewer than the
@@ -995,7 +995,7 @@ impl Plan {
 
     /// The last two variables integrated exactly given the earlier ones `w` (length
     /// `variables - 2`): `P(second-to-last and last variable in their bounds | w)`, the
-    /// polygon probability of [`strip`].
+    /// polygon probability of [`crate::prob::strip`].
     fn pair_tail(&self, w: &[f64]) -> Estimate {
         let v = self.variables;
         if v < 2 {
