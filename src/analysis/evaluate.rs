@@ -6,8 +6,8 @@
 //! quiet): it is integrated directly, never obtained as a difference of large numbers.
 
 use crate::model::{Detection, Guard, LinearForm};
-use crate::prob::Estimate;
 use crate::prob::polytope::{Band, Gaussian, Polytope, Tolerance};
+use crate::prob::{Estimate, tolerance};
 
 use super::cells::{Cell, CellSet};
 use super::error::AnalysisError;
@@ -185,16 +185,20 @@ impl Evaluator {
         &self.polytopes[index]
     }
 
-    /// Every row of every polytope with its finite band ends (for amplitude breakpoints).
-    pub fn rows_with_ends(&self) -> impl Iterator<Item = (&[f64], f64)> {
-        self.polytopes.iter().flatten().flat_map(|p| {
-            p.rows.iter().zip(&p.bands).flat_map(|(row, band)| {
-                [band.lower, band.upper]
-                    .into_iter()
-                    .filter(|e| e.is_finite())
-                    .map(move |e| (row.as_slice(), e))
-            })
-        })
+    /// `P(x in polytope)` at the evaluator's tolerance.
+    ///
+    /// # Errors
+    /// Engine failures, with the figure named.
+    pub fn polytope_probability(
+        &self,
+        gaussian: &Gaussian,
+        polytope: &Polytope,
+        figure: Figure,
+    ) -> Result<Estimate, AnalysisError> {
+        gaussian
+            .probability_best_effort(polytope, &self.tolerance)
+            .map(|p| p.estimate)
+            .map_err(|e| AnalysisError::engine(format!("outcome {}", figure.key()), e))
     }
 
     /// `P(figure)` for `x ~ gaussian`, with the summed error bound of its polytopes.
@@ -217,13 +221,32 @@ impl Evaluator {
     /// # Errors
     /// Engine failures, with the figure named.
     pub fn outcome(&self, gaussian: &Gaussian) -> Result<Outcome, AnalysisError> {
+        let p_vd = self.figure(gaussian, Figure::ViolatedDetected)?;
+        let p_vu = self.figure(gaussian, Figure::ViolatedUndetected)?;
+        let p_sd = self.figure(gaussian, Figure::SafeDetected)?;
+        let p_sq = match quiet_by_complement(p_vd.add(p_vu).add(p_sd)) {
+            Some(q) => q,
+            None => self.figure(gaussian, Figure::SafeQuiet)?,
+        };
         Ok(Outcome {
-            p_vd: self.figure(gaussian, Figure::ViolatedDetected)?,
-            p_vu: self.figure(gaussian, Figure::ViolatedUndetected)?,
-            p_sd: self.figure(gaussian, Figure::SafeDetected)?,
-            p_sq: self.figure(gaussian, Figure::SafeQuiet)?,
+            p_vd,
+            p_vu,
+            p_sd,
+            p_sq,
         })
     }
+}
+
+/// `p_sq = 1 - (p_vd + p_vu + p_sd)` when the other three are small (sum below one half):
+/// the four outcomes partition the space, and the complement of a small sum is far more
+/// accurate (absolute error: the sum of their bounds) than integrating the large quiet
+/// region directly. `None` when the sum is not small, so that a small `p_sq` is integrated
+/// directly and keeps its relative accuracy.
+pub fn quiet_by_complement(others: Estimate) -> Option<Estimate> {
+    (others.value < 0.5).then(|| {
+        let value = 1.0 - others.value;
+        Estimate::new(value, others.error + tolerance::ROUNDING_REL)
+    })
 }
 
 #[cfg(test)]

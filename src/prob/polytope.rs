@@ -226,6 +226,9 @@ pub enum Method {
     Deterministic,
     /// One random direction: the normal interval.
     Univariate,
+    /// Within the absolute tolerance of zero: the smallest probability of one row's slab
+    /// bounds the polytope's, and the midpoint of `[0, bound]` is returned.
+    Bounded,
     /// Two random directions: the bivariate normal rectangle.
     Bivariate,
     /// Two conditioning variables, any number of directions: the polygon probability of a
@@ -569,6 +572,44 @@ impl Gaussian {
                 rho,
             );
             return Ok(with_error(e.value, e.error, Method::Bivariate, 0, 2));
+        }
+        if options.exact_paths {
+            // The polytope lies inside each of its slabs, so the smallest slab probability
+            // bounds it from above. When that bound is within the absolute tolerance the
+            // midpoint of [0, bound] answers within it, at no integration cost (most
+            // polytopes of an analysis are such far-tail corners).
+            let mut bound = rows
+                .iter()
+                .map(|row| normal::interval(row.lower, row.upper))
+                .fold(1.0, f64::min);
+            if bound > tol.abs && bound <= tolerance::PAIR_SCREEN_ABS {
+                // Sharper: the smallest probability of two slabs together.
+                'pairs: for (i, first) in rows.iter().enumerate() {
+                    for second in &rows[i + 1..] {
+                        let rho: f64 = first.dir.iter().zip(&second.dir).map(|(a, b)| a * b).sum();
+                        let e = bivariate::rectangle_estimate(
+                            [first.lower, second.lower],
+                            [first.upper, second.upper],
+                            rho.clamp(-1.0, 1.0),
+                        );
+                        bound = bound.min(e.value + e.error);
+                        if bound <= tol.abs {
+                            break 'pairs;
+                        }
+                    }
+                }
+            }
+            if bound <= tol.abs {
+                let half = 0.5 * bound;
+                return Ok(PolytopeProbability {
+                    estimate: Estimate::new(half, half + rounding(half)),
+                    method: Method::Bounded,
+                    points: 0,
+                    rank,
+                    directions,
+                    variables: 0,
+                });
+            }
         }
         let plan = Plan::build(&rows, rank);
         if plan.variables == 1 {

@@ -80,3 +80,8 @@ pub const NESTED_MAX_INTERVALS: usize = 400;
 /// Relative allowance with which a computed vertex of a three-variable polytope still
 /// counts as satisfying the other rows (rounding of a 3 x 3 solve).
 pub const VERTEX_SLACK_REL: f64 = 1e-9;
+
+/// A polytope whose smallest one-row probability is at most this large is also screened
+/// with pairs of rows (bivariate rectangles) before it is integrated: below it, the pair
+/// bound has a fair chance to fall within the absolute tolerance.
+pub const PAIR_SCREEN_ABS: f64 = 1e-3;
