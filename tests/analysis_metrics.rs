@@ -373,3 +373,20 @@ amplitude = { points = [[5.0, 0.25], [1.0, 0.75]] }
         (Asil::B, Asil::B, Asil::D)
     );
 }
+
+#[test]
+fn undefined_metrics_claim_no_asil() {
+    // Regression: an empty sheet, and a sheet whose only fault is always residual (no rate
+    // left for the LFM denominator), once read as ASIL D. The metrics are undefined there
+    // (ISO 26262-5:2018 8.4.5 and 8.4.6 divide by those rates, from memory): no level may
+    // be claimed.
+    let empty = metrics(&[]);
+    assert_eq!(empty.asil_spfm, Asil::NotApplicable);
+    assert_eq!(empty.asil_lfm, Asil::NotApplicable);
+    let all_residual = metrics(&[exact("always_residual", 10.0, [0.0, 1.0, 0.0, 0.0], 0.0)]);
+    // SPFM = 1 - 10 / 10 = 0: defined, below every target.
+    close("spfm", all_residual.spfm.value, 0.0);
+    assert_eq!(all_residual.asil_spfm, Asil::Qm);
+    assert_eq!(all_residual.asil_lfm, Asil::NotApplicable);
+    assert_ne!(all_residual.asil_lfm.verdict(), Asil::D.verdict());
+}

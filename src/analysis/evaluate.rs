@@ -206,10 +206,23 @@ impl Evaluator {
     /// # Errors
     /// Engine failures, with the figure named.
     pub fn figure(&self, gaussian: &Gaussian, figure: Figure) -> Result<Estimate, AnalysisError> {
+        self.figure_with(gaussian, figure, &self.tolerance)
+    }
+
+    /// [`Evaluator::figure`] at another tolerance (e.g. the looser one of a scan).
+    ///
+    /// # Errors
+    /// Engine failures, with the figure named.
+    pub fn figure_with(
+        &self,
+        gaussian: &Gaussian,
+        figure: Figure,
+        tolerance: &Tolerance,
+    ) -> Result<Estimate, AnalysisError> {
         let mut total = Estimate::zero();
         for poly in self.polytopes(figure) {
             let p = gaussian
-                .probability_best_effort(poly, &self.tolerance)
+                .probability_best_effort(poly, tolerance)
                 .map_err(|e| AnalysisError::engine(format!("outcome {}", figure.key()), e))?;
             total = total.add(p.estimate);
         }

@@ -12,8 +12,13 @@ use super::site::SiteResult;
 /// An automotive safety integrity level whose metric targets a design meets.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord, Serialize)]
 pub enum Asil {
-    /// No ASIL target met (quality management only).
-    #[serde(rename = "QM")]
+    /// The metric is undefined for this sheet (no failure rate at all, or no rate left
+    /// that is not residual): no ASIL can be claimed from it.
+    #[serde(rename = "n/a")]
+    NotApplicable,
+    /// Below the ASIL B target. ISO 26262-5 sets no SPFM or LFM target for ASIL A (from
+    /// memory), so this does not mean "QM only": it means no target of B, C or D is met.
+    #[serde(rename = "below B")]
     Qm,
     /// ASIL B.
     B,
@@ -27,10 +32,22 @@ impl Asil {
     /// The label used in reports.
     pub fn label(self) -> &'static str {
         match self {
-            Asil::Qm => "QM",
+            Asil::NotApplicable => "n/a",
+            Asil::Qm => "below B",
             Asil::B => "B",
             Asil::C => "C",
             Asil::D => "D",
+        }
+    }
+}
+
+impl Asil {
+    /// The classification in words for a report line, e.g. "meets ASIL D".
+    pub fn verdict(self) -> String {
+        match self {
+            Asil::NotApplicable => "not applicable (no rate to judge)".to_string(),
+            Asil::Qm => "meets no ASIL target (below B)".to_string(),
+            other => format!("meets ASIL {}", other.label()),
         }
     }
 }
@@ -108,7 +125,10 @@ pub fn metrics(sites: &[SiteResult]) -> Metrics {
             )
         })
         .sum();
-    let spfm = if total_fit > 0.0 {
+    // Undefined metrics are reported as 1 with the classification "n/a": an empty sheet or
+    // one where every fault is residual must never read as ASIL D.
+    let spfm_defined = total_fit > 0.0;
+    let spfm = if spfm_defined {
         Estimate::new(
             1.0 - residual_fit.value / total_fit,
             residual_fit.error / total_fit,
@@ -116,7 +136,15 @@ pub fn metrics(sites: &[SiteResult]) -> Metrics {
     } else {
         Estimate::new(1.0, 0.0)
     };
+    let lfm_defined = not_residual.value > 0.0;
     let lfm = one_minus_ratio(latent_fit, not_residual);
+    let classify = |defined: bool, value: Estimate, targets: &[(Asil, f64)]| {
+        if defined {
+            asil_for_minimum(value, targets)
+        } else {
+            Asil::NotApplicable
+        }
+    };
     let detected: Estimate = sites.iter().map(|s| s.outcome.p_vd.scale(s.fit)).sum();
     let dangerous: Estimate = sites
         .iter()
@@ -131,8 +159,8 @@ pub fn metrics(sites: &[SiteResult]) -> Metrics {
         lfm,
         sff: spfm,
         dc_avg,
-        asil_spfm: asil_for_minimum(spfm, &SPFM_TARGETS),
-        asil_lfm: asil_for_minimum(lfm, &LFM_TARGETS),
+        asil_spfm: classify(spfm_defined, spfm, &SPFM_TARGETS),
+        asil_lfm: classify(lfm_defined, lfm, &LFM_TARGETS),
         asil_residual_budget: asil_for_maximum(residual_fit, &PMHF_TARGETS_FIT),
     }
 }

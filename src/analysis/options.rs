@@ -23,6 +23,9 @@ pub struct AnalysisOptions {
     pub amplitude_max_intervals: usize,
     /// Points of the log-spaced scan over an unknown fault sigma.
     pub sigma_scan_points: usize,
+    /// Relative tolerance of each polytope during that scan, which only ranks the grid
+    /// points (the refinement and the reported figures use `polytope_rel`).
+    pub sigma_scan_rel: f64,
     /// Relative tolerance in sigma of the refined worst case.
     pub sigma_rel_tol: f64,
     /// Evaluation budget of each Brent refinement.
@@ -35,12 +38,13 @@ impl Default for AnalysisOptions {
     fn default() -> Self {
         Self {
             polytope_abs: 1e-11,
-            polytope_rel: 1e-7,
+            polytope_rel: 1e-6,
             polytope_max_points: 4_000_000,
             amplitude_abs: 1e-11,
             amplitude_rel: 1e-7,
             amplitude_max_intervals: 400,
             sigma_scan_points: 49,
+            sigma_scan_rel: 1e-3,
             sigma_rel_tol: 1e-5,
             sigma_max_evaluations: 80,
             max_polytopes: 20_000,
@@ -55,6 +59,14 @@ impl AnalysisOptions {
             abs: self.polytope_abs,
             rel: self.polytope_rel,
             max_points: self.polytope_max_points,
+        }
+    }
+
+    /// The tolerance of the scan over an unknown sigma.
+    pub fn scan_tolerance(&self) -> Tolerance {
+        Tolerance {
+            rel: self.sigma_scan_rel.max(self.polytope_rel),
+            ..self.polytope_tolerance()
         }
     }
 

@@ -3,7 +3,7 @@
 
 use crate::model::{Amplitude, CompiledFault, CompiledModel, FaultMode};
 use crate::prob::Estimate;
-use crate::prob::optimise::{log_grid, scan_then_refine};
+use crate::prob::optimise::{Stage, log_grid, scan_then_refine_staged};
 use crate::prob::polytope::Polytope;
 use crate::prob::quadrature::integrate_best_effort;
 
@@ -397,16 +397,20 @@ fn worst_case(
     let (lo, hi) = range;
     let grid = log_grid(lo, hi, options.sigma_scan_points.max(3))
         .map_err(|e| AnalysisError::engine("grid over the fault sigma", e))?;
-    let residual_at = |sigma: f64| -> Result<Estimate, AnalysisError> {
-        evaluator.figure(
-            &scenario.with_gaussian_amplitude(mean, sigma)?,
-            Figure::ViolatedUndetected,
-        )
+    // The scan only ranks grid points: it runs at the looser scan tolerance; the Brent
+    // refinement and every reported figure use the full one.
+    let scan_tolerance = options.scan_tolerance();
+    let residual_at = |sigma: f64, stage: Stage| -> Result<Estimate, AnalysisError> {
+        let g = scenario.with_gaussian_amplitude(mean, sigma)?;
+        match stage {
+            Stage::Scan => evaluator.figure_with(&g, Figure::ViolatedUndetected, &scan_tolerance),
+            Stage::Refine => evaluator.figure(&g, Figure::ViolatedUndetected),
+        }
     };
     let mut scan_values = Vec::with_capacity(grid.len());
-    let scan = scan_then_refine(
-        |sigma| {
-            let r = residual_at(sigma).map_err(engine_of)?;
+    let scan = scan_then_refine_staged(
+        |sigma, stage| {
+            let r = residual_at(sigma, stage).map_err(engine_of)?;
             scan_values.push((sigma, r));
             Ok(-r.value)
         },

@@ -411,6 +411,39 @@ pub fn scan_then_refine<F>(
 where
     F: FnMut(f64) -> Result<f64, ProbError>,
 {
+    scan_then_refine_staged(
+        |x, _| f(x),
+        grid,
+        x_tol_rel,
+        max_evaluations_per_refine,
+        log_space,
+    )
+}
+
+/// Which phase of [`scan_then_refine_staged`] asks for a value: a caller may answer the
+/// scan, which only has to rank grid points, more cheaply than the refinement.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Stage {
+    /// A grid point of the scan.
+    Scan,
+    /// A point of a Brent refinement.
+    Refine,
+}
+
+/// [`scan_then_refine`] with the phase passed to `f` (see [`Stage`]).
+///
+/// # Errors
+/// As [`scan_then_refine`].
+pub fn scan_then_refine_staged<F>(
+    mut f: F,
+    grid: &[f64],
+    x_tol_rel: f64,
+    max_evaluations_per_refine: usize,
+    log_space: bool,
+) -> Result<Scan, ProbError>
+where
+    F: FnMut(f64, Stage) -> Result<f64, ProbError>,
+{
     let rel = check_rel_tol(x_tol_rel)?;
     if grid.is_empty() {
         return Err(ProbError::InvalidArgument(
@@ -442,8 +475,13 @@ where
     }
     let mut values = Vec::with_capacity(grid.len());
     for &x in grid {
-        values.push(finite_value("the function to minimise", x, f(x)?)?);
+        values.push(finite_value(
+            "the function to minimise",
+            x,
+            f(x, Stage::Scan)?,
+        )?);
     }
+    let mut f = |x: f64| f(x, Stage::Refine);
     let n = grid.len();
     let mut minima = Vec::new();
     for (start, end) in minimum_runs(&values) {

@@ -85,3 +85,11 @@ pub const VERTEX_SLACK_REL: f64 = 1e-9;
 /// with pairs of rows (bivariate rectangles) before it is integrated: below it, the pair
 /// bound has a fair chance to fall within the absolute tolerance.
 pub const PAIR_SCREEN_ABS: f64 = 1e-3;
+
+/// Subinterval budget of each inner Gauss–Kronrod rule of the nested path (the second of
+/// four conditioning variables).
+pub const NESTED_INNER_MAX_INTERVALS: usize = 100;
+
+/// Largest number of plane sets whose meeting points the nested path enumerates to find
+/// the vertices of a polytope; past it the polytope goes to the lattice rule.
+pub const NESTED_MAX_PLANE_SETS: u128 = 20_000;

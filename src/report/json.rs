@@ -11,7 +11,9 @@
 //!   (null when not searched), `local_maxima`, `sigma_range`, `residual_fit`, `latent_fit`,
 //!   `latent_coverage`, `curve` (only when requested), `warnings`;
 //! - `metrics`: `total_fit`, `residual_fit`, `latent_fit`, `spfm`, `lfm`, `sff`, `dc_avg`,
-//!   `asil_spfm`, `asil_lfm`, `asil_residual_budget`, `error`;
+//!   `asil_spfm`, `asil_lfm`, `asil_residual_budget` (each `"D"`, `"C"`, `"B"`, `"below B"`
+//!   when no target of B to D is met, or `"n/a"` when the metric is undefined, e.g. no
+//!   failure rate at all), `error`;
 //! - `verification`: the Monte Carlo cross-check or null; `warnings`; `cautions`.
 //!
 //! Fields may be added in later versions; none is renamed or dropped.

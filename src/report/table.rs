@@ -132,16 +132,16 @@ pub fn render(input: &ReportInput<'_>) -> String {
     );
     let _ = writeln!(
         out,
-        "  SPFM                {} %   meets ASIL {}  ({})",
+        "  SPFM                {} %   {}  ({})",
         percent_with_bound(m.spfm),
-        m.asil_spfm.label(),
+        m.asil_spfm.verdict(),
         targets(&SPFM_TARGETS)
     );
     let _ = writeln!(
         out,
-        "  LFM                 {} %   meets ASIL {}  ({})",
+        "  LFM                 {} %   {}  ({})",
         percent_with_bound(m.lfm),
-        m.asil_lfm.label(),
+        m.asil_lfm.verdict(),
         targets(&LFM_TARGETS)
     );
     let _ = writeln!(out, "  SFF (IEC 61508-2)   {} %", percent_with_bound(m.sff));
@@ -150,8 +150,8 @@ pub fn render(input: &ReportInput<'_>) -> String {
     }
     let _ = writeln!(
         out,
-        "  residual rate budget met for ASIL {} (single-point part of the PMHF only)",
-        m.asil_residual_budget.label()
+        "  residual rate budget: {} (single-point part of the PMHF only)",
+        m.asil_residual_budget.verdict()
     );
     if let Some(rows) = input.verification {
         let _ = writeln!(out);
