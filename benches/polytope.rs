@@ -1,8 +1,10 @@
 //! Polytope probability timings (criterion): the targets of the engine issue are
 //! r = 3, m = 8 at absolute tolerance 1e-8 under 1 ms and r = 6, m = 20 at 1e-6 under
-//! 20 ms; the exact one- and two-direction paths for comparison. Inputs are fixed.
+//! 20 ms; each case runs on the default path (planar, nested or lattice by the number of
+//! conditioning variables) and forced through the plain lattice rule, and the exact one-
+//! and two-direction paths for comparison. Inputs are fixed.
 
-use concord::prob::polytope::{Band, Gaussian, Polytope, Tolerance};
+use concord::prob::polytope::{Band, Gaussian, Options, Polytope, Tolerance};
 use concord::prob::rng::SplitMix64;
 use criterion::{Criterion, black_box, criterion_group, criterion_main};
 use nalgebra::DMatrix;
@@ -35,8 +37,10 @@ fn polytope(r: usize, m: usize, seed: u64) -> Polytope {
 fn bench(c: &mut Criterion) {
     let mut group = c.benchmark_group("polytope");
     let cases = [
-        ("lattice_r3_m8_abs1e-8", 3, 8, 1e-8),
-        ("lattice_r6_m20_abs1e-6", 6, 20, 1e-6),
+        ("r2_m5_abs1e-8", 2, 5, 1e-8),
+        ("r3_m8_abs1e-8", 3, 8, 1e-8),
+        ("r4_m10_abs1e-6", 4, 10, 1e-6),
+        ("r6_m20_abs1e-6", 6, 20, 1e-6),
     ];
     for (name, r, m, abs) in cases {
         let g = gaussian(r, 11);
@@ -46,14 +50,25 @@ fn bench(c: &mut Criterion) {
             rel: 0.0,
             max_points: 4_000_000,
         };
-        let res = g.probability_detailed(&p, &tol).expect("tolerance met");
-        println!(
-            "{name}: value {:.12} error {:.2e} points {} method {:?}",
-            res.estimate.value, res.estimate.error, res.points, res.method
-        );
-        group.bench_function(name, |bench| {
-            bench.iter(|| g.probability(black_box(&p), &tol).expect("tolerance met"))
-        });
+        for (path, exact_paths) in [("default", true), ("lattice", false)] {
+            let options = Options {
+                exact_paths,
+                ..Options::default()
+            };
+            let res = g
+                .probability_with(&p, &tol, &options)
+                .expect("tolerance met");
+            println!(
+                "{name} {path}: value {:.12} error {:.2e} points {} method {:?}",
+                res.estimate.value, res.estimate.error, res.points, res.method
+            );
+            group.bench_function(format!("{name}_{path}"), |bench| {
+                bench.iter(|| {
+                    g.probability_with(black_box(&p), &tol, &options)
+                        .expect("tolerance met")
+                })
+            });
+        }
     }
     let g = gaussian(3, 11);
     let tol = Tolerance::default();
