@@ -36,6 +36,8 @@ fn polytope(r: usize, m: usize, seed: u64) -> Polytope {
 
 fn bench(c: &mut Criterion) {
     let mut group = c.benchmark_group("polytope");
+    // The slow cases take a second an iteration: ten samples are enough to compare.
+    group.sample_size(10);
     let cases = [
         ("r2_m5_abs1e-8", 2, 5, 1e-8),
         ("r3_m8_abs1e-8", 3, 8, 1e-8),
@@ -51,8 +53,11 @@ fn bench(c: &mut Criterion) {
             max_points: 4_000_000,
         };
         for (path, exact_paths) in [("default", true), ("lattice", false)] {
+            // Best effort: the plain lattice rule does not reach 1e-6 at r = 6 within the
+            // budget (measured), and the benchmark reports what it does reach.
             let options = Options {
                 exact_paths,
+                best_effort: true,
                 ..Options::default()
             };
             let res = g

@@ -103,41 +103,36 @@ impl Strips {
             let value = normal::interval(t_lo, t_hi);
             return Estimate::new(value, value * tolerance::ROUNDING_REL);
         }
-        // Every crossing of two lines inside (t_lo, t_hi) cuts the T-axis.
-        let mut cuts: Vec<f64> = Vec::with_capacity(lines.len() * lines.len() / 2 + 2);
+        let slope = |q: usize| self.rows[q].slope;
+        // The breaks of both envelopes, then the crossings of the two active lines inside
+        // each piece: between consecutive cuts one lower and one upper line are active and
+        // the width U - L keeps its sign.
+        let mut cuts: Vec<f64> = Vec::with_capacity(4 * lines.len() + 2);
         cuts.push(t_lo);
-        for (i, &(qi, ki, _)) in lines.iter().enumerate() {
-            for &(qj, kj, _) in &lines[i + 1..] {
-                let dc = self.rows[qi].slope - self.rows[qj].slope;
-                if dc != 0.0 {
-                    let t = (ki - kj) / dc;
-                    if t > t_lo && t < t_hi {
-                        cuts.push(t);
-                    }
-                }
-            }
+        for upper_side in [true, false] {
+            envelope_breaks(&lines, upper_side, &slope, t_lo, t_hi, &mut cuts);
         }
         cuts.push(t_hi);
         cuts.sort_by(f64::total_cmp);
         cuts.dedup();
-
-        let envelope_at = |t: f64| -> (Option<usize>, f64, Option<usize>, f64) {
-            let (mut lo_row, mut lo_val) = (None, f64::NEG_INFINITY);
-            let (mut hi_row, mut hi_val) = (None, f64::INFINITY);
-            for &(q, k, is_upper) in &lines {
-                let v = k - self.rows[q].slope * t;
-                if is_upper {
-                    if v < hi_val {
-                        hi_val = v;
-                        hi_row = Some(q);
+        let mut crossings = Vec::new();
+        for pair in cuts.windows(2) {
+            let (s, e) = (pair[0], pair[1]);
+            let t = representative(s, e);
+            let (lo_line, hi_line) = active_lines(&lines, &slope, t);
+            if let (Some((_, kl, cl)), Some((_, kh, ch))) = (lo_line, hi_line) {
+                let dc = ch - cl;
+                if dc != 0.0 {
+                    let x = (kh - kl) / dc;
+                    if x > s && x < e {
+                        crossings.push(x);
                     }
-                } else if v > lo_val {
-                    lo_val = v;
-                    lo_row = Some(q);
                 }
             }
-            (lo_row, lo_val, hi_row, hi_val)
-        };
+        }
+        cuts.extend(crossings);
+        cuts.sort_by(f64::total_cmp);
+        cuts.dedup();
 
         let mut total = Estimate::zero();
         // Runs of consecutive pieces with the same active pair are integrated at once.
@@ -145,7 +140,10 @@ impl Strips {
         for pair in cuts.windows(2) {
             let (s, e) = (pair[0], pair[1]);
             let t = representative(s, e);
-            let (lo_row, lo_val, hi_row, hi_val) = envelope_at(t);
+            let (lo_line, hi_line) = active_lines(&lines, &slope, t);
+            let lo_val = lo_line.map_or(f64::NEG_INFINITY, |(_, k, c)| k - c * t);
+            let hi_val = hi_line.map_or(f64::INFINITY, |(_, k, c)| k - c * t);
+            let (lo_row, hi_row) = (lo_line.map(|l| l.0), hi_line.map(|l| l.0));
             if hi_val <= lo_val {
                 if let Some(r) = run.take() {
                     total = total.add(self.piece(r, lower, upper));
@@ -232,6 +230,115 @@ impl Strips {
         let value = plus.value - minus.value;
         let error = plus.error + minus.error + tolerance::ROUNDING_REL * plus.value.abs();
         Estimate::new(value, error)
+    }
+}
+
+/// The active lower and upper lines at `t`: `(row, offset, slope)` of the largest lower
+/// line `k - c t` and of the smallest upper one.
+type ActiveLine = Option<(usize, f64, f64)>;
+
+fn active_lines(
+    lines: &[(usize, f64, bool)],
+    slope: &dyn Fn(usize) -> f64,
+    t: f64,
+) -> (ActiveLine, ActiveLine) {
+    let (mut lo, mut lo_val): (ActiveLine, f64) = (None, f64::NEG_INFINITY);
+    let (mut hi, mut hi_val): (ActiveLine, f64) = (None, f64::INFINITY);
+    for &(q, k, is_upper) in lines {
+        let c = slope(q);
+        let v = k - c * t;
+        if is_upper {
+            if v < hi_val {
+                hi_val = v;
+                hi = Some((q, k, c));
+            }
+        } else if v > lo_val {
+            lo_val = v;
+            lo = Some((q, k, c));
+        }
+    }
+    (lo, hi)
+}
+
+/// The breaks inside `(t_lo, t_hi)` of the upper envelope `min (k - c t)` over the upper
+/// lines (`upper_side`) or of the lower envelope `max (k - c t)` over the lower lines,
+/// appended to `out`. The envelope is walked from `t_lo`: from the active line, the next
+/// one is the line that overtakes it first (for the minimum, a line with a larger `c`;
+/// for the maximum, a smaller one), so the cost is the number of lines times the number of
+/// breaks, not the square of the number of lines.
+fn envelope_breaks(
+    lines: &[(usize, f64, bool)],
+    upper_side: bool,
+    slope: &dyn Fn(usize) -> f64,
+    t_lo: f64,
+    t_hi: f64,
+    out: &mut Vec<f64>,
+) {
+    let side: Vec<(f64, f64)> = lines
+        .iter()
+        .filter(|l| l.2 == upper_side)
+        .map(|&(q, k, _)| (k, slope(q)))
+        .collect();
+    if side.len() < 2 {
+        return;
+    }
+    // Start just inside t_lo: the active line there, ties broken towards the line that
+    // leads just after it.
+    let better = |a: (f64, f64), b: (f64, f64), t: f64| -> bool {
+        let (va, vb) = (a.0 - a.1 * t, b.0 - b.1 * t);
+        if upper_side {
+            va < vb || (va == vb && a.1 > b.1)
+        } else {
+            va > vb || (va == vb && a.1 < b.1)
+        }
+    };
+    let mut current = side[0];
+    for &line in &side[1..] {
+        if better(line, current, t_lo) {
+            current = line;
+        }
+    }
+    let mut t = t_lo;
+    for _ in 0..side.len() {
+        // The earliest line to overtake the current one after t.
+        let mut next: Option<(f64, (f64, f64))> = None;
+        for &line in &side {
+            let overtakes = if upper_side {
+                line.1 > current.1
+            } else {
+                line.1 < current.1
+            };
+            if !overtakes {
+                continue;
+            }
+            let x = (line.0 - current.0) / (line.1 - current.1);
+            if !(x > t) || !x.is_finite() {
+                continue;
+            }
+            let earlier = match next {
+                None => true,
+                Some((best_x, best)) => {
+                    x < best_x
+                        || (x == best_x
+                            && if upper_side {
+                                line.1 > best.1
+                            } else {
+                                line.1 < best.1
+                            })
+                }
+            };
+            if earlier {
+                next = Some((x, line));
+            }
+        }
+        match next {
+            Some((x, line)) if x < t_hi => {
+                out.push(x);
+                t = x;
+                current = line;
+            }
+            _ => break,
+        }
     }
 }
 
