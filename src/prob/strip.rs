@@ -312,7 +312,7 @@ fn envelope_breaks(
                 continue;
             }
             let x = (line.0 - current.0) / (line.1 - current.1);
-            if !(x > t) || !x.is_finite() {
+            if !x.is_finite() || x <= t {
                 continue;
             }
             let earlier = match next {
