@@ -417,6 +417,40 @@ mod tests {
     }
 
     #[test]
+    fn parallelogram_among_distant_lines_is_a_bivariate_rectangle() {
+        // Two strips with slopes c1, c2 and T free form a parallelogram whose probability is
+        // the rectangle of U_i = (Y + c_i T) / sqrt(1 + c_i^2), a standard pair with
+        // correlation (1 + c1 c2) / (n1 n2) (definition of the bivariate normal). Ten more
+        // strips with bands 60 wide on either side cut only where the density is below
+        // 1e-300, but every one of them is a line the envelope walk must pass.
+        let (c1, c2) = (0.6, -1.7);
+        let mut slopes = vec![c1, c2];
+        let mut lower = vec![-0.8, -1.1];
+        let mut upper = vec![1.3, 0.4];
+        for i in 0..10 {
+            let c = -2.5 + 0.55 * f64::from(i);
+            slopes.push(c);
+            let n = c.hypot(1.0);
+            lower.push(-60.0 * n);
+            upper.push(60.0 * n);
+        }
+        let strips = Strips::new(&slopes);
+        let got = strips.probability(f64::NEG_INFINITY, f64::INFINITY, &lower, &upper);
+        let (n1, n2) = (c1.hypot(1.0), c2.hypot(1.0));
+        let rho = (1.0 + c1 * c2) / (n1 * n2);
+        let want = bivariate::rectangle(
+            [lower[0] / n1, lower[1] / n2],
+            [upper[0] / n1, upper[1] / n2],
+            rho,
+        );
+        assert!(
+            (got.value - want).abs() <= got.error + 1e-14,
+            "{got:?} vs {want}"
+        );
+        assert!(got.error < 1e-12);
+    }
+
+    #[test]
     fn cone_through_the_origin_is_an_angle_fraction() {
         // Rotational symmetry of the standard bivariate normal (common practice): a wedge
         // with apex at the origin and opening angle theta has probability theta / (2 pi).
