@@ -1252,8 +1252,10 @@ impl Plan {
         if planes.len() < k {
             return out;
         }
+        let mut set: Vec<(&[f64], f64)> = Vec::with_capacity(k);
         loop {
-            let set: Vec<(&[f64], f64)> = chosen.iter().map(|&i| planes[i]).collect();
+            set.clear();
+            set.extend(chosen.iter().map(|&i| planes[i]));
             if let Some(x) = solve_planes(&set) {
                 let size = 1.0 + x.iter().map(|t| t.abs()).sum::<f64>();
                 let feasible = rows.iter().all(|(r, lo, hi)| {
@@ -1337,16 +1339,19 @@ impl Plan {
 /// with partial pivoting; `None` when they do not meet in one point (a pivot small against
 /// the rows' sizes).
 fn solve_planes(planes: &[(&[f64], f64)]) -> Option<Vec<f64>> {
+    const MAX: usize = 4;
     let k = planes.len();
-    let mut m: Vec<Vec<f64>> = planes
-        .iter()
-        .map(|(r, e)| {
-            let mut row: Vec<f64> = r.iter().take(k).copied().collect();
-            row.resize(k, 0.0);
-            row.push(*e);
-            row
-        })
-        .collect();
+    if k == 0 || k > MAX {
+        return None;
+    }
+    // Stack storage: the vertex enumeration solves many small systems.
+    let mut m = [[0.0f64; MAX + 1]; MAX];
+    for (row, (r, e)) in m.iter_mut().zip(planes) {
+        for (slot, v) in row.iter_mut().zip(r.iter().take(k)) {
+            *slot = *v;
+        }
+        row[k] = *e;
+    }
     let scale = planes
         .iter()
         .map(|(r, _)| r.iter().map(|v| v * v).sum::<f64>().sqrt())
@@ -1359,10 +1364,10 @@ fn solve_planes(planes: &[(&[f64], f64)]) -> Option<Vec<f64>> {
         m.swap(col, pivot);
         let (done, rest) = m.split_at_mut(col + 1);
         let pivot_row = &done[col];
-        for row in rest.iter_mut() {
+        for row in rest.iter_mut().take(k - col - 1) {
             let f = row[col] / pivot_row[col];
             if f != 0.0 {
-                for (target, source) in row[col..].iter_mut().zip(&pivot_row[col..]) {
+                for (target, source) in row[col..=k].iter_mut().zip(&pivot_row[col..=k]) {
                     *target -= f * source;
                 }
             }
