@@ -623,41 +623,35 @@ impl Gaussian {
         }
         // Rounding of the sums and of the integrand, relative to the value.
         let floor_rel = tolerance::ROUNDING_REL * (plan.variables as f64 + 1.0);
-        if options.exact_paths && plan.nested_fits() {
+        let (value, error, points, converged, method) = if options.exact_paths && plan.nested_fits()
+        {
             let nested = plan.nested(tol)?;
-            let floor = nested.value.abs() * floor_rel;
-            let result = with_error(
+            (
                 nested.value,
-                nested.error + floor,
-                Method::Nested,
+                nested.error,
                 nested.evaluations,
-                plan.variables,
-            );
-            if !nested.converged && !options.best_effort {
-                return Err(ProbError::BudgetExhausted {
-                    achieved: result.estimate.error,
-                    requested: tol.target(nested.value),
-                    points: nested.evaluations,
-                });
-            }
-            return Ok(result);
-        }
-        // The lattice must leave room for the rounding terms added below.
-        let target = |v: f64| tol.target(v) - rounding(v) - floor_rel * v.abs();
-        let outcome = plan.integrate(tol.max_points, options.seed, target, options.exact_paths);
-        let floor = outcome.value.abs() * floor_rel;
-        let result = with_error(
-            outcome.value,
-            outcome.error + floor,
-            Method::Lattice,
-            outcome.points,
-            plan.variables,
-        );
-        if !outcome.converged && !options.best_effort {
+                nested.converged,
+                Method::Nested,
+            )
+        } else {
+            // The lattice must leave room for the rounding terms added below.
+            let target = |v: f64| tol.target(v) - rounding(v) - floor_rel * v.abs();
+            let outcome = plan.integrate(tol.max_points, options.seed, target, options.exact_paths);
+            (
+                outcome.value,
+                outcome.error,
+                outcome.points,
+                outcome.converged,
+                Method::Lattice,
+            )
+        };
+        let floor = value.abs() * floor_rel;
+        let result = with_error(value, error + floor, method, points, plan.variables);
+        if !converged && !options.best_effort {
             return Err(ProbError::BudgetExhausted {
                 achieved: result.estimate.error,
-                requested: tol.target(outcome.value),
-                points: outcome.points,
+                requested: tol.target(value),
+                points,
             });
         }
         Ok(result)
