@@ -195,10 +195,7 @@ impl Evaluator {
         polytope: &Polytope,
         figure: Figure,
     ) -> Result<Estimate, AnalysisError> {
-        gaussian
-            .probability_best_effort(polytope, &self.tolerance)
-            .map(|p| p.estimate)
-            .map_err(|e| AnalysisError::engine(format!("outcome {}", figure.key()), e))
+        probability_at(gaussian, polytope, figure, &self.tolerance)
     }
 
     /// `P(figure)` for `x ~ gaussian`, with the summed error bound of its polytopes.
@@ -221,10 +218,7 @@ impl Evaluator {
     ) -> Result<Estimate, AnalysisError> {
         let mut total = Estimate::zero();
         for poly in self.polytopes(figure) {
-            let p = gaussian
-                .probability_best_effort(poly, tolerance)
-                .map_err(|e| AnalysisError::engine(format!("outcome {}", figure.key()), e))?;
-            total = total.add(p.estimate);
+            total = total.add(probability_at(gaussian, poly, figure, tolerance)?);
         }
         Ok(total.clamp_probability())
     }
@@ -248,6 +242,19 @@ impl Evaluator {
             p_sq,
         })
     }
+}
+
+/// One polytope of `figure` at `tolerance`, best effort (the bound says how well it went).
+fn probability_at(
+    gaussian: &Gaussian,
+    polytope: &Polytope,
+    figure: Figure,
+    tolerance: &Tolerance,
+) -> Result<Estimate, AnalysisError> {
+    gaussian
+        .probability_best_effort(polytope, tolerance)
+        .map(|p| p.estimate)
+        .map_err(|e| AnalysisError::engine(format!("outcome {}", figure.key()), e))
 }
 
 /// `p_sq = 1 - (p_vd + p_vu + p_sd)` when the other three are small (sum below one half):

@@ -104,33 +104,15 @@ impl Strips {
             return Estimate::new(value, value * tolerance::ROUNDING_REL);
         }
         let slope = |q: usize| self.rows[q].slope;
-        // The breaks of both envelopes, then the crossings of the two active lines inside
-        // each piece: between consecutive cuts one lower and one upper line are active and
-        // the width U - L keeps its sign.
-        let mut cuts: Vec<f64> = Vec::with_capacity(4 * lines.len() + 2);
+        // The breaks of both envelopes: between consecutive cuts one lower and one upper
+        // line are active. Inside such a piece the width U - L is linear, so it changes
+        // sign at most once, where the two active lines cross; the piece is split there.
+        let mut cuts: Vec<f64> = Vec::with_capacity(2 * lines.len() + 2);
         cuts.push(t_lo);
         for upper_side in [true, false] {
             envelope_breaks(&lines, upper_side, &slope, t_lo, t_hi, &mut cuts);
         }
         cuts.push(t_hi);
-        cuts.sort_by(f64::total_cmp);
-        cuts.dedup();
-        let mut crossings = Vec::new();
-        for pair in cuts.windows(2) {
-            let (s, e) = (pair[0], pair[1]);
-            let t = representative(s, e);
-            let (lo_line, hi_line) = active_lines(&lines, &slope, t);
-            if let (Some((_, kl, cl)), Some((_, kh, ch))) = (lo_line, hi_line) {
-                let dc = ch - cl;
-                if dc != 0.0 {
-                    let x = (kh - kl) / dc;
-                    if x > s && x < e {
-                        crossings.push(x);
-                    }
-                }
-            }
-        }
-        cuts.extend(crossings);
         cuts.sort_by(f64::total_cmp);
         cuts.dedup();
 
@@ -139,37 +121,49 @@ impl Strips {
         let mut run: Option<Run> = None;
         for pair in cuts.windows(2) {
             let (s, e) = (pair[0], pair[1]);
-            let t = representative(s, e);
-            let (lo_line, hi_line) = active_lines(&lines, &slope, t);
-            let lo_val = lo_line.map_or(f64::NEG_INFINITY, |(_, k, c)| k - c * t);
-            let hi_val = hi_line.map_or(f64::INFINITY, |(_, k, c)| k - c * t);
-            let (lo_row, hi_row) = (lo_line.map(|l| l.0), hi_line.map(|l| l.0));
-            if hi_val <= lo_val {
-                if let Some(r) = run.take() {
-                    total = total.add(self.piece(r, lower, upper));
+            let (lo_line, hi_line) = active_lines(&lines, &slope, representative(s, e));
+            let crossing = match (lo_line, hi_line) {
+                (Some((_, kl, cl)), Some((_, kh, ch))) if ch != cl => {
+                    Some((kh - kl) / (ch - cl)).filter(|x| *x > s && *x < e)
                 }
-                continue;
-            }
-            let upper_tail = lo_val > 0.0;
-            match run.as_mut() {
-                Some(r)
-                    if r.lower_row == lo_row
-                        && r.upper_row == hi_row
-                        && r.upper_tail == upper_tail =>
-                {
-                    r.end = e;
-                }
-                _ => {
+                _ => None,
+            };
+            let parts = match crossing {
+                Some(x) => [(s, x), (x, e)],
+                None => [(s, e), (e, e)],
+            };
+            for (s, e) in parts.into_iter().filter(|(s, e)| s < e) {
+                let t = representative(s, e);
+                let lo_val = lo_line.map_or(f64::NEG_INFINITY, |(_, k, c)| k - c * t);
+                let hi_val = hi_line.map_or(f64::INFINITY, |(_, k, c)| k - c * t);
+                let (lo_row, hi_row) = (lo_line.map(|l| l.0), hi_line.map(|l| l.0));
+                if hi_val <= lo_val {
                     if let Some(r) = run.take() {
                         total = total.add(self.piece(r, lower, upper));
                     }
-                    run = Some(Run {
-                        start: s,
-                        end: e,
-                        lower_row: lo_row,
-                        upper_row: hi_row,
-                        upper_tail,
-                    });
+                    continue;
+                }
+                let upper_tail = lo_val > 0.0;
+                match run.as_mut() {
+                    Some(r)
+                        if r.lower_row == lo_row
+                            && r.upper_row == hi_row
+                            && r.upper_tail == upper_tail =>
+                    {
+                        r.end = e;
+                    }
+                    _ => {
+                        if let Some(r) = run.take() {
+                            total = total.add(self.piece(r, lower, upper));
+                        }
+                        run = Some(Run {
+                            start: s,
+                            end: e,
+                            lower_row: lo_row,
+                            upper_row: hi_row,
+                            upper_tail,
+                        });
+                    }
                 }
             }
         }
