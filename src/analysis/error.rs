@@ -39,6 +39,12 @@ pub enum AnalysisError {
         /// What is wrong and how to fix it.
         message: String,
     },
+    /// The reference data compiled into the binary for `concord selftest` do not parse.
+    #[error(
+        "the selftest reference data built into concord cannot be read ({0}); \
+         rebuild concord from an unmodified source tree"
+    )]
+    ReferenceData(String),
 }
 
 impl AnalysisError {

@@ -9,6 +9,7 @@
 //! - [`run`]: the whole exact analysis of a file.
 //! - [`montecarlo`]: plain sampling through separate code, for verification.
 //! - [`outcome`]: the four probabilities and the coverage figures derived from them.
+//! - [`selftest`]: the built-in validation suite against outside references.
 
 pub mod cells;
 pub mod error;
@@ -19,6 +20,7 @@ pub mod options;
 pub mod outcome;
 pub mod run;
 pub mod scenario;
+pub mod selftest;
 pub mod site;
 
 pub use error::AnalysisError;

@@ -20,6 +20,9 @@ pub enum Command {
     Check(CheckArgs),
     /// Compute the coverage figures of every fault site, the baseline and the metrics.
     Analyze(AnalyzeArgs),
+    /// Run the built-in validation suite against outside references and print the
+    /// qualification summary (exit code 1 when any case fails).
+    Selftest(SelftestArgs),
 }
 
 /// Arguments of `concord check`.
@@ -76,4 +79,21 @@ pub struct AnalyzeArgs {
     /// Include the whole curve over sigma of every site with unknown spread (JSON).
     #[arg(long)]
     pub curve: bool,
+}
+
+/// Output formats of `concord selftest`.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+pub enum SelftestFormat {
+    /// A table for the terminal.
+    Table,
+    /// One JSON object, for archiving with a tool assessment.
+    Json,
+}
+
+/// Arguments of `concord selftest`.
+#[derive(Debug, Args)]
+pub struct SelftestArgs {
+    /// Output format.
+    #[arg(long, value_enum, default_value = "table")]
+    pub format: SelftestFormat,
 }

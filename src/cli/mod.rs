@@ -7,6 +7,7 @@
 pub mod analyze;
 pub mod args;
 pub mod check;
+pub mod selftest;
 
 use std::process::ExitCode;
 
@@ -59,6 +60,7 @@ pub fn run() -> ExitCode {
     let result = match &cli.command {
         Command::Check(a) => check::run(a),
         Command::Analyze(a) => analyze::run(a),
+        Command::Selftest(a) => selftest::run(a),
     };
     match result {
         Ok(text) => {

@@ -3,6 +3,7 @@
 //! - [`json`]: the JSON object that scripts rely on (the contract of DESIGN.md).
 //! - [`table`]: the table for a terminal, 100 columns wide.
 //! - [`csv`]: one row per scenario, for spreadsheets.
+//! - [`selftest`]: the qualification summary of `concord selftest` (table and JSON).
 //! - [`format`]: number formatting shared by the text formats.
 //! - [`cautions`]: the cautions every report carries.
 
@@ -10,6 +11,7 @@ pub mod cautions;
 pub mod csv;
 pub mod format;
 pub mod json;
+pub mod selftest;
 pub mod table;
 
 use crate::analysis::Analysis;

@@ -5,7 +5,7 @@ use std::fmt::Write as _;
 use crate::analysis::metrics::{LFM_TARGETS, SPFM_TARGETS};
 
 use super::cautions::CAUTIONS;
-use super::format::{bound, fit, number, percent_floor, percent_with_bound, probability};
+use super::format::{bound, fit, number, percent_floor, percent_with_bound, probability, wrap};
 use super::{ReportInput, TOOL_VERSION, input_sha256};
 
 /// The table text.
@@ -213,27 +213,6 @@ fn targets(list: &[(crate::analysis::metrics::Asil, f64)]) -> String {
         .collect();
     parts.dedup();
     parts.join(", ")
-}
-
-/// Word-wraps a paragraph to lines of at most `width` characters (continuation lines
-/// indented by two spaces).
-fn wrap(text: &str, width: usize) -> Vec<String> {
-    let mut lines = Vec::new();
-    let mut line = String::new();
-    for word in text.split_whitespace() {
-        if !line.is_empty() && line.chars().count() + 1 + word.chars().count() > width {
-            lines.push(std::mem::take(&mut line));
-            line.push_str("  ");
-        }
-        if !line.trim().is_empty() {
-            line.push(' ');
-        }
-        line.push_str(word);
-    }
-    if !line.trim().is_empty() {
-        lines.push(line);
-    }
-    lines
 }
 
 fn clip(text: &str, width: usize) -> String {

@@ -1,0 +1,304 @@
+//! Selftest cases of whole analyses: architectures read, compiled and analysed as a user's
+//! file would be, against a stored table of two independent integrations, a closed form
+//! derived by hand and the independent Monte Carlo engine.
+
+use rayon::prelude::*;
+use serde::Deserialize;
+
+use crate::model::load_str;
+
+use super::super::montecarlo::{MonteCarloOptions, verify};
+use super::super::options::AnalysisOptions;
+use super::super::outcome::{Figure, Outcome};
+use super::super::run::{Analysis, analyze};
+use super::{Case, Measure, ReferenceData};
+
+/// Allowance for rounding in sums of polytope probabilities (double precision).
+const ROUNDING: f64 = 1e-15;
+
+/// One stored reference figure.
+#[derive(Debug, Clone, Copy, Deserialize)]
+pub struct FigureRef {
+    /// The value.
+    pub value: f64,
+    /// The reference's own tolerance.
+    pub tol: f64,
+}
+
+/// Stored figures of one scenario (`baseline` or a fault site).
+#[derive(Debug, Clone, Deserialize)]
+pub struct SiteRef {
+    /// `baseline` or the site's name.
+    pub site: String,
+    /// `P(V and Det)`.
+    pub p_vd: FigureRef,
+    /// `P(V and not Det)`.
+    pub p_vu: FigureRef,
+    /// `P(not V and Det)`.
+    pub p_sd: FigureRef,
+    /// `P(not V and not Det)`.
+    pub p_sq: FigureRef,
+}
+
+impl SiteRef {
+    fn get(&self, figure: Figure) -> FigureRef {
+        match figure {
+            Figure::ViolatedDetected => self.p_vd,
+            Figure::ViolatedUndetected => self.p_vu,
+            Figure::SafeDetected => self.p_sd,
+            Figure::SafeQuiet => self.p_sq,
+        }
+    }
+}
+
+/// One architecture of the whole-analysis table.
+#[derive(Debug, Clone, Deserialize)]
+pub struct AnalysisRow {
+    /// Case name.
+    pub name: String,
+    /// The architecture file.
+    pub toml: String,
+    /// Its figures.
+    pub results: Vec<SiteRef>,
+}
+
+const REFERENCE: &str = "whole analysis, reference table";
+const CLOSED: &str = "whole analysis, closed form";
+const MONTE_CARLO: &str = "whole analysis, Monte Carlo agreement";
+
+fn run_file(text: &str, name: &str) -> Result<Analysis, String> {
+    let arch = load_str(text, name).map_err(|e| e.to_string())?;
+    analyze(&arch.model, &AnalysisOptions::default(), false).map_err(|e| e.to_string())
+}
+
+fn scenario<'a>(analysis: &'a Analysis, site: &str) -> Option<&'a Outcome> {
+    if site == "baseline" {
+        Some(&analysis.baseline)
+    } else {
+        analysis
+            .sites
+            .iter()
+            .find(|s| s.name == site)
+            .map(|s| &s.outcome)
+    }
+}
+
+/// Every figure of every scenario of the stored whole-analysis table.
+pub fn reference_table_cases(data: &ReferenceData) -> Vec<Case> {
+    let per_case: Vec<Vec<Case>> = data
+        .analysis
+        .par_iter()
+        .map(|row| {
+            let analysis = run_file(&row.toml, &format!("{}.toml", row.name));
+            let mut cases = Vec::new();
+            for site in &row.results {
+                for figure in Figure::ALL {
+                    let reference = site.get(figure);
+                    let computed = match &analysis {
+                        Ok(a) => scenario(a, &site.site)
+                            .map(|o| (o.get(figure).value, o.get(figure).error))
+                            .ok_or_else(|| format!("no scenario named {}", site.site)),
+                        Err(e) => Err(e.clone()),
+                    };
+                    cases.push(Case::new(
+                        REFERENCE,
+                        format!("{} / {} / {}", row.name, site.site, figure.key()),
+                        data.sources.analysis.clone(),
+                        computed,
+                        reference.value,
+                        reference.tol + ROUNDING,
+                        Measure::Absolute,
+                    ));
+                }
+            }
+            cases
+        })
+        .collect();
+    per_case.into_iter().flatten().collect()
+}
+
+/// `Phi(x) = erfc(-x / sqrt 2) / 2` with the `libm` crate's erfc (a port of FreeBSD's msun,
+/// an implementation independent of concord's own normal CDF).
+fn phi(x: f64) -> f64 {
+    0.5 * libm::erfc(-x * std::f64::consts::FRAC_1_SQRT_2)
+}
+
+/// `P(|N(m, sd^2)| > limit)`.
+fn outside(m: f64, sd: f64, limit: f64) -> f64 {
+    phi((-limit - m) / sd) + phi((m - limit) / sd)
+}
+
+const CLOSED_S: f64 = 0.6;
+const CLOSED_T: f64 = 1.5;
+const CLOSED_L: f64 = 2.0;
+const CLOSED_OFFSETS: [f64; 4] = [0.0, 2.0, 3.0, 4.5];
+
+fn closed_form_file() -> String {
+    let mut text = format!(
+        "name = \"two independent channels\"\nunit = \"mm\"\n\n\
+         [channels.a]\nmean = 0.0\nsigma = {CLOSED_S}\n\n\
+         [channels.b]\nmean = 0.0\nsigma = {CLOSED_S}\n\n\
+         [output]\nkind = \"mean\"\nof = [\"a\", \"b\"]\n\n\
+         [checks.ab]\nkind = \"difference\"\nof = [\"a\", \"b\"]\nlimit = {CLOSED_T}\n\n\
+         [safety]\nlimit = {CLOSED_L}\n"
+    );
+    for (k, f) in CLOSED_OFFSETS.iter().enumerate().skip(1) {
+        text.push_str(&format!(
+            "\n[faults.offset_{k}]\nfit = 10.0\nhits = {{ a = 1.0 }}\nmode = \"add\"\n\
+             amplitude = {{ points = [[{f}, 1.0]] }}\n"
+        ));
+    }
+    text
+}
+
+/// Two independent channels of equal sigma `s`, mean output, difference check, a fixed
+/// offset `F` on one channel: `y = (a + b) / 2 ~ N(F/2, s^2/2)` and `d = a - b ~ N(F, 2 s^2)`
+/// are uncorrelated gaussians, hence independent (Feller, Vol. II, III.1), so every outcome
+/// is a product of two one-dimensional normal probabilities (derived by hand; the same
+/// derivation as tests/analysis_closed_forms.rs).
+pub fn closed_form_cases(_data: &ReferenceData) -> Vec<Case> {
+    let analysis = run_file(&closed_form_file(), "closed-form.toml");
+    let (sy, sd) = (CLOSED_S / 2f64.sqrt(), CLOSED_S * 2f64.sqrt());
+    let mut cases = Vec::new();
+    for (k, f) in CLOSED_OFFSETS.iter().enumerate() {
+        let site = if k == 0 {
+            "baseline".to_string()
+        } else {
+            format!("offset_{k}")
+        };
+        let v = outside(f / 2.0, sy, CLOSED_L);
+        let det = outside(*f, sd, CLOSED_T);
+        for figure in Figure::ALL {
+            let reference = match figure {
+                Figure::ViolatedDetected => v * det,
+                Figure::ViolatedUndetected => v * (1.0 - det),
+                Figure::SafeDetected => (1.0 - v) * det,
+                Figure::SafeQuiet => (1.0 - v) * (1.0 - det),
+            };
+            let computed = match &analysis {
+                Ok(a) => scenario(a, &site)
+                    .map(|o| (o.get(figure).value, o.get(figure).error))
+                    .ok_or_else(|| format!("no scenario named {site}")),
+                Err(e) => Err(e.clone()),
+            };
+            cases.push(Case::new(
+                CLOSED,
+                format!("F = {f} / {}", figure.key()),
+                "hand derivation: sum and difference of independent equal-variance normals \
+                 are independent (Feller, Vol. II, III.1); Phi by libm erfc",
+                computed,
+                reference,
+                1e-13 + 1e-12 * reference.abs(),
+                Measure::Absolute,
+            ));
+        }
+    }
+    cases
+}
+
+/// An invented two-channel architecture whose sites exercise the unknown-sigma search and
+/// the uniform amplitude integral, for the Monte Carlo comparison.
+const MONTE_CARLO_FILE: &str = r#"
+name = "selftest pair for the sampler"
+unit = "mm"
+full_scale = [-20.0, 20.0]
+
+[sources.ref]
+mean = 0.05
+sigma = 0.2
+
+[channels.a]
+mean = 0.1
+sigma = 0.5
+from = { ref = 1.0 }
+
+[channels.b]
+mean = -0.1
+sigma = 0.6
+from = { ref = 1.0 }
+
+[[correlations]]
+between = ["a", "b"]
+rho = 0.2
+
+[output]
+kind = "mean"
+of = ["a", "b"]
+
+[checks.ab]
+kind = "difference"
+of = ["a", "b"]
+limit = 2.0
+
+[safety]
+limit = 1.8
+
+[faults.a_drift]
+fit = 10.0
+hits = { a = 1.0 }
+mode = "add"
+amplitude = { gaussian = { mean = 0.0, sigma = "unknown" } }
+
+[faults.b_frozen]
+fit = 4.0
+hits = { b = 1.0 }
+mode = "replace"
+amplitude = { uniform = "full_scale" }
+"#;
+
+/// Samples per scenario of the Monte Carlo comparison.
+pub const MONTE_CARLO_SAMPLES: u64 = 400_000;
+
+/// The exact figures of every scenario against the 99.9 % Wilson interval of the
+/// independent sampler (`analysis::montecarlo`, fixed seed).
+pub fn monte_carlo_cases(_data: &ReferenceData) -> Vec<Case> {
+    let source = format!(
+        "independent Monte Carlo engine, {MONTE_CARLO_SAMPLES} samples, 99.9 % Wilson (1927) \
+         interval"
+    );
+    let rows = load_str(MONTE_CARLO_FILE, "selftest-sampler.toml")
+        .map_err(|e| e.to_string())
+        .and_then(|arch| {
+            let exact = analyze(&arch.model, &AnalysisOptions::default(), false)
+                .map_err(|e| e.to_string())?;
+            verify(
+                &arch.model,
+                &exact,
+                &MonteCarloOptions {
+                    samples: MONTE_CARLO_SAMPLES,
+                    seed: 0x5E1F_7E57,
+                },
+            )
+            .map_err(|e| e.to_string())
+        });
+    match rows {
+        Ok(rows) => rows
+            .iter()
+            .map(|r| {
+                let half = if r.exact.value >= r.sampled {
+                    r.interval.1 - r.sampled
+                } else {
+                    r.sampled - r.interval.0
+                };
+                Case::new(
+                    MONTE_CARLO,
+                    format!("{} / {}", r.scenario, r.figure.key()),
+                    source.clone(),
+                    Ok((r.exact.value, r.exact.error)),
+                    r.sampled,
+                    half,
+                    Measure::Absolute,
+                )
+            })
+            .collect(),
+        Err(e) => vec![Case::new(
+            MONTE_CARLO,
+            "selftest-sampler.toml",
+            source,
+            Err(e),
+            0.0,
+            0.0,
+            Measure::Absolute,
+        )],
+    }
+}
