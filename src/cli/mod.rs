@@ -9,6 +9,7 @@ pub mod args;
 pub mod check;
 pub mod selftest;
 
+use std::io::Write as _;
 use std::process::ExitCode;
 
 use clap::Parser;
@@ -64,17 +65,25 @@ pub fn run() -> ExitCode {
     };
     match result {
         Ok(text) => {
-            print!("{text}");
+            write_stdout(&text);
             ExitCode::from(EXIT_OK)
         }
         Err(failure) => {
             if let Some(text) = &failure.output {
-                print!("{text}");
+                write_stdout(text);
             }
-            eprintln!("{}", failure.message);
+            let _ = writeln!(std::io::stderr().lock(), "{}", failure.message);
             ExitCode::from(failure.code)
         }
     }
+}
+
+/// Writes to standard output; a closed pipe (e.g. `concord selftest | head`) is not an
+/// error worth a panic, so write errors end the output quietly.
+fn write_stdout(text: &str) {
+    let mut out = std::io::stdout().lock();
+    let _ = out.write_all(text.as_bytes());
+    let _ = out.flush();
 }
 
 /// Loads an architecture file, turning its diagnostics into an input failure.
