@@ -39,6 +39,19 @@ pub enum AnalysisError {
         /// What is wrong and how to fix it.
         message: String,
     },
+    /// A figure came out as NaN or infinite: the numbers of the model are too far apart in
+    /// scale for double precision. Reported instead of printing a meaningless figure.
+    #[error(
+        "{context}: the computation gave a non-finite figure ({figure}); the numbers of the \
+         architecture are too far apart in scale for double precision; bring means, sigmas \
+         and limits within a few orders of magnitude of each other (e.g. by choosing the unit)"
+    )]
+    NotFinite {
+        /// Where, e.g. `fault site 'a_stuck'`.
+        context: String,
+        /// Which figure.
+        figure: String,
+    },
     /// The reference data compiled into the binary for `concord selftest` do not parse.
     #[error(
         "the selftest reference data built into concord cannot be read ({0}); \

@@ -74,6 +74,10 @@ pub fn analyze(
         .par_iter()
         .map(|fault| analyze_site(model, &prepared.evaluator, fault, options, want_curves))
         .collect::<Result<_, _>>()?;
+    finite(&baseline_outcome, "fault-free baseline")?;
+    for site in &sites {
+        finite(&site.outcome, &format!("fault site '{}'", site.name))?;
+    }
     let warnings = sites
         .iter()
         .flat_map(|s| s.warnings.iter().cloned())
@@ -86,6 +90,20 @@ pub fn analyze(
         warnings,
         options: *options,
     })
+}
+
+/// Refuses an outcome with a NaN or infinite value or bound.
+fn finite(outcome: &Outcome, context: &str) -> Result<(), AnalysisError> {
+    for figure in super::outcome::Figure::ALL {
+        let e = outcome.get(figure);
+        if !e.value.is_finite() || !e.error.is_finite() {
+            return Err(AnalysisError::NotFinite {
+                context: context.to_string(),
+                figure: format!("{} = {} ± {}", figure.key(), e.value, e.error),
+            });
+        }
+    }
+    Ok(())
 }
 
 fn prefix(e: AnalysisError, what: &str) -> AnalysisError {

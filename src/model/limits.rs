@@ -25,5 +25,9 @@ pub const MAX_CORRELATIONS: usize = MAX_CHANNELS * (MAX_CHANNELS - 1) / 2;
 pub const MAX_NAME_LEN: usize = 64;
 /// Largest architecture file in bytes (real ones are a few kilobytes).
 pub const MAX_FILE_BYTES: usize = 4 * 1024 * 1024;
+/// Largest magnitude of any number in the file (mean, sigma, limit, gain, amplitude, FIT...).
+/// Beyond it squares and sums of the engine would overflow or lose every digit of the
+/// small terms; no physical unit needs more (rescale the unit instead).
+pub const MAX_MAGNITUDE: f64 = 1e12;
 /// Integers are exact in an f64 below this (2^53).
 pub(crate) const MAX_EXACT_INT: f64 = 9_007_199_254_740_992.0;

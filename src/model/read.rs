@@ -300,7 +300,30 @@ fn type_error(sink: &mut Sink<'_>, node: &Node, key: &str, expected: &str, examp
 /// A finite number (TOML integer or float).
 fn num(sink: &mut Sink<'_>, node: &Node, key: &str, example: &str) -> Option<Sp<f64>> {
     match &node.value {
-        Value::Int(Some(i)) => Some(sp(*i as f64, node, key)),
+        Value::Int(Some(i)) if (*i as f64).abs() <= limits::MAX_MAGNITUDE => {
+            Some(sp(*i as f64, node, key))
+        }
+        Value::Float(x) if x.is_finite() && x.abs() <= limits::MAX_MAGNITUDE => {
+            Some(sp(*x, node, key))
+        }
+        Value::Int(Some(_)) | Value::Float(_) if value_is_finite(&node.value) => {
+            let shown = match &node.value {
+                Value::Int(Some(i)) => i.to_string(),
+                Value::Float(x) => format!("{x:e}"),
+                _ => String::new(),
+            };
+            sink.error(
+                node.span,
+                key,
+                format!(
+                    "{shown} is larger in magnitude than the limit of {:e} for any number \
+                     of an architecture file (beyond it the computation would lose its digits)",
+                    limits::MAX_MAGNITUDE
+                ),
+                "choose a larger unit so that the numbers stay below the limit",
+            );
+            None
+        }
         Value::Int(None) => {
             sink.error(
                 node.span,
@@ -310,7 +333,6 @@ fn num(sink: &mut Sink<'_>, node: &Node, key: &str, example: &str) -> Option<Sp<
             );
             None
         }
-        Value::Float(x) if x.is_finite() => Some(sp(*x, node, key)),
         Value::Float(x) => {
             let s = sp(*x, node, key);
             s.error(
@@ -324,6 +346,14 @@ fn num(sink: &mut Sink<'_>, node: &Node, key: &str, example: &str) -> Option<Sp<
             type_error(sink, node, key, "a number", example);
             None
         }
+    }
+}
+
+fn value_is_finite(value: &Value) -> bool {
+    match value {
+        Value::Int(Some(_)) => true,
+        Value::Float(x) => x.is_finite(),
+        _ => false,
     }
 }
 
