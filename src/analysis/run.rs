@@ -78,10 +78,18 @@ pub fn analyze(
     for site in &sites {
         finite(&site.outcome, &format!("fault site '{}'", site.name))?;
     }
-    let warnings = sites
+    let mut warnings: Vec<String> = sites
         .iter()
         .flat_map(|s| s.warnings.iter().cloned())
         .collect();
+    warnings.extend(residual_accuracy_warning(&baseline_outcome, "fault-free baseline", options));
+    for site in &sites {
+        warnings.extend(residual_accuracy_warning(
+            &site.outcome,
+            &format!("fault site '{}'", site.name),
+            options,
+        ));
+    }
     Ok(Analysis {
         baseline: baseline_outcome,
         metrics: metrics(&sites),
@@ -89,6 +97,27 @@ pub fn analyze(
         cells: prepared.cells.cells.len(),
         warnings,
         options: *options,
+    })
+}
+
+/// Largest relative error bound of a residual `p_vu` reported without a warning.
+pub const RESIDUAL_REL_WARN: f64 = 0.1;
+
+/// A warning when the residual is known only to the absolute tolerance (a residual far
+/// below `polytope_abs`): the figure and its bound hold, but not to a relative accuracy.
+fn residual_accuracy_warning(
+    outcome: &Outcome,
+    context: &str,
+    options: &AnalysisOptions,
+) -> Option<String> {
+    let p = outcome.p_vu;
+    (p.error > RESIDUAL_REL_WARN * p.value && p.error > 0.0).then(|| {
+        format!(
+            "{context}: the residual p_vu = {:.3e} is known only to ± {:.1e}, the absolute \
+             tolerance of the engine ({:.0e}); its relative accuracy is not assured (ask a \
+             smaller polytope_abs and amplitude_abs of the analysis options)",
+            p.value, p.error, options.polytope_abs
+        )
     })
 }
 

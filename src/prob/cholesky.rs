@@ -3,8 +3,10 @@
 //! `Sigma = L L^T` with `L` of size `n x r`, `r` the numerical rank. At every step the
 //! largest remaining diagonal entry of the Schur complement is the pivot (complete
 //! diagonal pivoting, Higham 2002, *Accuracy and Stability of Numerical Algorithms*,
-//! sec. 10.3); the factorisation stops when that entry falls below
-//! [`tolerance::CHOLESKY_PIVOT_REL`] times the largest diagonal entry of `Sigma`. What is
+//! sec. 10.3) among the coordinates still random: those whose remaining (conditional)
+//! variance exceeds [`tolerance::CHOLESKY_PIVOT_REL`] times their own variance in `Sigma`,
+//! so that coordinates of very different scales (sigmas of 1e-6 and 1e6) are all kept;
+//! the factorisation stops when no coordinate is left. What is
 //! left (the Schur complement) must then be zero up to rounding, otherwise the matrix is
 //! not positive semi-definite.
 
@@ -60,7 +62,12 @@ pub fn pivoted(cov: &[f64], n: usize) -> Result<Factor, ProbError> {
             });
         }
     }
-    let pivot_tol = tolerance::CHOLESKY_PIVOT_REL * max_diag;
+    // Each coordinate is measured against its own variance, not the largest one: a channel
+    // of sigma 1e-6 beside one of sigma 1e6 is still random (its pivot is compared with
+    // its own 1e-12, not with 1e12).
+    let own_tol: Vec<f64> = (0..n)
+        .map(|i| tolerance::CHOLESKY_PIVOT_REL * cov[i * n + i].max(0.0))
+        .collect();
     let mut schur = cov.to_vec();
     let mut done = vec![false; n];
     // Columns of L, each of length n (original order).
@@ -69,13 +76,14 @@ pub fn pivoted(cov: &[f64], n: usize) -> Result<Factor, ProbError> {
         let mut pivot = None;
         let mut best = f64::NEG_INFINITY;
         for (i, &d) in done.iter().enumerate() {
-            if !d && schur[i * n + i] > best {
-                best = schur[i * n + i];
+            let s = schur[i * n + i];
+            if !d && s > own_tol[i] && s > 0.0 && s > best {
+                best = s;
                 pivot = Some(i);
             }
         }
         let Some(q) = pivot else { break };
-        if best.is_nan() || best <= pivot_tol || best <= 0.0 {
+        if best.is_nan() {
             break;
         }
         let root = best.sqrt();
@@ -181,6 +189,17 @@ mod tests {
         for (a, b) in reconstruct(&f).iter().zip(cov.iter()) {
             assert!((a - b).abs() < 1e-14);
         }
+    }
+
+    #[test]
+    fn coordinates_of_very_different_scales_are_all_random() {
+        // Independent sigmas 1e-6 and 1e6 (variances 1e-12 and 1e12): rank 2, and the
+        // small one keeps its variance (regression: it was dropped against the large one).
+        let cov = [1e-12, 0.0, 0.0, 1e12];
+        let f = pivoted(&cov, 2).unwrap();
+        assert_eq!(f.rank, 2);
+        let r = reconstruct(&f);
+        assert!((r[0] - 1e-12).abs() < 1e-26 && (r[3] - 1e12).abs() < 1e-2);
     }
 
     #[test]

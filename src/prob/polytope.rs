@@ -6,7 +6,8 @@
 //! 1. `Sigma = L L^T` by a pivoted Cholesky factor of rank `r` ([`cholesky`]), so
 //!    `x = mu + L z` with `z` standard normal in `r` dimensions.
 //! 2. Row `a_i` becomes `b_i = a_i L` with its band shifted by `a_i . mu`. A row whose
-//!    random part vanishes (relative [`tolerance::DEGENERATE_ROW_REL`]) is deterministic:
+//!    random terms cancel (relative [`tolerance::DEGENERATE_ROW_REL`] to the sum of their
+//!    sizes, so rows of any scale are judged alike) is deterministic:
 //!    it contributes exactly 1 or 0 by [`Band::contains`] on `a_i . mu`, open ends honoured.
 //! 3. Random rows are normalised to unit length and parallel or antiparallel rows merged
 //!    ([`tolerance::PARALLEL_ROW_ABS`]), intersecting their bands.
@@ -291,8 +292,6 @@ impl Default for Options {
 pub struct Gaussian {
     mean: Vec<f64>,
     factor: Factor,
-    /// Largest row norm of the factor (the largest standard deviation).
-    scale: f64,
 }
 
 impl Gaussian {
@@ -365,13 +364,9 @@ impl Gaussian {
             }
         }
         let factor = cholesky::pivoted(&flat, n)?;
-        let scale = (0..n)
-            .map(|i| factor.row(i).iter().map(|v| v * v).sum::<f64>().sqrt())
-            .fold(0.0, f64::max);
         Ok(Self {
             mean: mean.to_vec(),
             factor,
-            scale,
         })
     }
 
@@ -712,19 +707,22 @@ impl Gaussian {
             let mut b = vec![0.0; r];
             let mut shift = 0.0;
             let mut shift_abs = 0.0;
+            // sum of |a_i| sd_i: the size of the random terms before they cancel
+            let mut terms = 0.0;
             for (i, &ai) in a.iter().enumerate() {
                 if ai == 0.0 {
                     continue;
                 }
                 shift += ai * self.mean[i];
                 shift_abs += (ai * self.mean[i]).abs();
-                for (bk, &lk) in b.iter_mut().zip(self.factor.row(i).iter()) {
+                let row = self.factor.row(i);
+                terms += ai.abs() * row.iter().map(|v| v * v).sum::<f64>().sqrt();
+                for (bk, &lk) in b.iter_mut().zip(row.iter()) {
                     *bk += ai * lk;
                 }
             }
-            let a_norm = a.iter().map(|v| v * v).sum::<f64>().sqrt();
             let b_norm = b.iter().map(|v| v * v).sum::<f64>().sqrt();
-            if b_norm <= tolerance::DEGENERATE_ROW_REL * a_norm * self.scale || b_norm == 0.0 {
+            if b_norm <= tolerance::DEGENERATE_ROW_REL * terms || b_norm == 0.0 {
                 if band.contains(shift) {
                     continue;
                 }

@@ -8,12 +8,13 @@ pub const ROUNDING_REL: f64 = 64.0 * f64::EPSILON;
 /// for each CDF value; a rectangle combines up to four).
 pub const BIVARIATE_ABS: f64 = 5e-15;
 
-/// A pivot of the Cholesky factor below this fraction of the largest diagonal entry is
-/// treated as zero: the direction carries no randomness.
+/// A pivot of the Cholesky factor below this fraction of its own coordinate's variance is
+/// treated as zero: the coordinate carries no randomness beyond the others.
 pub const CHOLESKY_PIVOT_REL: f64 = 1e-12;
 
-/// A constraint row whose random part has a norm below this fraction of its full norm is
-/// treated as deterministic.
+/// A constraint row whose random part has a norm below this fraction of the sum of its
+/// terms' standard deviations (`sum |a_i| sd_i`) is treated as deterministic: the terms
+/// cancel to rounding.
 pub const DEGENERATE_ROW_REL: f64 = 1e-10;
 
 /// Two constraint rows whose unit directions agree to this much are merged into one.
