@@ -1,0 +1,133 @@
+//! Size limits: going past one gives an error that names the limit (and what to change),
+//! never a silent slow run. The limits are in src/model/limits.rs and, for the
+//! decomposition, `AnalysisOptions::max_polytopes` and `analysis::cells::MAX_CELLS`.
+//! (The limit on sweep points belongs to `concord sweep`.)
+
+use concord::analysis::{AnalysisError, AnalysisOptions, analyze};
+use concord::model::{limits, load_str};
+
+fn channels(n: usize) -> String {
+    (0..n)
+        .map(|i| format!("[channels.c{i}]\nmean = 0.0\nsigma = 1.0\n\n"))
+        .collect()
+}
+
+fn names(n: usize) -> String {
+    (0..n)
+        .map(|i| format!("\"c{i}\""))
+        .collect::<Vec<_>>()
+        .join(", ")
+}
+
+fn file(n: usize, output: &str, checks: &str) -> String {
+    format!(
+        "name = \"limits\"\nunit = \"mm\"\n\n{}[output]\n{output}\n\n{checks}\n[safety]\nlimit = 2.0\n",
+        channels(n)
+    )
+}
+
+fn first_error(text: &str) -> String {
+    match load_str(text, "limits.toml") {
+        Ok(_) => panic!("the file was accepted"),
+        Err(e) => e.to_string(),
+    }
+}
+
+#[test]
+fn too_many_channels_names_the_limit() {
+    let n = limits::MAX_CHANNELS + 1;
+    let text = file(
+        n,
+        &format!("kind = \"mean\"\nof = [{}]", names(n)),
+        "[checks.k]\nkind = \"difference\"\nof = [\"c0\", \"c1\"]\nlimit = 1.0\n",
+    );
+    let e = first_error(&text);
+    assert!(
+        e.contains(&format!("more than the limit of {}", limits::MAX_CHANNELS)),
+        "{e}"
+    );
+    // at the limit it loads
+    let n = limits::MAX_CHANNELS;
+    let text = file(
+        n,
+        &format!("kind = \"mean\"\nof = [{}]", names(n)),
+        "[checks.k]\nkind = \"difference\"\nof = [\"c0\", \"c1\"]\nlimit = 1.0\n",
+    );
+    assert!(load_str(&text, "limits.toml").is_ok());
+}
+
+#[test]
+fn too_many_checks_names_the_limit() {
+    let checks: String = (0..=limits::MAX_CHECKS)
+        .map(|k| format!("[checks.k{k}]\nkind = \"difference\"\nof = [\"c0\", \"c1\"]\nlimit = 1.0\n\n"))
+        .collect();
+    let e = first_error(&file(2, "kind = \"mean\"\nof = [\"c0\", \"c1\"]", &checks));
+    assert!(
+        e.contains(&format!("more than the limit of {}", limits::MAX_CHECKS)),
+        "{e}"
+    );
+}
+
+#[test]
+fn too_many_pieces_names_the_limit() {
+    // The median of eight channels has 8! = 40320 orderings, more than MAX_PIECES = 5040.
+    let text = file(
+        8,
+        &format!("kind = \"median\"\nof = [{}]", names(8)),
+        "[checks.k]\nkind = \"difference\"\nof = [\"c0\", \"c1\"]\nlimit = 1.0\n",
+    );
+    let e = first_error(&text);
+    assert!(e.contains(&limits::MAX_PIECES.to_string()), "{e}");
+}
+
+#[test]
+fn too_many_polytopes_names_the_limit() {
+    // The median of three with three difference checks decomposes into more than ten
+    // polytopes per figure: with max_polytopes = 10 the analysis must refuse and say so.
+    let checks = "[checks.ab]\nkind = \"difference\"\nof = [\"c0\", \"c1\"]\nlimit = 1.0\n\n\
+                  [checks.bc]\nkind = \"difference\"\nof = [\"c1\", \"c2\"]\nlimit = 1.0\n";
+    let text = file(3, &format!("kind = \"median\"\nof = [{}]", names(3)), checks);
+    let arch = load_str(&text, "limits.toml").expect("valid");
+    let options = AnalysisOptions {
+        max_polytopes: 10,
+        ..AnalysisOptions::default()
+    };
+    match analyze(&arch.model, &options, false) {
+        Err(e @ AnalysisError::TooLarge { limit: 10, .. }) => {
+            assert!(e.to_string().contains("more than the limit of 10"), "{e}");
+        }
+        other => panic!("expected TooLarge, got {other:?}"),
+    }
+    // with the default limit it runs
+    assert!(analyze(&arch.model, &AnalysisOptions::default(), false).is_ok());
+}
+
+#[test]
+fn numbers_beyond_the_magnitude_limit_are_refused() {
+    let text = file(
+        2,
+        "kind = \"mean\"\nof = [\"c0\", \"c1\"]",
+        "[checks.k]\nkind = \"difference\"\nof = [\"c0\", \"c1\"]\nlimit = 2e12\n",
+    );
+    let e = first_error(&text);
+    assert!(e.contains("checks.k.limit"), "{e}");
+    assert!(e.contains("limit of 1e12"), "{e}");
+    // 1e12 itself is allowed
+    let text = text.replace("2e12", "1e12");
+    assert!(load_str(&text, "limits.toml").is_ok());
+}
+
+#[test]
+fn files_beyond_the_size_limit_are_refused() {
+    let mut text = file(
+        2,
+        "kind = \"mean\"\nof = [\"c0\", \"c1\"]",
+        "[checks.k]\nkind = \"difference\"\nof = [\"c0\", \"c1\"]\nlimit = 1.0\n",
+    );
+    text.push_str(&"# padding\n".repeat(limits::MAX_FILE_BYTES / 10 + 1));
+    let e = first_error(&text);
+    assert!(
+        e.contains(&format!("more than the limit of {}", limits::MAX_FILE_BYTES)),
+        "{e}"
+    );
+}
