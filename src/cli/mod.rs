@@ -1,7 +1,8 @@
 //! The command line: argument parsing ([`args`]) and one small file per command. Commands
 //! only read arguments, call the library and print; the work is done in the layers below.
 //!
-//! Exit codes: 0 success; 1 a computation failed or the Monte Carlo cross-check disagreed;
+//! Exit codes: 0 success; 1 a computation failed, the Monte Carlo cross-check disagreed or a
+//! selftest case failed;
 //! 2 invalid input (unreadable or invalid architecture file, bad option).
 
 pub mod analyze;
