@@ -4,12 +4,14 @@
 //! - [`table`]: the table for a terminal, 100 columns wide.
 //! - [`csv`]: one row per scenario, for spreadsheets.
 //! - [`format`]: number formatting shared by the text formats.
+//! - [`plot`]: line charts as SVG (curves over sigma, sweeps, tuning).
 //! - [`cautions`]: the cautions every report carries.
 
 pub mod cautions;
 pub mod csv;
 pub mod format;
 pub mod json;
+pub mod plot;
 pub mod table;
 
 use crate::analysis::Analysis;
