@@ -7,6 +7,10 @@
 pub mod analyze;
 pub mod args;
 pub mod check;
+pub mod compare;
+pub mod sweep;
+pub mod tune;
+pub mod values;
 
 use std::process::ExitCode;
 
@@ -59,6 +63,9 @@ pub fn run() -> ExitCode {
     let result = match &cli.command {
         Command::Check(a) => check::run(a),
         Command::Analyze(a) => analyze::run(a),
+        Command::Sweep(a) => sweep::run(a),
+        Command::Tune(a) => tune::run(a),
+        Command::Compare(a) => compare::run(a),
     };
     match result {
         Ok(text) => {
