@@ -103,12 +103,20 @@ fn parameter_sweep(args: &SweepArgs, vary: &str) -> Result<String, Failure> {
         )
         .unwrap_or_else(|_| ProgressStyle::default_bar()),
     );
-    let mut plot = SweepPicture::new(&plan, &sites, args.site.as_deref())
-        .map_err(|e| Failure::input(format!("concord sweep: {e}")))?;
+    // The picture keeps two numbers per point and line, and only when one is asked for.
+    let mut plot = match &args.plot {
+        Some(_) => Some(
+            SweepPicture::new(&plan, &sites, args.site.as_deref())
+                .map_err(|e| Failure::input(format!("concord sweep: {e}")))?,
+        ),
+        None => None,
+    };
     let options = AnalysisOptions::default();
     let outcome = sweep(&arch.source, &arch.path, &plan, &options, |row| {
         writer.row(&row).map_err(Stop::Write)?;
-        plot.add(&row);
+        if let Some(picture) = plot.as_mut() {
+            picture.add(&row);
+        }
         progress.inc(1);
         Ok::<(), Stop>(())
     });
@@ -121,8 +129,8 @@ fn parameter_sweep(args: &SweepArgs, vary: &str) -> Result<String, Failure> {
         Err(Stop::Write(e)) => return Err(write_failure(e)),
     }
     writer.finish().map_err(write_failure)?;
-    if let Some(path) = &args.plot {
-        write_svg(path, plot.svg(&arch.model.unit))?;
+    if let (Some(path), Some(picture)) = (&args.plot, &plot) {
+        write_svg(path, picture.svg(&arch.model.unit))?;
     }
     Ok(String::new())
 }
