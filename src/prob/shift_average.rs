@@ -95,8 +95,7 @@ pub fn mean_over_uniform_shift(
     b: f64,
 ) -> Option<Estimate> {
     let n = gaussian.dim();
-    if gaussian.rank() != 1 || direction.len() != n || !(a < b) || !a.is_finite() || !b.is_finite()
-    {
+    if gaussian.rank() != 1 || direction.len() != n || a >= b || !a.is_finite() || !b.is_finite() {
         return None;
     }
     let factor = gaussian.factor();
