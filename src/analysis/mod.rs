@@ -8,10 +8,15 @@
 //! - [`metrics`]: SPFM, LFM, SFF, residual and latent FIT, ASIL targets.
 //! - [`run`]: the whole exact analysis of a file.
 //! - [`montecarlo`]: plain sampling through separate code, for verification.
+//! - [`sweep`]: the analysis over values of one or two keys of the file, and one site's
+//!   figures over the spread of its fault amplitude.
+//! - [`tune`]: the widest comparator band that meets a coverage target.
+//! - [`compare`]: several architectures reduced to one line each.
 //! - [`outcome`]: the four probabilities and the coverage figures derived from them.
 //! - [`selftest`]: the built-in validation suite against outside references.
 
 pub mod cells;
+pub mod compare;
 pub mod error;
 pub mod evaluate;
 pub mod metrics;
@@ -22,6 +27,8 @@ pub mod run;
 pub mod scenario;
 pub mod selftest;
 pub mod site;
+pub mod sweep;
+pub mod tune;
 
 pub use error::AnalysisError;
 pub use options::AnalysisOptions;

@@ -9,6 +9,10 @@ pub mod analyze;
 pub mod args;
 pub mod check;
 pub mod selftest;
+pub mod compare;
+pub mod sweep;
+pub mod tune;
+pub mod values;
 
 use std::io::Write as _;
 use std::process::ExitCode;
@@ -63,6 +67,9 @@ pub fn run() -> ExitCode {
         Command::Check(a) => check::run(a),
         Command::Analyze(a) => analyze::run(a),
         Command::Selftest(a) => selftest::run(a),
+        Command::Sweep(a) => sweep::run(a),
+        Command::Tune(a) => tune::run(a),
+        Command::Compare(a) => compare::run(a),
     };
     match result {
         Ok(text) => {

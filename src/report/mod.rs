@@ -5,14 +5,20 @@
 //! - [`csv`]: one row per scenario, for spreadsheets.
 //! - [`selftest`]: the qualification summary of `concord selftest` (table and JSON).
 //! - [`format`]: number formatting shared by the text formats.
+//! - [`plot`]: line charts as SVG (curves over sigma, sweeps, tuning).
 //! - [`cautions`]: the cautions every report carries.
+//! - [`sweep`], [`tune`], [`compare`]: the outputs of the design-exploration commands.
 
 pub mod cautions;
+pub mod compare;
 pub mod csv;
 pub mod format;
 pub mod json;
 pub mod selftest;
+pub mod plot;
+pub mod sweep;
 pub mod table;
+pub mod tune;
 
 use crate::analysis::Analysis;
 use crate::analysis::montecarlo::Agreement;
