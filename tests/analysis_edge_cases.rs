@@ -124,11 +124,7 @@ fn run(name: &str) -> concord::analysis::Analysis {
 }
 
 /// Analyses one case and holds every stored figure to its reference.
-fn run_with(
-    name: &str,
-    options: &AnalysisOptions,
-    relative: bool,
-) -> concord::analysis::Analysis {
+fn run_with(name: &str, options: &AnalysisOptions, relative: bool) -> concord::analysis::Analysis {
     let c = case(name);
     eprintln!("{}: {}", c.name, c.covers);
     let arch = load_str(&c.toml, &format!("{name}.toml")).expect("the case loads");
@@ -249,4 +245,3 @@ fn limits_far_in_the_tails() {
 fn full_scale_a_million_times_the_noise() {
     run("full_scale_1e6_noise");
 }
-

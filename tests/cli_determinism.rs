@@ -41,7 +41,14 @@ fn exact_json_is_identical_for_one_and_two_threads() {
 fn monte_carlo_json_is_identical_for_one_and_two_threads() {
     let file = EXAMPLES[0];
     let args = [
-        "analyze", file, "--format", "json", "--method", "montecarlo", "--samples", "100000",
+        "analyze",
+        file,
+        "--format",
+        "json",
+        "--method",
+        "montecarlo",
+        "--samples",
+        "100000",
     ];
     assert!(concord(&args, "1") == concord(&args, "2"));
     let args = ["analyze", file, "--format", "json", "--verify", "50000"];

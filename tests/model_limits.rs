@@ -59,7 +59,9 @@ fn too_many_channels_names_the_limit() {
 #[test]
 fn too_many_checks_names_the_limit() {
     let checks: String = (0..=limits::MAX_CHECKS)
-        .map(|k| format!("[checks.k{k}]\nkind = \"difference\"\nof = [\"c0\", \"c1\"]\nlimit = 1.0\n\n"))
+        .map(|k| {
+            format!("[checks.k{k}]\nkind = \"difference\"\nof = [\"c0\", \"c1\"]\nlimit = 1.0\n\n")
+        })
         .collect();
     let e = first_error(&file(2, "kind = \"mean\"\nof = [\"c0\", \"c1\"]", &checks));
     assert!(
@@ -86,7 +88,11 @@ fn too_many_polytopes_names_the_limit() {
     // polytopes per figure: with max_polytopes = 10 the analysis must refuse and say so.
     let checks = "[checks.ab]\nkind = \"difference\"\nof = [\"c0\", \"c1\"]\nlimit = 1.0\n\n\
                   [checks.bc]\nkind = \"difference\"\nof = [\"c1\", \"c2\"]\nlimit = 1.0\n";
-    let text = file(3, &format!("kind = \"median\"\nof = [{}]", names(3)), checks);
+    let text = file(
+        3,
+        &format!("kind = \"median\"\nof = [{}]", names(3)),
+        checks,
+    );
     let arch = load_str(&text, "limits.toml").expect("valid");
     let options = AnalysisOptions {
         max_polytopes: 10,
@@ -127,7 +133,10 @@ fn files_beyond_the_size_limit_are_refused() {
     text.push_str(&"# padding\n".repeat(limits::MAX_FILE_BYTES / 10 + 1));
     let e = first_error(&text);
     assert!(
-        e.contains(&format!("more than the limit of {}", limits::MAX_FILE_BYTES)),
+        e.contains(&format!(
+            "more than the limit of {}",
+            limits::MAX_FILE_BYTES
+        )),
         "{e}"
     );
 }

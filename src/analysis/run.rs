@@ -82,7 +82,11 @@ pub fn analyze(
         .iter()
         .flat_map(|s| s.warnings.iter().cloned())
         .collect();
-    warnings.extend(residual_accuracy_warning(&baseline_outcome, "fault-free baseline", options));
+    warnings.extend(residual_accuracy_warning(
+        &baseline_outcome,
+        "fault-free baseline",
+        options,
+    ));
     for site in &sites {
         warnings.extend(residual_accuracy_warning(
             &site.outcome,

@@ -8,8 +8,8 @@
 pub mod analyze;
 pub mod args;
 pub mod check;
-pub mod selftest;
 pub mod compare;
+pub mod selftest;
 pub mod sweep;
 pub mod tune;
 pub mod values;

@@ -184,8 +184,8 @@ pub fn render_table(suite: &SelfTest) -> String {
         }
         let _ = writeln!(
             out,
-            "  {:<40} {:>13} {:>13} {:>9} {:>9}  {}",
-            "case", "computed", "reference", "error", "bound", "result"
+            "  {:<40} {:>13} {:>13} {:>9} {:>9}  result",
+            "case", "computed", "reference", "error", "bound"
         );
         for c in cases {
             let computed = c.computed.map_or("failed".to_string(), short);

@@ -224,8 +224,11 @@ fn box_probability(row: &PolytopeRow, tol: &Tolerance) -> Result<Estimate, crate
     gaussian.probability(&polytope, tol)
 }
 
+/// An integrand with its interval `[a, b]` and breakpoints.
+pub type Integrand = (fn(f64) -> f64, f64, f64, Vec<f64>);
+
 /// The integrand of a stored quadrature case, with its interval and breakpoints.
-pub fn integrand(name: &str) -> Option<(fn(f64) -> f64, f64, f64, Vec<f64>)> {
+pub fn integrand(name: &str) -> Option<Integrand> {
     fn exp_sin50(x: f64) -> f64 {
         (-x).exp() * (50.0 * x).sin()
     }

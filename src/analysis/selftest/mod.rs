@@ -198,6 +198,9 @@ pub fn reference_data() -> Result<ReferenceData, AnalysisError> {
     serde_json::from_str(REFERENCE_JSON).map_err(|e| AnalysisError::ReferenceData(e.to_string()))
 }
 
+/// One group of cases: evaluated from the reference data.
+pub type Group = fn(&ReferenceData) -> Vec<Case>;
+
 /// Runs the whole suite. A case that cannot be computed is a failed case, not an error.
 ///
 /// # Errors
@@ -205,15 +208,15 @@ pub fn reference_data() -> Result<ReferenceData, AnalysisError> {
 pub fn run() -> Result<SelfTest, AnalysisError> {
     let data = reference_data()?;
     // Groups run in parallel; each is deterministic and the order of the result is fixed.
-    let jobs: Vec<Box<dyn Fn(&ReferenceData) -> Vec<Case> + Sync>> = vec![
-        Box::new(engine::normal_cases),
-        Box::new(engine::bivariate_cases),
-        Box::new(engine::sheppard_cases),
-        Box::new(engine::polytope_cases),
-        Box::new(engine::quadrature_cases),
-        Box::new(whole::closed_form_cases),
-        Box::new(whole::reference_table_cases),
-        Box::new(whole::monte_carlo_cases),
+    let jobs: [Group; 8] = [
+        engine::normal_cases,
+        engine::bivariate_cases,
+        engine::sheppard_cases,
+        engine::polytope_cases,
+        engine::quadrature_cases,
+        whole::closed_form_cases,
+        whole::reference_table_cases,
+        whole::monte_carlo_cases,
     ];
     let cases: Vec<Vec<Case>> = jobs.par_iter().map(|job| job(&data)).collect();
     Ok(SelfTest {
