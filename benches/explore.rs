@@ -25,7 +25,7 @@ fn tuning(c: &mut Criterion) {
     let options = AnalysisOptions::default();
     let request = TuneRequest::new(Some("ab".into()), CoverageFigure::DcAllDangerous, 0.95);
     c.bench_function("tune to dc_all_dangerous 95 %, two channels", |b| {
-        b.iter(|| tune(FILE, "kestrel_swa2_mean.toml", &request, &options).unwrap())
+        b.iter(|| tune(FILE, "kestrel_swa2_mean.toml", &request, &options, &|| {}).unwrap())
     });
 }
 

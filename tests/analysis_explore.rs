@@ -218,7 +218,14 @@ fn tuning_finds_the_closed_form_limit_and_a_slightly_wider_one_fails() {
     let text = file(1.5, 2.0);
     let target = 0.95;
     let request = TuneRequest::new(Some("ab".into()), CoverageFigure::DcAllDangerous, target);
-    let result = tune(&text, "closed.toml", &request, &AnalysisOptions::default()).unwrap();
+    let result = tune(
+        &text,
+        "closed.toml",
+        &request,
+        &AnalysisOptions::default(),
+        &|| {},
+    )
+    .unwrap();
     let chosen = result.chosen.as_ref().expect("a limit meets 95 %");
     let limit = chosen.limits[0].1;
     assert_eq!(chosen.limits[0].0, "checks.ab.limit");
@@ -256,7 +263,14 @@ fn a_wider_band_never_raises_coverage_nor_false_alarms() {
     // scale, both the coverage and the false-alarm probability fall.
     let text = file(1.5, 2.0);
     let request = TuneRequest::new(None, CoverageFigure::DcAllDangerous, 0.9);
-    let result = tune(&text, "closed.toml", &request, &AnalysisOptions::default()).unwrap();
+    let result = tune(
+        &text,
+        "closed.toml",
+        &request,
+        &AnalysisOptions::default(),
+        &|| {},
+    )
+    .unwrap();
     for pair in result.curve.windows(2) {
         let (a, b) = (&pair[0], &pair[1]);
         assert!(a.scale < b.scale);
@@ -273,7 +287,14 @@ fn an_unreachable_target_is_said_plainly_with_the_best_reachable() {
     // range (0.15) leaves P(|d| <= 0.15) about 0.14: dc_all_dangerous cannot reach 0.999.
     let text = file(1.5, 2.0);
     let request = TuneRequest::new(Some("ab".into()), CoverageFigure::DcAllDangerous, 0.999);
-    let result = tune(&text, "closed.toml", &request, &AnalysisOptions::default()).unwrap();
+    let result = tune(
+        &text,
+        "closed.toml",
+        &request,
+        &AnalysisOptions::default(),
+        &|| {},
+    )
+    .unwrap();
     assert!(result.chosen.is_none());
     let best = &result.best_reachable;
     let expected = 1.0 - outside(sd_y(SF), 2.0) * (1.0 - outside(sd_d(), best.limits[0].1));

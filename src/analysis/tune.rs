@@ -241,7 +241,8 @@ fn overrides_at(checks: &[TunedCheck], k: f64) -> Vec<(String, f64)> {
     checks.iter().flat_map(|c| c.overrides(k)).collect()
 }
 
-/// Tunes the checks of the file `text` (named `path` in messages) to the request.
+/// Tunes the checks of the file `text` (named `path` in messages) to the request;
+/// `progress` is called after every analysis (for a progress display).
 ///
 /// # Errors
 /// [`AnalysisError::InvalidOption`] for a bad request (unknown check or site, a target
@@ -251,6 +252,7 @@ pub fn tune(
     path: &str,
     request: &TuneRequest,
     options: &AnalysisOptions,
+    progress: &(dyn Fn() + Sync),
 ) -> Result<TuneResult, AnalysisError> {
     let bad = |option: &str, message: String| AnalysisError::InvalidOption {
         option: option.into(),
@@ -292,6 +294,7 @@ pub fn tune(
     let at = |k: f64| -> Result<TradeOffPoint, AnalysisError> {
         let overrides = overrides_at(&checks, k);
         let analysis = analyze_with_overrides(text, path, &overrides, options)?;
+        progress();
         point_of(k, overrides, &analysis, request)
     };
     let grid = super::sweep::Axis::log("scale", lo, hi, request.curve_points)?.values;

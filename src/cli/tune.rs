@@ -1,5 +1,7 @@
 //! `concord tune FILE --target-dc X [--check NAME] [--site SITE]...`.
 
+use indicatif::{ProgressBar, ProgressStyle};
+
 use crate::analysis::AnalysisError;
 use crate::analysis::AnalysisOptions;
 use crate::analysis::tune::{CoverageFigure, TuneRequest, tune};
@@ -21,13 +23,22 @@ pub fn run(args: &TuneArgs) -> Result<String, Failure> {
     request.sites = args.site.clone();
     request.scale_range = values::range(&args.scale, "--scale")?;
     request.curve_points = args.points;
-    let result = tune(
+    // The curve's points, then the bisection (about a dozen more): shown on a terminal only.
+    let progress = ProgressBar::new(args.points as u64);
+    progress.set_style(
+        ProgressStyle::with_template("{bar:40} {pos} analyses, {elapsed} elapsed")
+            .unwrap_or_else(|_| ProgressStyle::default_bar()),
+    );
+    let tick = || progress.inc(1);
+    let outcome = tune(
         &arch.source,
         &arch.path,
         &request,
         &AnalysisOptions::default(),
-    )
-    .map_err(|e| match e {
+        &tick,
+    );
+    progress.finish_and_clear();
+    let result = outcome.map_err(|e| match e {
         AnalysisError::InvalidOption { .. } | AnalysisError::Model { .. } => {
             Failure::input(format!("concord tune: {e}"))
         }

@@ -30,47 +30,13 @@ fn coverage_of(row: &ArchitectureSummary, site: &str, all_dangerous: bool) -> Op
     })
 }
 
-/// The table for a terminal.
-pub fn table(rows: &[ArchitectureSummary], all_dangerous: bool) -> String {
-    let sites = site_columns(rows);
-    let figure = if all_dangerous {
-        "dc_all_dangerous"
-    } else {
-        "dc"
-    };
-    let mut head: Vec<String> = vec!["architecture".into(), "ch".into(), "checks".into()];
-    head.extend(sites.iter().map(|s| format!("{s} %")));
-    head.extend(
-        [
-            "residual FIT",
-            "SPFM %",
-            "LFM %",
-            "ASIL",
-            "nuisance alarm",
-            "cells",
-            "seconds",
-        ]
-        .map(String::from),
-    );
-    let mut body: Vec<Vec<String>> = Vec::new();
-    for r in rows {
-        let mut line = vec![r.name.clone(), r.channels.to_string(), r.checks.to_string()];
-        for s in &sites {
-            line.push(coverage_of(r, s, all_dangerous).map_or("-".into(), percent_floor));
-        }
-        line.push(fit(r.metrics.residual_fit.value));
-        line.push(percent_floor(r.metrics.spfm.value));
-        line.push(percent_floor(r.metrics.lfm.value));
-        line.push(asil_reached(r).label().to_string());
-        line.push(probability(r.nuisance_alarm.value));
-        line.push(r.cells.to_string());
-        line.push(format!("{:.3}", r.seconds));
-        body.push(line);
-    }
+/// Lays out rows of cells in columns (first column left-aligned, the others right-aligned)
+/// with a rule under the header.
+fn columns(head: &[String], body: &[Vec<String>]) -> String {
     let widths: Vec<usize> = (0..head.len())
         .map(|c| {
-            std::iter::once(&head)
-                .chain(body.iter())
+            std::iter::once(head)
+                .chain(body.iter().map(Vec::as_slice))
                 .map(|l| l.get(c).map_or(0, |s| s.chars().count()))
                 .max()
                 .unwrap_or(0)
@@ -81,7 +47,7 @@ pub fn table(rows: &[ArchitectureSummary], all_dangerous: bool) -> String {
             .enumerate()
             .map(|(i, cell)| {
                 let w = widths.get(i).copied().unwrap_or(0);
-                if i == 0 {
+                if i <= 1 {
                     format!("{cell:<w$}")
                 } else {
                     format!("{cell:>w$}")
@@ -89,22 +55,91 @@ pub fn table(rows: &[ArchitectureSummary], all_dangerous: bool) -> String {
             })
             .collect::<Vec<_>>()
             .join("  ")
+            .trim_end()
+            .to_string()
     };
-    let mut out = format!(
-        "Architectures compared (coverage columns: worst-case {figure} per fault site, \
-         truncated to 0.01 %)\n\n"
-    );
-    out.push_str(&render(&head));
+    let mut out = render(head);
     out.push('\n');
     out.push_str(&"-".repeat(widths.iter().sum::<usize>() + 2 * widths.len().saturating_sub(1)));
     out.push('\n');
-    for l in &body {
+    for l in body {
         out.push_str(&render(l));
         out.push('\n');
     }
+    out
+}
+
+/// The tables for a terminal: one line per architecture with the metrics and costs, then
+/// the coverage of every fault site (a row per site name, a column per architecture, `-`
+/// where the architecture has no such site).
+pub fn table(rows: &[ArchitectureSummary], all_dangerous: bool) -> String {
+    let sites = site_columns(rows);
+    let figure = if all_dangerous {
+        "dc_all_dangerous"
+    } else {
+        "dc"
+    };
+    let head: Vec<String> = [
+        "#",
+        "architecture",
+        "ch",
+        "checks",
+        "lowest %",
+        "residual FIT",
+        "SPFM %",
+        "LFM %",
+        "ASIL",
+        "nuisance alarm",
+        "cells",
+        "seconds",
+    ]
+    .map(String::from)
+    .to_vec();
+    let body: Vec<Vec<String>> = rows
+        .iter()
+        .enumerate()
+        .map(|(i, r)| {
+            vec![
+                (i + 1).to_string(),
+                r.name.clone(),
+                r.channels.to_string(),
+                r.checks.to_string(),
+                r.lowest_coverage(all_dangerous)
+                    .map_or("-".into(), |e| percent_floor(e.value)),
+                fit(r.metrics.residual_fit.value),
+                percent_floor(r.metrics.spfm.value),
+                percent_floor(r.metrics.lfm.value),
+                asil_reached(r).label().to_string(),
+                probability(r.nuisance_alarm.value),
+                r.cells.to_string(),
+                format!("{:.3}", r.seconds),
+            ]
+        })
+        .collect();
+    let mut out = String::from("Architectures compared\n\n");
+    out.push_str(&columns(&head, &body));
+    let mut head: Vec<String> = vec!["fault site".into(), String::new()];
+    head.extend((1..=rows.len()).map(|i| format!("#{i}")));
+    let body: Vec<Vec<String>> = sites
+        .iter()
+        .map(|s| {
+            let mut line = vec![s.clone(), String::new()];
+            line.extend(
+                rows.iter()
+                    .map(|r| coverage_of(r, s, all_dangerous).map_or("-".into(), percent_floor)),
+            );
+            line
+        })
+        .collect();
+    out.push_str(&format!(
+        "\nWorst-case {figure} per fault site, % (truncated to 0.01; a site of the same name \
+         shares a row)\n\n"
+    ));
+    out.push_str(&columns(&head, &body));
     out.push_str(
-        "\nASIL: the highest level whose SPFM and LFM targets are both met (ISO 26262-5:2018 \
-         Tables 4 and 5, from memory); nuisance alarm: a check fires without a fault.\n\n",
+        "\nlowest: the lowest coverage over the sites; ASIL: the highest level whose SPFM and LFM \
+         targets are both met (ISO 26262-5:2018 Tables 4 and 5, from memory); nuisance alarm: a \
+         check fires without a fault; cells and seconds: the cost of the evaluation.\n\n",
     );
     for c in CAUTIONS {
         out.push_str(&format!("- {c}\n"));
