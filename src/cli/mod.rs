@@ -7,6 +7,8 @@
 pub mod analyze;
 pub mod args;
 pub mod check;
+pub mod demo;
+pub mod report;
 
 use std::process::ExitCode;
 
@@ -59,6 +61,8 @@ pub fn run() -> ExitCode {
     let result = match &cli.command {
         Command::Check(a) => check::run(a),
         Command::Analyze(a) => analyze::run(a),
+        Command::Report(a) => report::run(a),
+        Command::Demo(a) => demo::run(a),
     };
     match result {
         Ok(text) => {

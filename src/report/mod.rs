@@ -5,11 +5,17 @@
 //! - [`csv`]: one row per scenario, for spreadsheets.
 //! - [`format`]: number formatting shared by the text formats.
 //! - [`plot`]: line charts as SVG (curves over sigma, sweeps, tuning).
+//! - [`diagram`]: the architecture drawn from the model graph, as SVG.
+//! - [`html`]: the self-contained HTML report for a safety case.
+//! - [`date`]: the report date (given, `SOURCE_DATE_EPOCH`, or today in UTC).
 //! - [`cautions`]: the cautions every report carries.
 
 pub mod cautions;
 pub mod csv;
+pub mod date;
+pub mod diagram;
 pub mod format;
+pub mod html;
 pub mod json;
 pub mod plot;
 pub mod table;
