@@ -226,3 +226,36 @@ fn common_cause_fault_is_not_covered_by_the_difference_check() {
         );
     }
 }
+
+#[test]
+fn a_frozen_channel_of_two_matches_mpmath_within_its_bound() {
+    // tests/reference/frozen_channel_mpmath.py (mpmath 1.3.0, 30 digits): site b_frozen of
+    // kestrel_swa2_mean.toml, channel b frozen at F uniform on [-540, 540]. The closed form
+    // over the uniform shift (prob::shift_average) must sit within its bound of these.
+    let arch =
+        concord::model::load(std::path::Path::new("architectures/kestrel_swa2_mean.toml")).unwrap();
+    let analysis = concord::analysis::analyze(
+        &arch.model,
+        &concord::analysis::AnalysisOptions::default(),
+        false,
+    )
+    .unwrap();
+    let site = analysis
+        .sites
+        .iter()
+        .find(|s| s.name == "b_frozen")
+        .unwrap();
+    for (what, computed, reference) in [
+        ("p_vu", site.outcome.p_vu, 6.516_484_682_465_342e-5),
+        ("p_vd", site.outcome.p_vd, 0.992_527_427_745_767_9),
+    ] {
+        let diff = (computed.value - reference).abs();
+        assert!(
+            diff <= computed.error + 1e-16,
+            "{what}: {} ± {:e} vs mpmath {reference}, difference {diff:e}",
+            computed.value,
+            computed.error
+        );
+        assert!(computed.error < 1e-12, "{what}: bound {:e}", computed.error);
+    }
+}

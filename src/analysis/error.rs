@@ -2,6 +2,7 @@
 
 use thiserror::Error;
 
+use crate::model::ModelError;
 use crate::prob::ProbError;
 
 /// What went wrong while analysing a compiled architecture.
@@ -30,6 +31,15 @@ pub enum AnalysisError {
         limit: usize,
         /// What the input needs.
         found: usize,
+    },
+    /// The architecture, with the values a sweep or a tuning set in it, is not valid.
+    #[error("{context}:\n{source}")]
+    Model {
+        /// Which values were set, e.g. `sweep point safety.limit = 0`.
+        context: String,
+        /// The model layer's diagnostics (boxed: they are large and rare).
+        #[source]
+        source: Box<ModelError>,
     },
     /// An option or argument of the analysis is out of range.
     #[error("invalid analysis option {option}: {message}")]

@@ -82,7 +82,7 @@ pub fn asil_for_maximum(value: Estimate, targets: &[(Asil, f64)]) -> Asil {
 }
 
 /// The hardware metrics of an architecture.
-#[derive(Debug, Clone, Copy, PartialEq)]
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
 pub struct Metrics {
     /// Sum of the failure rates of the sites, FIT.
     pub total_fit: f64,

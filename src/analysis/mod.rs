@@ -8,9 +8,14 @@
 //! - [`metrics`]: SPFM, LFM, SFF, residual and latent FIT, ASIL targets.
 //! - [`run`]: the whole exact analysis of a file.
 //! - [`montecarlo`]: plain sampling through separate code, for verification.
+//! - [`sweep`]: the analysis over values of one or two keys of the file, and one site's
+//!   figures over the spread of its fault amplitude.
+//! - [`tune`]: the widest comparator band that meets a coverage target.
+//! - [`compare`]: several architectures reduced to one line each.
 //! - [`outcome`]: the four probabilities and the coverage figures derived from them.
 
 pub mod cells;
+pub mod compare;
 pub mod error;
 pub mod evaluate;
 pub mod metrics;
@@ -20,6 +25,8 @@ pub mod outcome;
 pub mod run;
 pub mod scenario;
 pub mod site;
+pub mod sweep;
+pub mod tune;
 
 pub use error::AnalysisError;
 pub use options::AnalysisOptions;

@@ -6,6 +6,7 @@ use crate::prob::Estimate;
 use crate::prob::optimise::{Stage, log_grid, scan_then_refine_staged};
 use crate::prob::polytope::Polytope;
 use crate::prob::quadrature::integrate_best_effort;
+use crate::prob::shift_average::mean_over_uniform_shift;
 
 use super::error::AnalysisError;
 use super::evaluate::{Evaluator, quiet_by_complement};
@@ -297,8 +298,10 @@ pub fn amplitude_window(
 }
 
 /// The figures for a uniform amplitude on `[lower, upper]`: the mean over the range of each
-/// figure, integrated polytope by polytope over that polytope's own [`amplitude_window`]
-/// by adaptive Gauss–Kronrod (Piessens et al. 1983, QUADPACK) with its breakpoints.
+/// figure, polytope by polytope: in closed form when the scenario's gaussian has rank one
+/// ([`mean_over_uniform_shift`]), otherwise integrated over that polytope's own
+/// [`amplitude_window`] by adaptive Gauss–Kronrod (Piessens et al. 1983, QUADPACK) with its
+/// breakpoints.
 /// Outside its window a polytope holds less than `P(Z > AMPLITUDE_REACH)`, which is added
 /// to the bound.
 fn uniform_outcome(
@@ -326,6 +329,13 @@ fn uniform_outcome(
         }
         let mut total = Estimate::zero();
         for polytope in evaluator.polytopes(figure) {
+            // One random direction left (one of two channels replaced): closed form.
+            if let Some(mean) =
+                mean_over_uniform_shift(&scenario.base, polytope, &scenario.direction, lower, upper)
+            {
+                total = total.add(mean.scale(width));
+                continue;
+            }
             let Some(window) = amplitude_window(polytope, scenario, lower, upper) else {
                 total = total.add(Estimate::new(0.0, outside * width));
                 continue;

@@ -20,6 +20,13 @@ pub enum Command {
     Check(CheckArgs),
     /// Compute the coverage figures of every fault site, the baseline and the metrics.
     Analyze(AnalyzeArgs),
+    /// Repeat the analysis over a range of one key of the file (and series of a second), or
+    /// follow one fault site over the spread of its amplitude.
+    Sweep(SweepArgs),
+    /// Find the widest comparator band that meets a coverage target (the fewest false alarms).
+    Tune(TuneArgs),
+    /// Put several architectures side by side.
+    Compare(CompareArgs),
     /// Write the report for a safety case: one self-contained HTML file.
     Report(ReportArgs),
     /// Run the bundled invented scenario end to end into a folder and list what it wrote.
@@ -111,4 +118,151 @@ pub struct DemoArgs {
     /// The date printed on the reports (YYYY-MM-DD); default as for `concord report`.
     #[arg(long, value_name = "YYYY-MM-DD")]
     pub date: Option<String>,
+}
+
+/// Output formats of `concord sweep`.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+pub enum SweepFormatArg {
+    /// One CSV row per point.
+    Csv,
+    /// One JSON object, one row per line.
+    Json,
+}
+
+/// Arguments of `concord sweep`.
+#[derive(Debug, Args)]
+pub struct SweepArgs {
+    /// The architecture file (TOML).
+    pub file: PathBuf,
+    /// The key to vary and its values: `KEY=FROM:TO` (with --points, --log) or
+    /// `KEY=V1,V2,...`, e.g. `safety.limit=1:4` or `checks.ab.limit=2,2.5,3`.
+    #[arg(long, value_name = "KEY=VALUES", conflicts_with = "spread")]
+    pub vary: Option<String>,
+    /// A second key, one series per value: `KEY=FROM:TO` (with --series-points,
+    /// --series-log) or `KEY=V1,V2,...`.
+    #[arg(long, value_name = "KEY=VALUES", requires = "vary")]
+    pub series: Option<String>,
+    /// Follow fault site SITE over the sigma of its gaussian amplitude (log-spaced) instead:
+    /// both coverage figures and the residual, with the worst case over the range.
+    #[arg(long, value_name = "SITE")]
+    pub spread: Option<String>,
+    /// The sigma range of --spread, `FROM:TO`; default: the site's unknown range, or the range
+    /// `analyze` would search.
+    #[arg(long, value_name = "FROM:TO", requires = "spread")]
+    pub sigma: Option<String>,
+    /// Points of the swept range (default 50; 200 for --spread).
+    #[arg(long)]
+    pub points: Option<usize>,
+    /// Space the swept range logarithmically.
+    #[arg(long)]
+    pub log: bool,
+    /// Values per series range (default 5).
+    #[arg(long, default_value_t = 5)]
+    pub series_points: usize,
+    /// Space the series range logarithmically.
+    #[arg(long)]
+    pub series_log: bool,
+    /// Output format.
+    #[arg(long, value_enum, default_value = "csv")]
+    pub format: SweepFormatArg,
+    /// Write the rows to FILE instead of standard output.
+    #[arg(long, short = 'o', value_name = "FILE")]
+    pub output: Option<PathBuf>,
+    /// Also draw the sweep as an SVG picture in FILE.
+    #[arg(long, value_name = "FILE")]
+    pub plot: Option<PathBuf>,
+    /// The fault site whose coverage the plot of a parameter sweep shows (default: every
+    /// site without series, the first site with series).
+    #[arg(long, value_name = "SITE", requires = "vary")]
+    pub site: Option<String>,
+}
+
+/// Coverage figures a target or a column is set on.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+pub enum CoverageArg {
+    /// `p_vd / (p_vd + p_vu)`.
+    Dc,
+    /// `1 - p_vu`: every fault of the site counted as dangerous.
+    DcAllDangerous,
+}
+
+/// Output formats of `concord tune`.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+pub enum TuneFormat {
+    /// A summary for the terminal.
+    Text,
+    /// One JSON object with the whole curve.
+    Json,
+}
+
+/// Arguments of `concord tune`.
+#[derive(Debug, Args)]
+pub struct TuneArgs {
+    /// The architecture file (TOML).
+    pub file: PathBuf,
+    /// The coverage target, a fraction (e.g. 0.99) or a percentage (e.g. 99%).
+    #[arg(long, value_name = "X")]
+    pub target_dc: String,
+    /// The coverage figure the target is set on.
+    #[arg(long, value_enum, default_value = "dc-all-dangerous")]
+    pub figure: CoverageArg,
+    /// Tune this check only (default: every check, bands scaled together).
+    #[arg(long, value_name = "NAME")]
+    pub check: Option<String>,
+    /// A fault site that must meet the target (repeat for several; default: every site).
+    #[arg(long, value_name = "SITE")]
+    pub site: Vec<String>,
+    /// Range of the scale factor on the file's bands, `LO:HI`.
+    #[arg(long, value_name = "LO:HI", default_value = "0.1:10")]
+    pub scale: String,
+    /// Points of the trade-off curve.
+    #[arg(long, default_value_t = 41)]
+    pub points: usize,
+    /// Output format.
+    #[arg(long, value_enum, default_value = "text")]
+    pub format: TuneFormat,
+    /// Write the trade-off curve (coverage against false alarm) as CSV to FILE.
+    #[arg(long, value_name = "FILE")]
+    pub curve: Option<PathBuf>,
+    /// Draw the trade-off curve as an SVG picture in FILE.
+    #[arg(long, value_name = "FILE")]
+    pub plot: Option<PathBuf>,
+}
+
+/// Columns `concord compare` can sort by.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+pub enum CompareColumn {
+    /// Architecture name.
+    Name,
+    /// Number of channels.
+    Channels,
+    /// Lowest coverage over the sites (highest first).
+    Coverage,
+    /// Residual rate (lowest first).
+    ResidualFit,
+    /// SPFM (highest first).
+    Spfm,
+    /// LFM (highest first).
+    Lfm,
+    /// Nuisance-alarm probability (lowest first).
+    Alarm,
+    /// Wall-clock seconds of the analysis (lowest first).
+    Seconds,
+}
+
+/// Arguments of `concord compare`.
+#[derive(Debug, Args)]
+pub struct CompareArgs {
+    /// The architecture files (TOML), at least one.
+    #[arg(required = true)]
+    pub files: Vec<PathBuf>,
+    /// The coverage figure of the site columns.
+    #[arg(long, value_enum, default_value = "dc")]
+    pub figure: CoverageArg,
+    /// Sort the rows by this column (default: the order of the files).
+    #[arg(long, value_enum)]
+    pub sort: Option<CompareColumn>,
+    /// Output format.
+    #[arg(long, value_enum, default_value = "table")]
+    pub format: Format,
 }

@@ -7,8 +7,12 @@
 pub mod analyze;
 pub mod args;
 pub mod check;
+pub mod compare;
 pub mod demo;
 pub mod report;
+pub mod sweep;
+pub mod tune;
+pub mod values;
 
 use std::process::ExitCode;
 
@@ -63,6 +67,9 @@ pub fn run() -> ExitCode {
         Command::Analyze(a) => analyze::run(a),
         Command::Report(a) => report::run(a),
         Command::Demo(a) => demo::run(a),
+        Command::Sweep(a) => sweep::run(a),
+        Command::Tune(a) => tune::run(a),
+        Command::Compare(a) => compare::run(a),
     };
     match result {
         Ok(text) => {

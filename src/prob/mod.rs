@@ -8,6 +8,8 @@
 //! - [`polytope`]: `P(l <= A x <= u)` for `x ~ N(mu, Sigma)` (Genz 1992; Genz and Bretz 2009).
 //! - [`strip`]: a standard normal pair in a convex polygon, exactly (the last two variables
 //!   of the sequential conditioning).
+//! - [`shift_average`]: a rank-one polytope averaged over a uniform shift of the mean, in
+//!   closed form (a channel frozen at an arbitrary value among two).
 //! - [`cholesky`]: pivoted Cholesky factor of a (possibly singular) covariance.
 //! - [`lattice`]: randomised extensible lattice integration with a fixed seed.
 //! - [`quadrature`]: adaptive Gauss–Kronrod integration (QUADPACK style).
@@ -25,6 +27,7 @@ pub mod optimise;
 pub mod polytope;
 pub mod quadrature;
 pub mod rng;
+pub mod shift_average;
 pub mod strip;
 pub mod tolerance;
 

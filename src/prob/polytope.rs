@@ -1041,8 +1041,11 @@ impl Plan {
             return Estimate::zero();
         };
         let last = &self.groups[jy];
-        let mut lower = Vec::with_capacity(last.len());
-        let mut upper = Vec::with_capacity(last.len());
+        // On the stack: this runs for every point of the integration. A polytope has at
+        // most MAX_ROWS rows (checked on entry), so every strip fits.
+        let mut lower = [0.0; MAX_ROWS];
+        let mut upper = [0.0; MAX_ROWS];
+        let mut strips = 0;
         for row in last {
             let s: f64 = row.coef.iter().zip(w.iter()).map(|(c, y)| c * y).sum();
             let c = row.coef.get(jt).copied().unwrap_or(0.0);
@@ -1058,15 +1061,17 @@ impl Plan {
                 let (lo, hi) = if c > 0.0 { (lo, hi) } else { (hi, lo) };
                 a = a.max(lo);
                 b = b.min(hi);
-            } else {
-                lower.push(row.lower - s);
-                upper.push(row.upper - s);
+            } else if strips < MAX_ROWS {
+                lower[strips] = row.lower - s;
+                upper[strips] = row.upper - s;
+                strips += 1;
             }
         }
         if a >= b {
             return Estimate::zero();
         }
-        self.last_strips.probability(a, b, &lower, &upper)
+        self.last_strips
+            .probability(a, b, &lower[..strips], &upper[..strips])
     }
 
     /// Three (or more) variables, deterministically: the first variable (and for four, the

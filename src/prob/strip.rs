@@ -22,10 +22,26 @@
 //! Error: the sum of the rectangles' own bounds plus [`tolerance::ROUNDING_REL`] times the
 //! largest term, since each part is a difference.
 
+use std::cell::RefCell;
+
 use crate::prob::bivariate::StandardBivariate;
 use crate::prob::estimate::Estimate;
 use crate::prob::normal;
 use crate::prob::tolerance;
+
+/// Buffers reused by [`Strips::probability`] on one thread: the lines of the envelopes, the
+/// cuts between pieces, and one envelope's lines. The nested integration calls it tens of
+/// thousands of times a polytope; reusing them keeps the allocator off that path.
+#[derive(Debug, Default)]
+struct Scratch {
+    lines: Vec<(usize, f64, bool)>,
+    cuts: Vec<f64>,
+    side: Vec<(f64, f64)>,
+}
+
+thread_local! {
+    static SCRATCH: RefCell<Scratch> = RefCell::new(Scratch::default());
+}
 
 /// The slopes `c_q` of a family of strips, with the bivariate laws they need, prepared once
 /// and evaluated for many bands and `T`-intervals.
@@ -74,6 +90,21 @@ impl Strips {
     /// Ends may be infinite; `lower` and `upper` must have one entry per strip (missing
     /// entries count as unconstrained). Returns NaN for NaN input.
     pub fn probability(&self, t_lo: f64, t_hi: f64, lower: &[f64], upper: &[f64]) -> Estimate {
+        SCRATCH.with(|cell| match cell.try_borrow_mut() {
+            Ok(mut scratch) => self.probability_in(&mut scratch, t_lo, t_hi, lower, upper),
+            // Not reached (the computation does not call itself); fresh buffers are right.
+            Err(_) => self.probability_in(&mut Scratch::default(), t_lo, t_hi, lower, upper),
+        })
+    }
+
+    fn probability_in(
+        &self,
+        scratch: &mut Scratch,
+        t_lo: f64,
+        t_hi: f64,
+        lower: &[f64],
+        upper: &[f64],
+    ) -> Estimate {
         if t_lo.is_nan() || t_hi.is_nan() || lower.iter().chain(upper).any(|v| v.is_nan()) {
             return Estimate::new(f64::NAN, f64::NAN);
         }
@@ -86,7 +117,8 @@ impl Strips {
         let lower_at = |q: usize| lower.get(q).copied().unwrap_or(f64::NEG_INFINITY);
         let upper_at = |q: usize| upper.get(q).copied().unwrap_or(f64::INFINITY);
         // Lines `k - c t` of the envelopes: (row, offset, is_upper), finite offsets only.
-        let mut lines: Vec<(usize, f64, bool)> = Vec::with_capacity(2 * self.rows.len());
+        let Scratch { lines, cuts, side } = scratch;
+        lines.clear();
         for q in 0..self.rows.len() {
             let (lo, hi) = (lower_at(q), upper_at(q));
             if lo > hi {
@@ -107,10 +139,10 @@ impl Strips {
         // The breaks of both envelopes: between consecutive cuts one lower and one upper
         // line are active. Inside such a piece the width U - L is linear, so it changes
         // sign at most once, where the two active lines cross; the piece is split there.
-        let mut cuts: Vec<f64> = Vec::with_capacity(2 * lines.len() + 2);
+        cuts.clear();
         cuts.push(t_lo);
         for upper_side in [true, false] {
-            envelope_breaks(&lines, upper_side, &slope, t_lo, t_hi, &mut cuts);
+            envelope_breaks(lines, upper_side, &slope, t_lo, t_hi, side, cuts);
         }
         cuts.push(t_hi);
         cuts.sort_by(f64::total_cmp);
@@ -121,7 +153,7 @@ impl Strips {
         let mut run: Option<Run> = None;
         for pair in cuts.windows(2) {
             let (s, e) = (pair[0], pair[1]);
-            let (lo_line, hi_line) = active_lines(&lines, &slope, representative(s, e));
+            let (lo_line, hi_line) = active_lines(lines, &slope, representative(s, e));
             let crossing = match (lo_line, hi_line) {
                 (Some((_, kl, cl)), Some((_, kh, ch))) if ch != cl => {
                     Some((kh - kl) / (ch - cl)).filter(|x| *x > s && *x < e)
@@ -266,13 +298,16 @@ fn envelope_breaks(
     slope: &dyn Fn(usize) -> f64,
     t_lo: f64,
     t_hi: f64,
+    side: &mut Vec<(f64, f64)>,
     out: &mut Vec<f64>,
 ) {
-    let side: Vec<(f64, f64)> = lines
-        .iter()
-        .filter(|l| l.2 == upper_side)
-        .map(|&(q, k, _)| (k, slope(q)))
-        .collect();
+    side.clear();
+    side.extend(
+        lines
+            .iter()
+            .filter(|l| l.2 == upper_side)
+            .map(|&(q, k, _)| (k, slope(q))),
+    );
     if side.len() < 2 {
         return;
     }
@@ -296,7 +331,7 @@ fn envelope_breaks(
     for _ in 0..side.len() {
         // The earliest line to overtake the current one after t.
         let mut next: Option<(f64, (f64, f64))> = None;
-        for &line in &side {
+        for &line in side.iter() {
             let overtakes = if upper_side {
                 line.1 > current.1
             } else {

@@ -93,3 +93,12 @@ pub const NESTED_INNER_MAX_INTERVALS: usize = 100;
 /// Largest number of plane sets whose meeting points the nested path enumerates to find
 /// the vertices of a polytope; past it the polytope goes to the lattice rule.
 pub const NESTED_MAX_PLANE_SETS: u128 = 20_000;
+
+/// Pieces of a uniformly shifted rank-one polytope over which the argument of the normal
+/// CDF moves by less than this are integrated by 20-point Gauss–Legendre, not as a
+/// difference of antiderivatives (which would cancel).
+pub const SHIFT_SHORT_PIECE: f64 = 0.5;
+
+/// Rounding allowance per term of the closed-form average over a uniform shift, relative to
+/// the term (a few hundred ulps: the normal CDF's own error and the arithmetic of a term).
+pub const SHIFT_TERM_REL: f64 = 256.0 * f64::EPSILON;

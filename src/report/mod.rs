@@ -9,8 +9,10 @@
 //! - [`html`]: the self-contained HTML report for a safety case.
 //! - [`date`]: the report date (given, `SOURCE_DATE_EPOCH`, or today in UTC).
 //! - [`cautions`]: the cautions every report carries.
+//! - [`sweep`], [`tune`], [`compare`]: the outputs of the design-exploration commands.
 
 pub mod cautions;
+pub mod compare;
 pub mod csv;
 pub mod date;
 pub mod diagram;
@@ -18,7 +20,9 @@ pub mod format;
 pub mod html;
 pub mod json;
 pub mod plot;
+pub mod sweep;
 pub mod table;
+pub mod tune;
 
 use crate::analysis::Analysis;
 use crate::analysis::montecarlo::Agreement;

@@ -1,0 +1,100 @@
+//! Architectures side by side: the same exact analysis run on several files, reduced to the
+//! figures a design choice turns on (coverage per fault site, residual rate, metrics, the
+//! false-alarm price) and the cost of computing them.
+
+use std::time::Instant;
+
+use serde::Serialize;
+
+use crate::model::Architecture;
+use crate::prob::Estimate;
+
+use super::error::AnalysisError;
+use super::metrics::Metrics;
+use super::options::AnalysisOptions;
+use super::run::analyze;
+use super::sweep::SiteSummary;
+
+/// One architecture's line in a comparison.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct ArchitectureSummary {
+    /// The `name` of the file.
+    pub name: String,
+    /// The file as given.
+    pub path: String,
+    /// Number of channels.
+    pub channels: usize,
+    /// Number of checks.
+    pub checks: usize,
+    /// Every fault site, in file order.
+    pub sites: Vec<SiteSummary>,
+    /// The hardware metrics.
+    pub metrics: Metrics,
+    /// Fault-free alarm probability (`p_vd + p_sd` of the baseline).
+    pub nuisance_alarm: Estimate,
+    /// Linear cells of the decomposition (a measure of the work, independent of the machine).
+    pub cells: usize,
+    /// Wall-clock seconds of the analysis on this machine (not reproducible bit for bit).
+    pub seconds: f64,
+}
+
+impl ArchitectureSummary {
+    /// The lowest coverage over the sites (of `dc` when `all_dangerous` is false, skipping
+    /// sites without dangerous outcomes; of `dc_all_dangerous` otherwise).
+    pub fn lowest_coverage(&self, all_dangerous: bool) -> Option<Estimate> {
+        self.sites
+            .iter()
+            .filter_map(|s| {
+                if all_dangerous {
+                    Some(s.dc_all_dangerous)
+                } else {
+                    s.dc
+                }
+            })
+            .min_by(|a, b| a.value.total_cmp(&b.value))
+    }
+}
+
+/// Analyses one architecture for a comparison.
+///
+/// # Errors
+/// The analysis's errors, prefixed with the file.
+pub fn summarise(
+    arch: &Architecture,
+    options: &AnalysisOptions,
+) -> Result<ArchitectureSummary, AnalysisError> {
+    let started = Instant::now();
+    let analysis = analyze(&arch.model, options, false).map_err(|e| match e {
+        AnalysisError::Engine { context, source } => AnalysisError::Engine {
+            context: format!("{}: {context}", arch.path),
+            source,
+        },
+        other => other,
+    })?;
+    let seconds = started.elapsed().as_secs_f64();
+    Ok(ArchitectureSummary {
+        name: arch.model.name.clone(),
+        path: arch.path.clone(),
+        channels: arch.model.channels.len(),
+        checks: arch.model.checks.len(),
+        sites: analysis.sites.iter().map(SiteSummary::of).collect(),
+        metrics: analysis.metrics,
+        nuisance_alarm: analysis.baseline.alarm(),
+        cells: analysis.cells,
+        seconds,
+    })
+}
+
+/// The fault-site names of a comparison: every name in the order first met, so that sites
+/// of the same name (the comparable ones) share a column.
+pub fn site_columns(rows: &[ArchitectureSummary]) -> Vec<String> {
+    let mut names: Vec<String> = Vec::new();
+    for row in rows {
+        for s in &row.sites {
+            if !names.contains(&s.name) {
+                names.push(s.name.clone());
+            }
+        }
+    }
+    names
+}

@@ -1,0 +1,600 @@
+//! Sweeps: the whole analysis repeated over the values of one numeric key of an architecture
+//! file (optionally in several series of a second key), and the figures of one fault site
+//! over the spread of its gaussian amplitude.
+//!
+//! A parameter sweep reloads the file with the swept values set by dotted key path
+//! ([`crate::model::load_str_with_overrides`]) and runs [`analyze`] at every point, so each
+//! row is, bit for bit, what `concord analyze` prints for the file edited by hand. Points
+//! run in parallel in fixed chunks and are handed on in order, one chunk at a time: a sweep
+//! of any length holds one chunk in memory, and its output does not depend on the thread
+//! count.
+
+use rayon::prelude::*;
+use serde::Serialize;
+
+use crate::model::{Amplitude, CompiledModel, load_str_with_overrides};
+use crate::prob::Estimate;
+
+use super::error::AnalysisError;
+use super::metrics::Asil;
+use super::options::AnalysisOptions;
+use super::outcome::Outcome;
+use super::run::{Analysis, Prepared, analyze};
+use super::scenario::FaultScenario;
+use super::site::{SiteResult, analyze_site};
+
+/// Most points of one sweep (the product of both axes). Past it a sweep is refused rather
+/// than left to run for hours; split it into several runs.
+pub const MAX_SWEEP_POINTS: usize = 1_000_000;
+
+/// Points per parallel chunk and per thread: each chunk is computed in parallel, then its rows
+/// are handed on in order before the next starts.
+const CHUNK_PER_THREAD: usize = 4;
+
+/// The values one key of the file takes in a sweep.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Axis {
+    /// The dotted key path, e.g. `checks.ab.limit`.
+    pub key: String,
+    /// The values, in sweep order.
+    pub values: Vec<f64>,
+}
+
+impl Axis {
+    /// `points` values evenly spaced from `from` to `to` (both included).
+    ///
+    /// # Errors
+    /// [`AnalysisError::InvalidOption`] for non-finite ends or fewer than one point.
+    pub fn linear(key: &str, from: f64, to: f64, points: usize) -> Result<Self, AnalysisError> {
+        check_ends(key, from, to, points)?;
+        let values = if points == 1 {
+            vec![from]
+        } else {
+            let step = (to - from) / (points - 1) as f64;
+            (0..points)
+                .map(|i| {
+                    if i + 1 == points {
+                        to
+                    } else {
+                        from + step * i as f64
+                    }
+                })
+                .collect()
+        };
+        Ok(Self {
+            key: key.to_string(),
+            values,
+        })
+    }
+
+    /// `points` values evenly spaced in the logarithm from `from` to `to` (both positive).
+    ///
+    /// # Errors
+    /// [`AnalysisError::InvalidOption`] for non-positive or non-finite ends.
+    pub fn log(key: &str, from: f64, to: f64, points: usize) -> Result<Self, AnalysisError> {
+        check_ends(key, from, to, points)?;
+        if from <= 0.0 || to <= 0.0 {
+            return Err(invalid(
+                key,
+                format!(
+                    "a logarithmic range needs positive ends, got {from} to {to}; \
+                     drop --log or give positive values"
+                ),
+            ));
+        }
+        let (a, b) = (from.ln(), to.ln());
+        let values = if points == 1 {
+            vec![from]
+        } else {
+            (0..points)
+                .map(|i| {
+                    if i == 0 {
+                        from
+                    } else if i + 1 == points {
+                        to
+                    } else {
+                        (a + (b - a) * i as f64 / (points - 1) as f64).exp()
+                    }
+                })
+                .collect()
+        };
+        Ok(Self {
+            key: key.to_string(),
+            values,
+        })
+    }
+
+    /// The values as given.
+    ///
+    /// # Errors
+    /// [`AnalysisError::InvalidOption`] for an empty list or a non-finite value.
+    pub fn list(key: &str, values: Vec<f64>) -> Result<Self, AnalysisError> {
+        if values.is_empty() {
+            return Err(invalid(key, "give at least one value".into()));
+        }
+        if let Some(v) = values.iter().find(|v| !v.is_finite()) {
+            return Err(invalid(key, format!("{v} is not a finite number")));
+        }
+        check_count(key, values.len())?;
+        Ok(Self {
+            key: key.to_string(),
+            values,
+        })
+    }
+}
+
+fn invalid(option: &str, message: String) -> AnalysisError {
+    AnalysisError::InvalidOption {
+        option: option.to_string(),
+        message,
+    }
+}
+
+fn check_ends(key: &str, from: f64, to: f64, points: usize) -> Result<(), AnalysisError> {
+    if !from.is_finite() || !to.is_finite() {
+        return Err(invalid(
+            key,
+            format!("the range {from} to {to} is not finite"),
+        ));
+    }
+    if points == 0 {
+        return Err(invalid(key, "a sweep needs at least one point".into()));
+    }
+    check_count(key, points)
+}
+
+fn check_count(key: &str, points: usize) -> Result<(), AnalysisError> {
+    if points > MAX_SWEEP_POINTS {
+        return Err(AnalysisError::TooLarge {
+            what: format!("the sweep of {key}"),
+            unit: "points",
+            limit: MAX_SWEEP_POINTS,
+            found: points,
+        });
+    }
+    Ok(())
+}
+
+/// A parameter sweep: one key varied, optionally once per value of a second key (a series).
+/// Points are ordered series by series, so that each series is one contiguous line.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct SweepPlan {
+    /// The key on the horizontal axis.
+    pub vary: Axis,
+    /// The key that makes several series, if any.
+    pub series: Option<Axis>,
+}
+
+impl SweepPlan {
+    /// A plan, refused when it has more than [`MAX_SWEEP_POINTS`] points or both axes name
+    /// the same key.
+    ///
+    /// # Errors
+    /// [`AnalysisError::TooLarge`] or [`AnalysisError::InvalidOption`].
+    pub fn new(vary: Axis, series: Option<Axis>) -> Result<Self, AnalysisError> {
+        let plan = Self { vary, series };
+        if let Some(s) = plan.series.as_ref().filter(|s| s.key == plan.vary.key) {
+            return Err(invalid(
+                &s.key,
+                "the series key is the swept key; give two different keys".into(),
+            ));
+        }
+        let total = plan
+            .vary
+            .values
+            .len()
+            .saturating_mul(plan.series.as_ref().map_or(1, |s| s.values.len()));
+        if total > MAX_SWEEP_POINTS {
+            return Err(AnalysisError::TooLarge {
+                what: "the sweep grid".into(),
+                unit: "points",
+                limit: MAX_SWEEP_POINTS,
+                found: total,
+            });
+        }
+        Ok(plan)
+    }
+
+    /// Number of points.
+    pub fn len(&self) -> usize {
+        self.vary.values.len() * self.series.as_ref().map_or(1, |s| s.values.len())
+    }
+
+    /// True when the plan has no point (never, for a plan made by [`SweepPlan::new`]).
+    pub fn is_empty(&self) -> bool {
+        self.len() == 0
+    }
+
+    /// The swept value and the series value of point `index`.
+    pub fn point(&self, index: usize) -> (f64, Option<f64>) {
+        let n = self.vary.values.len().max(1);
+        let x = self.vary.values.get(index % n).copied().unwrap_or(f64::NAN);
+        let s = self
+            .series
+            .as_ref()
+            .map(|s| s.values.get(index / n).copied().unwrap_or(f64::NAN));
+        (x, s)
+    }
+
+    /// The overrides of point `index`.
+    pub fn overrides(&self, index: usize) -> Vec<(String, f64)> {
+        let (x, s) = self.point(index);
+        let mut list = vec![(self.vary.key.clone(), x)];
+        if let (Some(axis), Some(v)) = (&self.series, s) {
+            list.push((axis.key.clone(), v));
+        }
+        list
+    }
+}
+
+/// The figures of one fault site in a sweep row or a comparison.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct SiteSummary {
+    /// The fault site.
+    pub name: String,
+    /// `p_vd / (p_vd + p_vu)` (worst case over an unknown spread); `None` when no outcome
+    /// of the site is dangerous.
+    pub dc: Option<Estimate>,
+    /// `1 - p_vu`.
+    pub dc_all_dangerous: Estimate,
+    /// The residual probability.
+    pub p_vu: Estimate,
+    /// The sigma of the worst case, for a site with unknown spread.
+    pub worst_sigma: Option<f64>,
+}
+
+impl SiteSummary {
+    /// The summary of one analysed site.
+    pub fn of(site: &SiteResult) -> Self {
+        Self {
+            name: site.name.clone(),
+            dc: site.outcome.dc(),
+            dc_all_dangerous: site.outcome.dc_all_dangerous(),
+            p_vu: site.outcome.p_vu,
+            worst_sigma: site.worst.as_ref().map(|w| w.sigma),
+        }
+    }
+}
+
+/// One point of a parameter sweep: the values set and the main figures there.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct SweepRow {
+    /// Position in the plan.
+    pub index: usize,
+    /// The swept value.
+    pub x: f64,
+    /// The series value, if the plan has series.
+    pub series: Option<f64>,
+    /// Fault-free alarm probability `p_vd + p_sd` of the baseline (the false-alarm price).
+    pub nuisance_alarm: Estimate,
+    /// Residual rate, FIT.
+    pub residual_fit: Estimate,
+    /// Single-point fault metric.
+    pub spfm: Estimate,
+    /// Latent fault metric.
+    pub lfm: Estimate,
+    /// Highest ASIL whose SPFM target is met.
+    pub asil_spfm: Asil,
+    /// Highest ASIL whose LFM target is met.
+    pub asil_lfm: Asil,
+    /// Every fault site, in file order.
+    pub sites: Vec<SiteSummary>,
+}
+
+impl SweepRow {
+    /// The row of an analysis at one point.
+    pub fn of(index: usize, x: f64, series: Option<f64>, analysis: &Analysis) -> Self {
+        Self {
+            index,
+            x,
+            series,
+            nuisance_alarm: analysis.baseline.alarm(),
+            residual_fit: analysis.metrics.residual_fit,
+            spfm: analysis.metrics.spfm,
+            lfm: analysis.metrics.lfm,
+            asil_spfm: analysis.metrics.asil_spfm,
+            asil_lfm: analysis.metrics.asil_lfm,
+            sites: analysis.sites.iter().map(SiteSummary::of).collect(),
+        }
+    }
+}
+
+/// Loads the file's text with `overrides` set and analyses it: exactly what `analyze` does
+/// on a copy of the file with those values written in.
+///
+/// # Errors
+/// [`AnalysisError::Model`] when the values make the file invalid (naming them), or the
+/// analysis's own errors.
+pub fn analyze_with_overrides(
+    text: &str,
+    path: &str,
+    overrides: &[(String, f64)],
+    options: &AnalysisOptions,
+) -> Result<Analysis, AnalysisError> {
+    let arch =
+        load_str_with_overrides(text, path, overrides).map_err(|source| AnalysisError::Model {
+            context: format!("with {}", describe_overrides(overrides)),
+            source: Box::new(source),
+        })?;
+    analyze(&arch.model, options, false).map_err(|e| match e {
+        AnalysisError::Engine { context, source } => AnalysisError::Engine {
+            context: format!("with {}, {context}", describe_overrides(overrides)),
+            source,
+        },
+        other => other,
+    })
+}
+
+/// `safety.limit = 1.5, checks.ab.limit = 2`.
+pub fn describe_overrides(overrides: &[(String, f64)]) -> String {
+    overrides
+        .iter()
+        .map(|(k, v)| format!("{k} = {v}"))
+        .collect::<Vec<_>>()
+        .join(", ")
+}
+
+/// The names of the fault sites of the file, in file order, checked at the first and the
+/// last point of the plan so that a bad key or value is reported before the sweep starts.
+///
+/// # Errors
+/// [`AnalysisError::Model`] naming the point whose values make the file invalid.
+pub fn prepare_sweep(
+    text: &str,
+    path: &str,
+    plan: &SweepPlan,
+) -> Result<Vec<String>, AnalysisError> {
+    let mut names = Vec::new();
+    let last = plan.len().saturating_sub(1);
+    for index in [0, last] {
+        let overrides = plan.overrides(index);
+        let arch = load_str_with_overrides(text, path, &overrides).map_err(|source| {
+            AnalysisError::Model {
+                context: format!("sweep point {index} ({})", describe_overrides(&overrides)),
+                source: Box::new(source),
+            }
+        })?;
+        names = arch.model.faults.iter().map(|f| f.name.clone()).collect();
+    }
+    Ok(names)
+}
+
+/// Runs a parameter sweep, handing every row to `emit` in plan order as soon as its chunk is
+/// done. Stops at the first error (of a point or of `emit`).
+///
+/// # Errors
+/// The first point's error, naming its values, or the error `emit` returns.
+pub fn sweep<E>(
+    text: &str,
+    path: &str,
+    plan: &SweepPlan,
+    options: &AnalysisOptions,
+    mut emit: impl FnMut(SweepRow) -> Result<(), E>,
+) -> Result<(), E>
+where
+    E: From<AnalysisError>,
+{
+    let chunk = rayon::current_num_threads().max(1) * CHUNK_PER_THREAD;
+    let total = plan.len();
+    let mut start = 0;
+    while start < total {
+        let end = (start + chunk).min(total);
+        let rows: Vec<Result<SweepRow, AnalysisError>> = (start..end)
+            .into_par_iter()
+            .map(|index| {
+                let (x, s) = plan.point(index);
+                let analysis = analyze_with_overrides(text, path, &plan.overrides(index), options)?;
+                Ok(SweepRow::of(index, x, s, &analysis))
+            })
+            .collect();
+        for row in rows {
+            emit(row?)?;
+        }
+        start = end;
+    }
+    Ok(())
+}
+
+/// One point of a spread curve.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct SpreadPoint {
+    /// The sigma of the fault amplitude.
+    pub sigma: f64,
+    /// The four figures at that sigma.
+    #[serde(skip)]
+    pub outcome: Outcome,
+}
+
+/// The figures of one gaussian fault site over the spread of its amplitude.
+#[derive(Debug, Clone, PartialEq)]
+pub struct SpreadCurve {
+    /// The fault site.
+    pub site: String,
+    /// The mean of the amplitude (kept as in the file).
+    pub mean: f64,
+    /// The curve, in the order of the sigmas given.
+    pub points: Vec<SpreadPoint>,
+    /// The worst case over the swept range (largest residual, found by the same scan and
+    /// refinement as `analyze` uses for an unknown sigma), when the range is not one point.
+    pub worst: Option<SiteResult>,
+}
+
+/// The sigma range a spread sweep of `site` takes by default: the file's range for an
+/// unknown sigma, otherwise the range `analyze` would search had the sigma been unknown
+/// ([`crate::model::default_sigma_range`]).
+///
+/// # Errors
+/// [`AnalysisError::InvalidOption`] when the site does not exist or its amplitude is not
+/// gaussian.
+pub fn default_spread_range(
+    model: &CompiledModel,
+    site: &str,
+) -> Result<(f64, f64), AnalysisError> {
+    let (_, _, range) = gaussian_site(model, site)?;
+    Ok(range)
+}
+
+/// `(index, mean, default range)` of a gaussian site.
+fn gaussian_site(
+    model: &CompiledModel,
+    site: &str,
+) -> Result<(usize, f64, (f64, f64)), AnalysisError> {
+    let Some(index) = model.faults.iter().position(|f| f.name == site) else {
+        let names: Vec<&str> = model.faults.iter().map(|f| f.name.as_str()).collect();
+        return Err(invalid(
+            "--site",
+            format!(
+                "no fault site '{site}' in the file; the sites are: {}",
+                names.join(", ")
+            ),
+        ));
+    };
+    match &model.faults[index].amplitude {
+        Amplitude::Gaussian { mean, .. } => {
+            let bands: Vec<(f64, f64)> = model.checks.iter().map(|c| (c.lower, c.upper)).collect();
+            let range = crate::model::default_sigma_range(
+                (model.safety_lower, model.safety_upper),
+                &bands,
+                model.full_scale,
+            );
+            Ok((index, *mean, range))
+        }
+        Amplitude::GaussianUnknownSigma {
+            mean,
+            sigma_lo,
+            sigma_hi,
+            ..
+        } => Ok((index, *mean, (*sigma_lo, *sigma_hi))),
+        _ => Err(invalid(
+            "--site",
+            format!(
+                "fault site '{site}' has a {} amplitude; a spread sweep needs a gaussian one \
+                 (amplitude = {{ gaussian = {{ mean = .., sigma = .. }} }})",
+                match &model.faults[index].amplitude {
+                    Amplitude::Uniform { .. } => "uniform",
+                    _ => "points",
+                }
+            ),
+        )),
+    }
+}
+
+/// The four figures of gaussian fault site `site` at every sigma of `sigmas` (each positive),
+/// and the worst case over `[min, max]` of them. Points run in parallel; the result does not
+/// depend on the thread count.
+///
+/// # Errors
+/// [`AnalysisError::InvalidOption`] for an unknown or non-gaussian site or a sigma that is
+/// not positive; engine errors naming the site and sigma.
+pub fn spread_curve(
+    model: &CompiledModel,
+    site: &str,
+    sigmas: &[f64],
+    options: &AnalysisOptions,
+) -> Result<SpreadCurve, AnalysisError> {
+    let (index, mean, _) = gaussian_site(model, site)?;
+    if sigmas.is_empty() {
+        return Err(invalid(
+            "--points",
+            "a spread sweep needs at least one sigma".into(),
+        ));
+    }
+    check_count("sigma", sigmas.len())?;
+    if let Some(s) = sigmas.iter().find(|s| !(s.is_finite() && **s > 0.0)) {
+        return Err(invalid(
+            "sigma",
+            format!("{s} is not a positive finite sigma; give a range of positive values"),
+        ));
+    }
+    let prepared = Prepared::new(model, options)?;
+    let fault = &model.faults[index];
+    let scenario = FaultScenario::new(model, fault)?;
+    let points: Vec<SpreadPoint> = sigmas
+        .par_iter()
+        .map(|&sigma| {
+            let gaussian = scenario.with_gaussian_amplitude(mean, sigma)?;
+            let outcome = prepared.evaluator.outcome(&gaussian).map_err(|e| match e {
+                AnalysisError::Engine { context, source } => AnalysisError::Engine {
+                    context: format!("fault site '{site}' at sigma {sigma}, {context}"),
+                    source,
+                },
+                other => other,
+            })?;
+            Ok(SpreadPoint { sigma, outcome })
+        })
+        .collect::<Result<_, AnalysisError>>()?;
+    let lo = sigmas.iter().copied().fold(f64::INFINITY, f64::min);
+    let hi = sigmas.iter().copied().fold(f64::NEG_INFINITY, f64::max);
+    let worst = if lo < hi {
+        let mut searched = fault.clone();
+        searched.amplitude = Amplitude::GaussianUnknownSigma {
+            mean,
+            sigma_lo: lo,
+            sigma_hi: hi,
+            defaulted: false,
+        };
+        Some(analyze_site(
+            model,
+            &prepared.evaluator,
+            &searched,
+            options,
+            false,
+        )?)
+    } else {
+        None
+    };
+    Ok(SpreadCurve {
+        site: site.to_string(),
+        mean,
+        points,
+        worst,
+    })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn axes_hit_their_ends_exactly() {
+        let a = Axis::linear("k", 0.1, 0.7, 7).unwrap();
+        assert_eq!(a.values.first(), Some(&0.1));
+        assert_eq!(a.values.last(), Some(&0.7));
+        let l = Axis::log("k", 0.01, 100.0, 5).unwrap();
+        assert_eq!(
+            l.values,
+            vec![0.01, l.values[1], l.values[2], l.values[3], 100.0]
+        );
+        assert!((l.values[2] - 1.0).abs() < 1e-12);
+        assert!(Axis::log("k", 0.0, 1.0, 3).is_err());
+        assert!(Axis::linear("k", 0.0, f64::NAN, 3).is_err());
+        assert!(Axis::list("k", vec![]).is_err());
+    }
+
+    #[test]
+    fn plans_past_the_limit_are_refused_with_the_limit_named() {
+        let big = Axis::linear("a", 0.0, 1.0, 2000).unwrap();
+        let other = Axis::linear("b", 0.0, 1.0, 1000).unwrap();
+        let e = SweepPlan::new(big, Some(other)).unwrap_err();
+        assert!(e.to_string().contains("1000000"), "{e}");
+        let e = Axis::linear("a", 0.0, 1.0, MAX_SWEEP_POINTS + 1).unwrap_err();
+        assert!(e.to_string().contains("limit"), "{e}");
+    }
+
+    #[test]
+    fn points_run_series_by_series() {
+        let plan = SweepPlan::new(
+            Axis::list("x", vec![1.0, 2.0, 3.0]).unwrap(),
+            Some(Axis::list("s", vec![10.0, 20.0]).unwrap()),
+        )
+        .unwrap();
+        assert_eq!(plan.len(), 6);
+        assert_eq!(plan.point(0), (1.0, Some(10.0)));
+        assert_eq!(plan.point(2), (3.0, Some(10.0)));
+        assert_eq!(plan.point(3), (1.0, Some(20.0)));
+        assert_eq!(
+            plan.overrides(4),
+            vec![("x".to_string(), 2.0), ("s".to_string(), 20.0)]
+        );
+    }
+}

@@ -1,0 +1,60 @@
+//! `concord tune FILE --target-dc X [--check NAME] [--site SITE]...`.
+
+use indicatif::{ProgressBar, ProgressStyle};
+
+use crate::analysis::AnalysisError;
+use crate::analysis::AnalysisOptions;
+use crate::analysis::tune::{CoverageFigure, TuneRequest, tune};
+use crate::report::tune::{curve_csv, json, summary, trade_off_svg};
+
+use super::args::{CoverageArg, TuneArgs, TuneFormat};
+use super::sweep::write_svg;
+use super::{Failure, load, values};
+
+/// Runs the tuning and renders it; the curve and the plot go to their files.
+pub fn run(args: &TuneArgs) -> Result<String, Failure> {
+    let arch = load(&args.file)?;
+    let target = values::coverage_target(&args.target_dc, "--target-dc")?;
+    let figure = match args.figure {
+        CoverageArg::Dc => CoverageFigure::Dc,
+        CoverageArg::DcAllDangerous => CoverageFigure::DcAllDangerous,
+    };
+    let mut request = TuneRequest::new(args.check.clone(), figure, target);
+    request.sites = args.site.clone();
+    request.scale_range = values::range(&args.scale, "--scale")?;
+    request.curve_points = args.points;
+    // The curve's points, then the bisection (about a dozen more): shown on a terminal only.
+    let progress = ProgressBar::new(args.points as u64);
+    progress.set_style(
+        ProgressStyle::with_template("{bar:40} {pos} analyses, {elapsed} elapsed")
+            .unwrap_or_else(|_| ProgressStyle::default_bar()),
+    );
+    let tick = || progress.inc(1);
+    let outcome = tune(
+        &arch.source,
+        &arch.path,
+        &request,
+        &AnalysisOptions::default(),
+        &tick,
+    );
+    progress.finish_and_clear();
+    let result = outcome.map_err(|e| match e {
+        AnalysisError::InvalidOption { .. } | AnalysisError::Model { .. } => {
+            Failure::input(format!("concord tune: {e}"))
+        }
+        other => Failure::computation(format!("concord tune: {other}")),
+    })?;
+    if let Some(path) = &args.curve {
+        std::fs::write(path, curve_csv(&result)).map_err(|e| {
+            Failure::input(format!("concord: cannot write {}: {e}", path.display()))
+        })?;
+    }
+    if let Some(path) = &args.plot {
+        write_svg(path, trade_off_svg(&result))?;
+    }
+    match args.format {
+        TuneFormat::Text => Ok(summary(&result, &arch.path)),
+        TuneFormat::Json => json(&result, &arch.path, &arch.source)
+            .map_err(|e| Failure::computation(format!("concord: JSON output failed: {e}"))),
+    }
+}

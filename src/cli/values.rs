@@ -1,0 +1,104 @@
+//! Parsing of the value arguments shared by the exploration commands: `KEY=FROM:TO`,
+//! `KEY=V1,V2,...`, `FROM:TO` and coverage targets such as `0.99` or `99%`.
+
+use crate::analysis::sweep::Axis;
+
+use super::Failure;
+
+/// A number, or an input failure naming the option.
+pub fn number(text: &str, option: &str) -> Result<f64, Failure> {
+    let v: f64 = text.trim().parse().map_err(|_| {
+        Failure::input(format!(
+            "concord: {option}: `{text}` is not a number (write e.g. 2.5 or 1e-3)"
+        ))
+    })?;
+    if !v.is_finite() {
+        return Err(Failure::input(format!(
+            "concord: {option}: `{text}` is not a finite number"
+        )));
+    }
+    Ok(v)
+}
+
+/// `FROM:TO` as two numbers.
+pub fn range(text: &str, option: &str) -> Result<(f64, f64), Failure> {
+    let Some((a, b)) = text.split_once(':') else {
+        return Err(Failure::input(format!(
+            "concord: {option}: `{text}` is not a range; write FROM:TO, e.g. 0.5:4"
+        )));
+    };
+    Ok((number(a, option)?, number(b, option)?))
+}
+
+/// `KEY=FROM:TO` (spaced over `points`, logarithmically when `log`) or `KEY=V1,V2,...`.
+pub fn axis(spec: &str, points: usize, log: bool, option: &str) -> Result<Axis, Failure> {
+    let Some((key, values)) = spec.split_once('=') else {
+        return Err(Failure::input(format!(
+            "concord: {option}: `{spec}` names no values; write KEY=FROM:TO or KEY=V1,V2, \
+             e.g. safety.limit=1:4"
+        )));
+    };
+    let key = key.trim();
+    if key.is_empty() {
+        return Err(Failure::input(format!(
+            "concord: {option}: `{spec}` has no key before `=`; write e.g. checks.ab.limit=2:3"
+        )));
+    }
+    let built = if values.contains(':') {
+        let (from, to) = range(values, option)?;
+        if log {
+            Axis::log(key, from, to, points)
+        } else {
+            Axis::linear(key, from, to, points)
+        }
+    } else {
+        let list = values
+            .split(',')
+            .map(|v| number(v, option))
+            .collect::<Result<Vec<f64>, Failure>>()?;
+        Axis::list(key, list)
+    };
+    built.map_err(|e| Failure::input(format!("concord: {option}: {e}")))
+}
+
+/// A coverage target: a fraction in (0, 1] or a percentage written with `%`.
+pub fn coverage_target(text: &str, option: &str) -> Result<f64, Failure> {
+    let t = text.trim();
+    let value = match t.strip_suffix('%') {
+        Some(p) => number(p, option)? / 100.0,
+        None => number(t, option)?,
+    };
+    if !(value > 0.0 && value <= 1.0) {
+        return Err(Failure::input(format!(
+            "concord: {option}: `{text}` is not a coverage; give a fraction in (0, 1] such as \
+             0.99, or a percentage such as 99%"
+        )));
+    }
+    Ok(value)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn values_parse_in_both_forms() {
+        let a = axis("safety.limit=1:3", 3, false, "--vary").unwrap();
+        assert_eq!(a.key, "safety.limit");
+        assert_eq!(a.values, vec![1.0, 2.0, 3.0]);
+        let b = axis("checks.ab.limit=2,2.5", 9, false, "--vary").unwrap();
+        assert_eq!(b.values, vec![2.0, 2.5]);
+        assert!(axis("checks.ab.limit", 3, false, "--vary").is_err());
+        assert!(axis("=1:2", 3, false, "--vary").is_err());
+        assert!(axis("k=a:2", 3, false, "--vary").is_err());
+        assert!(axis("k=0:2", 3, true, "--vary").is_err());
+    }
+
+    #[test]
+    fn targets_take_fractions_and_percentages() {
+        assert_eq!(coverage_target("0.99", "--target-dc").unwrap(), 0.99);
+        assert!((coverage_target("99%", "--target-dc").unwrap() - 0.99).abs() < 1e-15);
+        assert!(coverage_target("99", "--target-dc").is_err());
+        assert!(coverage_target("0", "--target-dc").is_err());
+    }
+}

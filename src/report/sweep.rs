@@ -1,0 +1,525 @@
+//! Output of `concord sweep`: rows written as they arrive (CSV or JSON), and the spread curve
+//! of one fault site.
+//!
+//! CSV columns of a parameter sweep: the swept key, the series key (when there is one),
+//! `nuisance_alarm`, `residual_fit`, `spfm`, `lfm` (each followed by `_error`, its bound),
+//! `asil_spfm`, `asil_lfm`, then per fault site `SITE.dc`, `SITE.dc_error`,
+//! `SITE.dc_all_dangerous`, `SITE.p_vu`, `SITE.p_vu_error`, `SITE.worst_sigma`.
+//!
+//! JSON of a parameter sweep: one object `{"tool_version", "file", "input_sha256", "vary",
+//! "series", "sites", "rows": [...]}` whose rows are written one per line as they arrive, so
+//! that a sweep of any length is never held in memory.
+
+use std::io::{self, Write};
+
+use serde::Serialize;
+
+use crate::analysis::sweep::{SpreadCurve, SweepPlan, SweepRow};
+use crate::prob::Estimate;
+
+use super::plot::{Chart, Marker, PlotError, ReferenceLine, Scale, Series, render_svg};
+use super::{TOOL_VERSION, input_sha256};
+
+/// Quotes a CSV field when needed (RFC 4180, 2.6 and 2.7).
+pub(crate) fn csv_field(text: &str) -> String {
+    if text.contains([',', '"', '\n', '\r']) {
+        format!("\"{}\"", text.replace('"', "\"\""))
+    } else {
+        text.to_string()
+    }
+}
+
+fn opt(v: Option<f64>) -> String {
+    v.map_or(String::new(), |x| format!("{x:e}"))
+}
+
+fn est(e: Estimate) -> String {
+    format!("{:e},{:e}", e.value, e.error)
+}
+
+/// Output formats of a sweep.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum SweepFormat {
+    /// One CSV row per point.
+    Csv,
+    /// One JSON object with one row per line.
+    Json,
+}
+
+/// Writes the rows of a parameter sweep as they come.
+pub struct SweepWriter<W: Write> {
+    out: W,
+    format: SweepFormat,
+    rows_written: usize,
+}
+
+#[derive(Serialize)]
+struct SweepHead<'a> {
+    tool_version: &'a str,
+    file: &'a str,
+    input_sha256: String,
+    vary: &'a str,
+    series: Option<&'a str>,
+    sites: &'a [String],
+}
+
+impl<W: Write> SweepWriter<W> {
+    /// Starts the output: the CSV header or the opening of the JSON object.
+    ///
+    /// # Errors
+    /// Write errors of `out`.
+    pub fn start(
+        mut out: W,
+        format: SweepFormat,
+        plan: &SweepPlan,
+        sites: &[String],
+        file: &str,
+        text: &str,
+    ) -> io::Result<Self> {
+        match format {
+            SweepFormat::Csv => {
+                let mut head = vec![csv_field(&plan.vary.key)];
+                if let Some(s) = &plan.series {
+                    head.push(csv_field(&s.key));
+                }
+                for k in ["nuisance_alarm", "residual_fit", "spfm", "lfm"] {
+                    head.push(k.to_string());
+                    head.push(format!("{k}_error"));
+                }
+                head.push("asil_spfm".into());
+                head.push("asil_lfm".into());
+                for s in sites {
+                    for k in [
+                        "dc",
+                        "dc_error",
+                        "dc_all_dangerous",
+                        "p_vu",
+                        "p_vu_error",
+                        "worst_sigma",
+                    ] {
+                        head.push(csv_field(&format!("{s}.{k}")));
+                    }
+                }
+                writeln!(out, "{}", head.join(","))?;
+            }
+            SweepFormat::Json => {
+                let headline = SweepHead {
+                    tool_version: TOOL_VERSION,
+                    file,
+                    input_sha256: input_sha256(text),
+                    vary: &plan.vary.key,
+                    series: plan.series.as_ref().map(|s| s.key.as_str()),
+                    sites,
+                };
+                let text = serde_json::to_string(&headline).map_err(io::Error::other)?;
+                // Reopen the object to append the rows.
+                let open = text.strip_suffix('}').unwrap_or(&text);
+                writeln!(out, "{open},\"rows\":[")?;
+            }
+        }
+        Ok(Self {
+            out,
+            format,
+            rows_written: 0,
+        })
+    }
+
+    /// Writes one row.
+    ///
+    /// # Errors
+    /// Write errors of the output.
+    pub fn row(&mut self, row: &SweepRow) -> io::Result<()> {
+        match self.format {
+            SweepFormat::Csv => {
+                let mut cells = vec![format!("{:e}", row.x)];
+                if let Some(s) = row.series {
+                    cells.push(format!("{s:e}"));
+                }
+                for e in [row.nuisance_alarm, row.residual_fit, row.spfm, row.lfm] {
+                    cells.push(est(e));
+                }
+                cells.push(csv_field(row.asil_spfm.label()));
+                cells.push(csv_field(row.asil_lfm.label()));
+                for s in &row.sites {
+                    cells.push(opt(s.dc.map(|d| d.value)));
+                    cells.push(opt(s.dc.map(|d| d.error)));
+                    cells.push(format!("{:e}", s.dc_all_dangerous.value));
+                    cells.push(est(s.p_vu));
+                    cells.push(opt(s.worst_sigma));
+                }
+                writeln!(self.out, "{}", cells.join(","))?;
+            }
+            SweepFormat::Json => {
+                let text = serde_json::to_string(row).map_err(io::Error::other)?;
+                if self.rows_written > 0 {
+                    writeln!(self.out, ",")?;
+                }
+                write!(self.out, "{text}")?;
+            }
+        }
+        self.rows_written += 1;
+        Ok(())
+    }
+
+    /// Closes the output and hands back the writer.
+    ///
+    /// # Errors
+    /// Write errors of the output.
+    pub fn finish(mut self) -> io::Result<W> {
+        if self.format == SweepFormat::Json {
+            writeln!(self.out, "\n]}}")?;
+        }
+        self.out.flush()?;
+        Ok(self.out)
+    }
+}
+
+/// One point of a spread curve in JSON.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+struct SpreadRowJson {
+    sigma: f64,
+    dc: Option<Estimate>,
+    dc_all_dangerous: Estimate,
+    p_vd: Estimate,
+    p_vu: Estimate,
+    p_sd: Estimate,
+    p_sq: Estimate,
+}
+
+/// The worst case of a spread curve in JSON.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+struct SpreadWorstJson {
+    sigma: f64,
+    dc: Option<Estimate>,
+    dc_all_dangerous: Estimate,
+    p_vu: Estimate,
+    at_range_end: bool,
+}
+
+#[derive(Serialize)]
+struct SpreadJson<'a> {
+    tool_version: &'a str,
+    file: &'a str,
+    input_sha256: String,
+    site: &'a str,
+    amplitude_mean: f64,
+    worst: Option<SpreadWorstJson>,
+    points: Vec<SpreadRowJson>,
+}
+
+/// The CSV columns of a spread curve.
+pub const SPREAD_HEADER: &str = "sigma,dc,dc_error,dc_all_dangerous,p_vd,p_vd_error,p_vu,\
+p_vu_error,p_sd,p_sd_error,p_sq,p_sq_error";
+
+/// The spread curve as CSV (one row per sigma, in the order computed).
+pub fn spread_csv(curve: &SpreadCurve) -> String {
+    let mut out = String::from(SPREAD_HEADER);
+    out.push('\n');
+    for p in &curve.points {
+        let o = &p.outcome;
+        let dc = o.dc();
+        out.push_str(&format!(
+            "{:e},{},{},{:e},{},{},{},{}\n",
+            p.sigma,
+            opt(dc.map(|d| d.value)),
+            opt(dc.map(|d| d.error)),
+            o.dc_all_dangerous().value,
+            est(o.p_vd),
+            est(o.p_vu),
+            est(o.p_sd),
+            est(o.p_sq)
+        ));
+    }
+    out
+}
+
+/// The spread curve as one JSON object, with the worst case over the swept range.
+///
+/// # Errors
+/// Serialisation errors (none expected for finite numbers).
+pub fn spread_json(curve: &SpreadCurve, file: &str, text: &str) -> Result<String, String> {
+    let worst = curve.worst.as_ref().and_then(|site| {
+        site.worst.as_ref().map(|w| SpreadWorstJson {
+            sigma: w.sigma,
+            dc: site.outcome.dc(),
+            dc_all_dangerous: site.outcome.dc_all_dangerous(),
+            p_vu: site.outcome.p_vu,
+            at_range_end: w.local_maxima.first().is_some_and(|m| m.at_range_end),
+        })
+    });
+    let json = SpreadJson {
+        tool_version: TOOL_VERSION,
+        file,
+        input_sha256: input_sha256(text),
+        site: &curve.site,
+        amplitude_mean: curve.mean,
+        worst,
+        points: curve
+            .points
+            .iter()
+            .map(|p| SpreadRowJson {
+                sigma: p.sigma,
+                dc: p.outcome.dc(),
+                dc_all_dangerous: p.outcome.dc_all_dangerous(),
+                p_vd: p.outcome.p_vd,
+                p_vu: p.outcome.p_vu,
+                p_sd: p.outcome.p_sd,
+                p_sq: p.outcome.p_sq,
+            })
+            .collect(),
+    };
+    serde_json::to_string_pretty(&json)
+        .map(|mut s| {
+            s.push('\n');
+            s
+        })
+        .map_err(|e| e.to_string())
+}
+
+/// One line for the terminal naming the worst case of a spread curve.
+pub fn spread_summary(curve: &SpreadCurve, unit: &str) -> String {
+    match curve
+        .worst
+        .as_ref()
+        .and_then(|s| s.worst.as_ref().map(|w| (s, w)))
+    {
+        Some((site, w)) => format!(
+            "worst case of '{}' over the swept spread: sigma = {:.6} {unit}, residual p_vu = {:.6e} \
+             (bound {:.1e}), dc_all_dangerous = {:.6}{}",
+            curve.site,
+            w.sigma,
+            site.outcome.p_vu.value,
+            site.outcome.p_vu.error,
+            site.outcome.dc_all_dangerous().value,
+            if w.local_maxima.first().is_some_and(|m| m.at_range_end) {
+                " (at an end of the range: widen it)"
+            } else {
+                ""
+            }
+        ),
+        None => format!("'{}': one sigma only, no worst case searched", curve.site),
+    }
+}
+
+/// The low, medium and high diagnostic-coverage levels of ISO 26262-5:2018 Annex D (60, 90
+/// and 99 %, from memory), drawn as reference lines on every coverage plot.
+pub fn dc_levels() -> Vec<ReferenceLine> {
+    [
+        (60.0, "low DC 60 %"),
+        (90.0, "medium DC 90 %"),
+        (99.0, "high DC 99 %"),
+    ]
+    .into_iter()
+    .map(|(y, label)| ReferenceLine {
+        y,
+        label: label.to_string(),
+    })
+    .collect()
+}
+
+/// Width and height of the plots, in SVG pixels.
+pub const PLOT_SIZE: (u32, u32) = (900, 560);
+
+/// The points of a parameter sweep kept for its picture: the worst-case `dc` (in percent)
+/// of every site (without series) or of one site per series value. Only two numbers per
+/// point and line are kept, so a long sweep still streams its rows.
+pub struct SweepPicture {
+    key: String,
+    series_key: Option<String>,
+    /// The one site shown, or every site.
+    site: Option<usize>,
+    /// Points per series (the length of the swept axis).
+    vary_len: usize,
+    lines: Vec<Series>,
+}
+
+impl SweepPicture {
+    /// An empty picture for `plan`; `site` picks the site shown (it must exist).
+    ///
+    /// # Errors
+    /// A message naming the sites when `site` is not one of them.
+    pub fn new(plan: &SweepPlan, sites: &[String], site: Option<&str>) -> Result<Self, String> {
+        let site = match site {
+            Some(name) => Some(sites.iter().position(|s| s == name).ok_or_else(|| {
+                format!(
+                    "no fault site '{name}' to plot; the sites are: {}",
+                    sites.join(", ")
+                )
+            })?),
+            None if plan.series.is_some() => Some(0),
+            None => None,
+        };
+        let name = |i: usize| sites.get(i).cloned().unwrap_or_default();
+        let lines = match (&plan.series, site) {
+            (Some(axis), Some(i)) => axis
+                .values
+                .iter()
+                .map(|v| Series {
+                    label: format!(
+                        "{} at {} = {}",
+                        name(i),
+                        axis.key,
+                        super::format::number(*v)
+                    ),
+                    points: Vec::new(),
+                })
+                .collect(),
+            (None, Some(i)) => vec![Series {
+                label: name(i),
+                points: Vec::new(),
+            }],
+            _ => sites
+                .iter()
+                .map(|s| Series {
+                    label: s.clone(),
+                    points: Vec::new(),
+                })
+                .collect(),
+        };
+        Ok(Self {
+            key: plan.vary.key.clone(),
+            series_key: plan.series.as_ref().map(|s| s.key.clone()),
+            site,
+            vary_len: plan.vary.values.len().max(1),
+            lines,
+        })
+    }
+
+    /// Adds the points of one row (a site without dangerous outcomes has no `dc`: no point).
+    pub fn add(&mut self, row: &SweepRow) {
+        match self.site {
+            Some(i) => {
+                let line = if self.series_key.is_some() {
+                    row.index / self.vary_len
+                } else {
+                    0
+                };
+                if let (Some(dc), Some(series)) = (
+                    row.sites.get(i).and_then(|s| s.dc),
+                    self.lines.get_mut(line),
+                ) {
+                    series.points.push((row.x, 100.0 * dc.value));
+                }
+            }
+            None => {
+                for (site, series) in row.sites.iter().zip(self.lines.iter_mut()) {
+                    if let Some(dc) = site.dc {
+                        series.points.push((row.x, 100.0 * dc.value));
+                    }
+                }
+            }
+        }
+    }
+
+    /// The chart: coverage against the swept key, the DC levels, the lowest point marked.
+    pub fn chart(&self, unit: &str) -> Chart {
+        let lowest = self
+            .lines
+            .iter()
+            .flat_map(|l| l.points.iter().map(move |p| (l, *p)))
+            .min_by(|a, b| a.1.1.total_cmp(&b.1.1));
+        Chart {
+            title: match &self.series_key {
+                Some(s) => format!("Worst-case DC against {} for several {s}", self.key),
+                None => format!("Worst-case DC of each fault site against {}", self.key),
+            },
+            x_label: format!("{} [{}]", self.key, unit_of_key(&self.key, unit)),
+            y_label: "worst-case DC = p_vd / (p_vd + p_vu) [%]".into(),
+            x_scale: Scale::Linear,
+            y_scale: Scale::Linear,
+            series: self.lines.clone(),
+            reference_lines: dc_levels(),
+            markers: lowest
+                .map(|(line, (x, y))| Marker {
+                    x,
+                    y,
+                    label: format!(
+                        "lowest: {} % ({}, {} = {})",
+                        super::format::percent_floor(y / 100.0),
+                        line.label,
+                        self.key,
+                        super::format::number(x)
+                    ),
+                })
+                .into_iter()
+                .collect(),
+        }
+    }
+
+    /// The picture as SVG.
+    ///
+    /// # Errors
+    /// The plot module's errors (e.g. no point to draw).
+    pub fn svg(&self, unit: &str) -> Result<String, PlotError> {
+        render_svg(&self.chart(unit), PLOT_SIZE.0, PLOT_SIZE.1)
+    }
+}
+
+/// The unit of a swept key: the file's unit for limits, sigmas, means and amplitudes; none
+/// for correlations, FIT rates, coverages and weights.
+pub fn unit_of_key(key: &str, unit: &str) -> String {
+    let last = key.rsplit(['.', ']']).next().unwrap_or(key);
+    match last {
+        "rho" | "latent_coverage" | "at_least" => "-".to_string(),
+        "fit" => "FIT".to_string(),
+        _ => unit.to_string(),
+    }
+}
+
+/// The spread curve as a chart: both coverage figures against sigma (log), the DC levels and
+/// the worst case marked.
+pub fn spread_chart(curve: &SpreadCurve, unit: &str) -> Chart {
+    let dc: Vec<(f64, f64)> = curve
+        .points
+        .iter()
+        .filter_map(|p| p.outcome.dc().map(|d| (p.sigma, 100.0 * d.value)))
+        .collect();
+    let all: Vec<(f64, f64)> = curve
+        .points
+        .iter()
+        .map(|p| (p.sigma, 100.0 * p.outcome.dc_all_dangerous().value))
+        .collect();
+    let markers = curve
+        .worst
+        .as_ref()
+        .and_then(|site| {
+            site.worst.as_ref().map(|w| Marker {
+                x: w.sigma,
+                y: 100.0 * site.outcome.dc_all_dangerous().value,
+                label: format!(
+                    "worst case: sigma {} {unit}, residual {}",
+                    super::format::number(w.sigma),
+                    super::format::probability(site.outcome.p_vu.value)
+                ),
+            })
+        })
+        .into_iter()
+        .collect();
+    Chart {
+        title: format!("Coverage of fault site '{}' against its spread", curve.site),
+        x_label: format!("sigma of the fault amplitude [{unit}]"),
+        y_label: "coverage [%]".into(),
+        x_scale: Scale::Log,
+        y_scale: Scale::Linear,
+        series: vec![
+            Series {
+                label: "dc = p_vd / (p_vd + p_vu)".into(),
+                points: dc,
+            },
+            Series {
+                label: "dc_all_dangerous = 1 - p_vu".into(),
+                points: all,
+            },
+        ],
+        reference_lines: dc_levels(),
+        markers,
+    }
+}
+
+/// The spread curve as SVG.
+///
+/// # Errors
+/// The plot module's errors.
+pub fn spread_svg(curve: &SpreadCurve, unit: &str) -> Result<String, PlotError> {
+    render_svg(&spread_chart(curve, unit), PLOT_SIZE.0, PLOT_SIZE.1)
+}

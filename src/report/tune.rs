@@ -1,0 +1,238 @@
+//! Output of `concord tune`: a summary for the terminal, the JSON object, and the trade-off
+//! curve (coverage against false-alarm probability) as CSV.
+
+use serde::Serialize;
+
+use crate::analysis::tune::{TradeOffPoint, TuneResult};
+
+use super::cautions::CAUTIONS;
+use super::format::{percent_with_bound, probability};
+use super::plot::{Chart, Marker, PlotError, ReferenceLine, Scale, Series, render_svg};
+use super::sweep::{PLOT_SIZE, csv_field, dc_levels};
+use super::{TOOL_VERSION, input_sha256};
+
+/// `checks.ab.limit = 4.7218` with six significant digits, for text and pictures (the JSON
+/// and CSV carry every digit).
+pub fn short_point(point: &TradeOffPoint) -> String {
+    point
+        .limits
+        .iter()
+        .map(|(k, v)| format!("{k} = {}", significant(*v, 6)))
+        .collect::<Vec<_>>()
+        .join(", ")
+}
+
+/// `v` with `digits` significant digits, trailing zeros dropped.
+fn significant(v: f64, digits: usize) -> String {
+    if v == 0.0 || !v.is_finite() {
+        return format!("{v}");
+    }
+    let magnitude = v.abs().log10().floor() as i32;
+    let decimals = (digits as i32 - 1 - magnitude).max(0) as usize;
+    let s = format!("{v:.decimals$}");
+    if s.contains('.') {
+        s.trim_end_matches('0').trim_end_matches('.').to_string()
+    } else {
+        s
+    }
+}
+
+/// The summary for the terminal: the chosen limit, what it reaches, the price, and plain
+/// words when the target cannot be met.
+pub fn summary(result: &TuneResult, file: &str) -> String {
+    let r = &result.request;
+    let what = match &r.check {
+        Some(c) => format!("check '{c}'"),
+        None => "every check, bands scaled together".to_string(),
+    };
+    let sites = if r.sites.is_empty() {
+        "every fault site".to_string()
+    } else {
+        r.sites.join(", ")
+    };
+    let mut out = format!(
+        "Tuning of {what} in {file}\n\
+         target: worst-case {} >= {} on {sites} (a point counts only when its value minus its \
+         error bound meets the target)\n\
+         range searched: {} to {} times the bands in the file, {} curve points, {} analyses\n\n",
+        r.figure.key(),
+        r.target,
+        r.scale_range.0,
+        r.scale_range.1,
+        r.curve_points,
+        result.evaluations
+    );
+    match &result.chosen {
+        Some(p) => {
+            out.push_str(&format!(
+                "chosen: {}\n  scale on the file's bands  {:.6}\n  lowest {} {}  (site {})\n  \
+                 false-alarm probability    {}\n",
+                short_point(p),
+                p.scale,
+                r.figure.key(),
+                percent_with_bound(p.coverage),
+                if p.weakest_site.is_empty() {
+                    "none dangerous"
+                } else {
+                    &p.weakest_site
+                },
+                probability(p.false_alarm.value)
+            ));
+            if let Some(f) = &result.first_failing {
+                out.push_str(&format!(
+                    "  a band wider than {} misses the target ({} {})\n",
+                    short_point(f),
+                    r.figure.key(),
+                    percent_with_bound(f.coverage)
+                ));
+            }
+            if result.at_range_end {
+                out.push_str(
+                    "  the widest band of the range meets the target: a wider range may allow a \
+                     cheaper band (give --scale LO:HI)\n",
+                );
+            }
+        }
+        None => {
+            let b = &result.best_reachable;
+            out.push_str(&format!(
+                "no band in the range reaches the target.\n  best reachable: {} {} at {} \
+                 (site {}), false-alarm probability {}\n  narrower bands than the range allows, \
+                 or other diagnostics, are needed\n",
+                r.figure.key(),
+                percent_with_bound(b.coverage),
+                short_point(b),
+                b.weakest_site,
+                probability(b.false_alarm.value)
+            ));
+        }
+    }
+    for w in &result.warnings {
+        out.push_str(&format!("warning: {w}\n"));
+    }
+    out.push('\n');
+    for c in CAUTIONS {
+        out.push_str(&format!("- {c}\n"));
+    }
+    out
+}
+
+#[derive(Serialize)]
+struct TuneJson<'a> {
+    tool_version: &'a str,
+    file: &'a str,
+    input_sha256: String,
+    #[serde(flatten)]
+    result: &'a TuneResult,
+    cautions: &'a [&'a str],
+}
+
+/// The result as one JSON object (the request, the chosen point, the bracket, the curve).
+///
+/// # Errors
+/// Serialisation errors (none expected).
+pub fn json(result: &TuneResult, file: &str, text: &str) -> Result<String, String> {
+    let j = TuneJson {
+        tool_version: TOOL_VERSION,
+        file,
+        input_sha256: input_sha256(text),
+        result,
+        cautions: &CAUTIONS,
+    };
+    serde_json::to_string_pretty(&j)
+        .map(|mut s| {
+            s.push('\n');
+            s
+        })
+        .map_err(|e| e.to_string())
+}
+
+/// The trade-off curve as CSV: `scale`, the keys set, `false_alarm`, `false_alarm_error`,
+/// `coverage`, `coverage_error`, `weakest_site`, `meets`.
+pub fn curve_csv(result: &TuneResult) -> String {
+    let keys: Vec<String> = result
+        .curve
+        .first()
+        .map(|p| p.limits.iter().map(|(k, _)| k.clone()).collect())
+        .unwrap_or_default();
+    let mut out = String::from("scale");
+    for k in &keys {
+        out.push(',');
+        out.push_str(&csv_field(k));
+    }
+    out.push_str(",false_alarm,false_alarm_error,coverage,coverage_error,weakest_site,meets\n");
+    for p in &result.curve {
+        out.push_str(&row(p));
+    }
+    out
+}
+
+fn row(p: &TradeOffPoint) -> String {
+    let mut cells = vec![format!("{:e}", p.scale)];
+    cells.extend(p.limits.iter().map(|(_, v)| format!("{v:e}")));
+    cells.push(format!("{:e}", p.false_alarm.value));
+    cells.push(format!("{:e}", p.false_alarm.error));
+    cells.push(format!("{:e}", p.coverage.value));
+    cells.push(format!("{:e}", p.coverage.error));
+    cells.push(csv_field(&p.weakest_site));
+    cells.push(p.meets.to_string());
+    format!("{}\n", cells.join(","))
+}
+
+/// The trade-off curve as a chart: the lowest coverage over the chosen sites against the
+/// fault-free false-alarm probability (log), the target and the DC levels, the chosen point
+/// marked.
+pub fn trade_off_chart(result: &TuneResult) -> Chart {
+    let r = &result.request;
+    // A false-alarm probability below its own error bound cannot be told from zero and has
+    // no place on a log axis: such points are left out of the picture (not of the CSV).
+    let points: Vec<(f64, f64)> = result
+        .curve
+        .iter()
+        .filter(|p| p.false_alarm.value > p.false_alarm.error)
+        .map(|p| (p.false_alarm.value, 100.0 * p.coverage.value))
+        .collect();
+    let mut reference_lines: Vec<ReferenceLine> = dc_levels()
+        .into_iter()
+        .filter(|l| (l.y - 100.0 * r.target).abs() > 0.5)
+        .collect();
+    reference_lines.push(ReferenceLine {
+        y: 100.0 * r.target,
+        label: format!("target {} %", 100.0 * r.target),
+    });
+    let markers = result
+        .chosen
+        .iter()
+        .map(|p| Marker {
+            x: p.false_alarm.value,
+            y: 100.0 * p.coverage.value,
+            label: format!("chosen: {}", short_point(p)),
+        })
+        .collect();
+    Chart {
+        title: match &r.check {
+            Some(c) => format!("Coverage against false alarms, band of check '{c}' varied"),
+            None => "Coverage against false alarms, every band scaled together".into(),
+        },
+        x_label: "fault-free false-alarm probability [-]".into(),
+        y_label: format!("lowest worst-case {} over the sites [%]", r.figure.key()),
+        x_scale: Scale::Log,
+        y_scale: Scale::Linear,
+        series: vec![Series {
+            label: "trade-off, one point per band (wider bands to the left; false alarms \
+                    below their error bound left out)"
+                .into(),
+            points,
+        }],
+        reference_lines,
+        markers,
+    }
+}
+
+/// The trade-off curve as SVG.
+///
+/// # Errors
+/// The plot module's errors (e.g. every false-alarm probability zero on the log axis).
+pub fn trade_off_svg(result: &TuneResult) -> Result<String, PlotError> {
+    render_svg(&trade_off_chart(result), PLOT_SIZE.0, PLOT_SIZE.1)
+}
