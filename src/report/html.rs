@@ -300,13 +300,17 @@ fn scope(o: &mut String, input: &ReportInput<'_>, doc: &AnalysisJson) {
     };
     let _ = writeln!(
         o,
-        "<p>This report states, for each listed fault site of <em>{}</em>, the probability that the fault drives the output <code>{}</code> out of its safety band [{}, {}] {} with and without the diagnostics noticing, and the hardware metrics that follow. The diagnostics are {} check(s); a fault counts as detected when {detection}.</p>",
+        "<p>This report states, for each listed fault site of <em>{}</em>, the probability that the fault drives the output <code>{}</code> out of its safety band [{}, {}] {} with and without the diagnostics noticing, and the hardware metrics that follow. The diagnostics are {}; a fault counts as detected when {detection}.</p>",
         esc(&doc.name),
         esc(&m.output_description),
         esc(&number(m.safety_lower)),
         esc(&number(m.safety_upper)),
         esc(&doc.unit),
-        m.checks.len()
+        if m.checks.len() == 1 {
+            "one check".to_string()
+        } else {
+            format!("{} checks", m.checks.len())
+        }
     );
     o.push_str(
         "<p>In scope: the random hardware faults listed in section 4, each with its failure rate and amplitude model, one at a time, on top of the fault-free noise of the channels. Not in scope: systematic faults (specification, software, tools), faults not listed in the file, multiple-point faults beyond the latent share, the reaction to a detected fault, and timing (fault tolerant time interval).</p>\n",
