@@ -97,7 +97,19 @@ pub fn wilson(k: f64, n: f64, z: f64) -> (f64, f64) {
     let denom = 1.0 + z2 / n;
     let centre = (p + z2 / (2.0 * n)) / denom;
     let half = z * (p * (1.0 - p) / n + z2 / (4.0 * n * n)).sqrt() / denom;
-    ((centre - half).max(0.0), (centre + half).min(1.0))
+    // With no success the lower end is exactly 0 (centre and half width are equal in exact
+    // arithmetic; rounding can leave ~1e-20), with all successes the upper end exactly 1.
+    let lower = if k <= 0.0 {
+        0.0
+    } else {
+        (centre - half).max(0.0)
+    };
+    let upper = if k >= n {
+        1.0
+    } else {
+        (centre + half).min(1.0)
+    };
+    (lower, upper)
 }
 
 fn index(figure: Figure) -> usize {
@@ -493,5 +505,15 @@ mod tests {
         let (lo, hi) = wilson(0.0, 100.0, 1.96);
         assert_eq!(lo, 0.0);
         assert!((hi - 1.96f64.powi(2) / (100.0 + 1.96f64.powi(2))).abs() < 1e-12);
+    }
+
+    #[test]
+    fn wilson_interval_of_no_success_contains_zero_whatever_the_rounding() {
+        // Regression: k = 0 of n = 20 000 at z = 3.29 gave a lower end of 5.4e-20 through
+        // rounding, so an exact probability of 0 was reported as disagreeing.
+        for n in [20_000.0, 200_000.0, 1e6, 12_345.0] {
+            assert_eq!(wilson(0.0, n, Z_999).0, 0.0, "n = {n}");
+            assert_eq!(wilson(n, n, Z_999).1, 1.0, "n = {n}");
+        }
     }
 }

@@ -30,6 +30,10 @@ pub enum Command {
     Tune(TuneArgs),
     /// Put several architectures side by side.
     Compare(CompareArgs),
+    /// Write the report for a safety case: one self-contained HTML file.
+    Report(ReportArgs),
+    /// Run the bundled invented scenario end to end into a folder and list what it wrote.
+    Demo(DemoArgs),
 }
 
 /// Arguments of `concord check`.
@@ -103,6 +107,37 @@ pub struct SelftestArgs {
     /// Output format.
     #[arg(long, value_enum, default_value = "table")]
     pub format: SelftestFormat,
+}
+
+/// Arguments of `concord report`.
+#[derive(Debug, Args)]
+pub struct ReportArgs {
+    /// The architecture file (TOML).
+    pub file: PathBuf,
+    /// Where to write the HTML report.
+    #[arg(short = 'o', long, default_value = "report.html")]
+    pub output: PathBuf,
+    /// The date printed on the report (YYYY-MM-DD); default: SOURCE_DATE_EPOCH if set,
+    /// else today in UTC.
+    #[arg(long, value_name = "YYYY-MM-DD")]
+    pub date: Option<String>,
+    /// Monte Carlo samples per scenario for the cross-check (0: no cross-check).
+    #[arg(long, value_name = "N", default_value_t = 200_000)]
+    pub verify: u64,
+    /// Seed of the Monte Carlo cross-check.
+    #[arg(long, default_value_t = 0x0C0C_0A7D)]
+    pub seed: u64,
+}
+
+/// Arguments of `concord demo`.
+#[derive(Debug, Args)]
+pub struct DemoArgs {
+    /// The folder to write into (created if missing).
+    #[arg(long, default_value = "concord-demo")]
+    pub out: PathBuf,
+    /// The date printed on the reports (YYYY-MM-DD); default as for `concord report`.
+    #[arg(long, value_name = "YYYY-MM-DD")]
+    pub date: Option<String>,
 }
 
 /// Output formats of `concord sweep`.

@@ -9,6 +9,8 @@ pub mod analyze;
 pub mod args;
 pub mod check;
 pub mod compare;
+pub mod demo;
+pub mod report;
 pub mod selftest;
 pub mod sweep;
 pub mod tune;
@@ -67,6 +69,8 @@ pub fn run() -> ExitCode {
         Command::Check(a) => check::run(a),
         Command::Analyze(a) => analyze::run(a),
         Command::Selftest(a) => selftest::run(a),
+        Command::Report(a) => report::run(a),
+        Command::Demo(a) => demo::run(a),
         Command::Sweep(a) => sweep::run(a),
         Command::Tune(a) => tune::run(a),
         Command::Compare(a) => compare::run(a),

@@ -77,6 +77,25 @@ pub fn wrap(text: &str, width: usize) -> Vec<String> {
     lines
 }
 
+/// Text for XML and HTML: `&`, `<`, `>`, `"` and `'` as character references, control
+/// characters other than tab and newline dropped (XML 1.0 does not allow them).
+pub fn xml_escape(text: &str) -> String {
+    let mut out = String::with_capacity(text.len());
+    for c in text.chars() {
+        match c {
+            '&' => out.push_str("&amp;"),
+            '<' => out.push_str("&lt;"),
+            '>' => out.push_str("&gt;"),
+            '"' => out.push_str("&quot;"),
+            '\'' => out.push_str("&#39;"),
+            '\t' | '\n' => out.push(c),
+            c if c.is_control() => {}
+            c => out.push(c),
+        }
+    }
+    out
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -86,5 +105,13 @@ mod tests {
         assert_eq!(percent_floor(0.99996), "99.99");
         assert_eq!(percent_floor(1.0), "100.00");
         assert_eq!(percent_floor(0.5), "50.00");
+    }
+
+    #[test]
+    fn markup_is_escaped() {
+        assert_eq!(
+            xml_escape("a<b & \"c\" 'd'>\u{1}"),
+            "a&lt;b &amp; &quot;c&quot; &#39;d&#39;&gt;"
+        );
     }
 }

@@ -6,13 +6,19 @@
 //! - [`selftest`]: the qualification summary of `concord selftest` (table and JSON).
 //! - [`format`]: number formatting shared by the text formats.
 //! - [`plot`]: line charts as SVG (curves over sigma, sweeps, tuning).
+//! - [`diagram`]: the architecture drawn from the model graph, as SVG.
+//! - [`html`]: the self-contained HTML report for a safety case.
+//! - [`date`]: the report date (given, `SOURCE_DATE_EPOCH`, or today in UTC).
 //! - [`cautions`]: the cautions every report carries.
 //! - [`sweep`], [`tune`], [`compare`]: the outputs of the design-exploration commands.
 
 pub mod cautions;
 pub mod compare;
 pub mod csv;
+pub mod date;
+pub mod diagram;
 pub mod format;
+pub mod html;
 pub mod json;
 pub mod plot;
 pub mod selftest;

@@ -326,7 +326,8 @@ pub fn tick_label(value: f64) -> String {
     }
 }
 
-/// Draws `chart` as an SVG document `width` x `height` pixels.
+/// Draws `chart` as an SVG document (font sizes in the SVG are those of plotters, which
+/// writes a requested size `s` as `s / 1.24` px) `width` x `height` pixels.
 ///
 /// # Errors
 /// [`PlotError::Size`] for a size outside [`MIN_WIDTH`]..[`MAX_SIDE`] x
@@ -359,7 +360,7 @@ pub fn render_svg(chart: &Chart, width: u32, height: u32) -> Result<String, Plot
             .draw(&Text::new(
                 chart.title.clone(),
                 (12, 8),
-                TextStyle::from((FONT, 16).into_font().style(FontStyle::Bold))
+                TextStyle::from((FONT, 19).into_font().style(FontStyle::Bold))
                     .color(&INK)
                     .pos(Pos::new(HPos::Left, VPos::Top)),
             ))
@@ -402,6 +403,21 @@ pub fn render_svg(chart: &Chart, width: u32, height: u32) -> Result<String, Plot
 }
 
 type DrawResult = Result<(), DrawingAreaErrorKind<std::io::Error>>;
+
+/// Right margin: room for the longest reference-line label (about 7 px per character at
+/// the label size).
+fn reference_margin(lines: &[ReferenceLine]) -> u32 {
+    let longest = lines
+        .iter()
+        .map(|r| r.label.chars().count())
+        .max()
+        .unwrap_or(0);
+    if longest == 0 {
+        18
+    } else {
+        (14 + 7 * longest as u32).min(240)
+    }
+}
 
 fn legend_columns(width: u32) -> usize {
     ((width.saturating_sub(24)) / 230).max(1) as usize
@@ -454,11 +470,7 @@ where
     let mut ctx = ChartBuilder::on(area)
         .margin_left(8)
         // Room on the right for the labels of the reference lines.
-        .margin_right(if data.reference_lines.is_empty() {
-            18
-        } else {
-            72
-        })
+        .margin_right(reference_margin(&data.reference_lines))
         .margin_top(6)
         .margin_bottom(4)
         .x_label_area_size(44)
@@ -474,8 +486,8 @@ where
         .bold_line_style(GRID.stroke_width(1))
         .light_line_style(TRANSPARENT)
         .axis_style(INK.stroke_width(1))
-        .label_style((FONT, 12).into_font().color(&INK))
-        .axis_desc_style((FONT, 13).into_font().color(&INK))
+        .label_style((FONT, 14).into_font().color(&INK))
+        .axis_desc_style((FONT, 15).into_font().color(&INK))
         .draw()?;
 
     let (x0, x1) = data.x;
@@ -492,7 +504,7 @@ where
                 + Text::new(
                     r.label.clone(),
                     (5, 0),
-                    TextStyle::from((FONT, 11).into_font())
+                    TextStyle::from((FONT, 13).into_font())
                         .color(&REFERENCE_INK)
                         .pos(Pos::new(HPos::Left, VPos::Center)),
                 ),
@@ -568,7 +580,7 @@ where
                 + Text::new(
                     m.label.clone(),
                     (dx, -8),
-                    TextStyle::from((FONT, 12).into_font().style(FontStyle::Bold))
+                    TextStyle::from((FONT, 14).into_font().style(FontStyle::Bold))
                         .color(&INK)
                         .pos(Pos::new(anchor, VPos::Bottom)),
                 ),
@@ -607,7 +619,7 @@ fn draw_legend(
         area.draw(&Text::new(
             label.clone(),
             (x + 42, y),
-            TextStyle::from((FONT, 12).into_font())
+            TextStyle::from((FONT, 14).into_font())
                 .color(&INK)
                 .pos(Pos::new(HPos::Left, VPos::Center)),
         ))?;

@@ -1,0 +1,125 @@
+//! `concord report FILE [-o report.html]`: the HTML report for a safety case.
+
+use std::path::Path;
+
+use crate::analysis::montecarlo::{MonteCarloOptions, verify};
+use crate::analysis::{AnalysisOptions, analyze};
+use crate::report::ReportInput;
+use crate::report::date::report_date;
+use crate::report::html::{self, HtmlOptions};
+
+use super::args::ReportArgs;
+use super::{EXIT_FINDING, Failure, load};
+
+/// A written report, for the message the command prints.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Written {
+    /// The architecture's name.
+    pub name: String,
+    /// Size of the HTML in bytes.
+    pub bytes: usize,
+    /// Figures of the cross-check that agree, and all of them (`None` when not run).
+    pub agreement: Option<(usize, usize)>,
+}
+
+/// Analyses `file` (with the curves over sigma and, unless `samples` is 0, the Monte Carlo
+/// cross-check) and returns the report's HTML.
+///
+/// # Errors
+/// An invalid file (exit code 2), a failed computation or a date that cannot be read.
+pub fn build(
+    file: &Path,
+    date: Option<&str>,
+    samples: u64,
+    seed: u64,
+) -> Result<(String, Written), Failure> {
+    let epoch = std::env::var("SOURCE_DATE_EPOCH").ok();
+    let date =
+        report_date(date, epoch.as_deref()).map_err(|e| Failure::input(format!("concord: {e}")))?;
+    let arch = load(file)?;
+    let options = AnalysisOptions::default();
+    let analysis = analyze(&arch.model, &options, true)
+        .map_err(|e| Failure::computation(format!("concord: {e}")))?;
+    let mc = MonteCarloOptions { samples, seed };
+    let verification = if samples > 0 {
+        Some(
+            verify(&arch.model, &analysis, &mc)
+                .map_err(|e| Failure::input(format!("concord: {e}")))?,
+        )
+    } else {
+        None
+    };
+    let command = if samples > 0 {
+        format!(
+            "concord report {} --date {date} --verify {samples} --seed {seed}",
+            file.display()
+        )
+    } else {
+        format!("concord report {} --date {date} --verify 0", file.display())
+    };
+    let input = ReportInput {
+        architecture: &arch,
+        analysis: &analysis,
+        method: "exact",
+        verification: verification.as_deref(),
+    };
+    let text = html::render(
+        &input,
+        &HtmlOptions {
+            date,
+            command,
+            monte_carlo: (samples > 0).then_some((samples, seed)),
+        },
+    );
+    let written = Written {
+        name: arch.model.name.clone(),
+        bytes: text.len(),
+        agreement: verification
+            .as_ref()
+            .map(|rows| (rows.iter().filter(|r| r.agrees).count(), rows.len())),
+    };
+    Ok((text, written))
+}
+
+/// Writes `text` to `path`, naming the path in the error.
+pub fn write_file(path: &Path, text: &str) -> Result<(), Failure> {
+    std::fs::write(path, text).map_err(|e| {
+        Failure::input(format!(
+            "concord: cannot write {}: {e}; check that its folder exists and is writable",
+            path.display()
+        ))
+    })
+}
+
+/// One line saying what was written.
+pub fn describe(path: &Path, w: &Written) -> String {
+    let check = match w.agreement {
+        Some((a, n)) => format!("; cross-check: {a} of {n} figures agree"),
+        None => "; cross-check not run".to_string(),
+    };
+    format!(
+        "wrote {} ({:.1} kB): {}{check}\n",
+        path.display(),
+        w.bytes as f64 / 1000.0,
+        w.name
+    )
+}
+
+/// Runs `concord report`.
+pub fn run(args: &ReportArgs) -> Result<String, Failure> {
+    let (text, written) = build(&args.file, args.date.as_deref(), args.verify, args.seed)?;
+    write_file(&args.output, &text)?;
+    let line = describe(&args.output, &written);
+    if let Some((a, n)) = written.agreement
+        && a < n
+    {
+        return Err(Failure {
+            code: EXIT_FINDING,
+            message: "concord: the Monte Carlo cross-check disagrees on some figures (see \
+                      section 9 of the report)"
+                .into(),
+            output: Some(line),
+        });
+    }
+    Ok(line)
+}
