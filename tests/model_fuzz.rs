@@ -585,7 +585,8 @@ fn the_strategy_writes_mostly_valid_architectures() {
 /// sigma 1e-3. The four baseline figures sum to 0.999974701 while their bounds add up to
 /// 8.1e-8: a bound that does not hold (the Monte Carlo engine agrees with p_vd and p_vu
 /// within its interval, so the deficit sits in p_sd and p_sq). Open (see the issue note);
-/// the proptest generator is held to sigmas in [1e-4, 1e3] and limits >= 1e-2 meanwhile.
+/// the proptest generator is held to sigmas of 0 or in [1e-4, 1e3] and limits >= 1e-2
+/// meanwhile.
 #[test]
 #[ignore = "open: figure bounds do not hold when limits are far below the noise"]
 fn bounds_hold_when_limits_are_far_below_the_noise() {
