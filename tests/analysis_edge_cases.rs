@@ -8,7 +8,8 @@
 //! The cases: DC above 99.9999 %, residuals near 1e-12 (two channels, and the median of
 //! three), sigmas from 1e-6 to 1e6 in one file, rho of exactly +1 and -1 (equal and unequal
 //! sigmas), safety limits 28 and 42 output sigmas out in the tail, full scale a million
-//! times the noise (uniform amplitudes, added and replacing).
+//! times the noise (uniform amplitudes, added and replacing), and steps of noise width 1e-6
+//! in a uniform amplitude range of 2e5.
 //!
 //! Every figure is held to `|concord - reference| <= concord's bound + tol + ROUNDING`, and
 //! every figure below 1e-3 to a relative accuracy (`SMALL_REL`): a tail probability is only
@@ -158,7 +159,7 @@ fn run_with(name: &str, options: &AnalysisOptions, relative: bool) -> concord::a
 fn table_names_its_tools() {
     let t = table();
     assert_eq!(t.versions.mpmath, "1.3.0");
-    assert_eq!(t.cases.len(), 10);
+    assert_eq!(t.cases.len(), 11);
 }
 
 #[test]
@@ -255,4 +256,11 @@ fn full_scale_a_million_times_the_noise() {
             "{x:?} vs {y:?}"
         );
     }
+}
+
+#[test]
+fn uniform_steps_a_micrometre_wide_in_a_range_of_2e5() {
+    // The amplitude breakpoints around each step must survive (they once were merged at a
+    // gap of 1e-9 of the range, 2e-4 here, two hundred noise widths).
+    run("uniform_steps_of_noise_width");
 }

@@ -953,3 +953,79 @@ fn error_bound_covers_a_precise_rerun_in_99_percent() {
     println!("error bound coverage: {covered} / {total} = {rate:.3}");
     assert!(rate >= 0.99, "coverage {rate}");
 }
+
+/// Two nearly parallel rows: `X >= 0` and `X + eps Y <= 0` for independent standard `X`,
+/// `Y` hold on a wedge of angle `atan(eps)`, so the probability is `atan(eps) / (2 pi)`
+/// (Sheppard 1899, the orthant formula with `asin(rho) = atan(eps) - pi / 2`). At
+/// `eps = 1e-9` the cosine of the two directions rounds to 1, and a bivariate law built
+/// from it alone would be degenerate (probability 0): the sine has to come from the
+/// directions themselves.
+#[test]
+fn nearly_parallel_rows_keep_their_wedge() {
+    let g = gaussian(&[0.0, 0.0], &[1.0, 0.0, 0.0, 1.0]);
+    for eps in [1e-3, 1e-6, 1e-9, 1e-12, 1e-15] {
+        let mut p = Polytope::new();
+        p.push(vec![1.0, 0.0], Band::above(0.0));
+        p.push(vec![1.0, eps], Band::below(0.0));
+        let got = g.probability_detailed(&p, &tol(1e-15, 1e-10)).unwrap();
+        let want = eps.atan() / (2.0 * PI);
+        assert_covers(
+            &format!("wedge eps {eps:e}"),
+            got.estimate.value,
+            got.estimate.error,
+            want,
+            0.0,
+        );
+        // Down to 1e-12 the two rows stay apart and the answer is relative; at 1e-15 they
+        // are merged (directions equal to rounding) and only the bound has to hold.
+        assert!(
+            eps < 1e-13 || (got.estimate.value - want).abs() <= 1e-9 * want,
+            "eps {eps:e}: {:e} vs {want:e}, relative accuracy lost",
+            got.estimate.value
+        );
+    }
+}
+
+/// A rank-three polytope whose binding rows are two (the third channel sits half a million
+/// sigmas away, so its rows hold with probability 1 to every digit): its probability is
+/// the bivariate orthant of those two rows, from the owens-t crate (Patefield and Tandy
+/// 2000, an implementation outside the project). The second row switches on in the far
+/// tail of the first conditioning variable (between 3.3 and 3.7 sigma), a part of the
+/// outer integral that holds 0.03 % of its mass; before the switch got breakpoints the
+/// nested rule sampled around it and reported 0.99987487 ± 1e-13 for 0.99986031.
+#[test]
+fn switch_in_the_tail_of_the_outer_variable() {
+    // x0 = -3.7363 + s + 1.01264 e0, x1 = s, x2 = 537475.69 + s + e2, with s ~ N(0, 0.1^2).
+    let (m0, k0) = (-3.736314577585365, 1.0126370161766176f64);
+    let s2 = 0.01;
+    let cov = [
+        s2 + k0 * k0,
+        s2,
+        s2, //
+        s2,
+        s2,
+        s2, //
+        s2,
+        s2,
+        s2 + 1.0,
+    ];
+    let g = gaussian(&[m0, 0.0, 537475.6921477073], &cov);
+    let mut p = Polytope::new();
+    p.push(vec![-1.0, 1.0, 0.0], Band::closed(0.0, f64::INFINITY));
+    p.push(vec![-1.0, 0.0, 1.0], Band::closed(0.0, f64::INFINITY));
+    p.push(vec![0.0, -1.0, 1.0], Band::closed(0.0, f64::INFINITY));
+    p.push(vec![1.0, 0.0, 0.0], Band::below(-0.01));
+    p.push(vec![1.0, -1.0, 0.0], Band::below(-0.01));
+    let got = g.probability_detailed(&p, &tol(1e-12, 1e-10)).unwrap();
+    // A = -x0 and B = x1 - x0: means -m0, variances s2 + k0^2 and k0^2, covariance k0^2.
+    let (sa, sb) = ((s2 + k0 * k0).sqrt(), k0);
+    let rho = k0 * k0 / (sa * sb);
+    let want = owens_t::biv_norm((0.01 + m0) / sa, (0.01 + m0) / sb, rho);
+    assert_covers(
+        "tail switch",
+        got.estimate.value,
+        got.estimate.error,
+        want,
+        1e-13,
+    );
+}

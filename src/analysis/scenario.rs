@@ -119,12 +119,18 @@ impl FaultScenario {
         let n = row.len().min(self.direction.len());
         let mean: f64 = (0..n).map(|i| row[i] * self.base_mean[i]).sum();
         let slope: f64 = (0..n).map(|i| row[i] * self.direction[i]).sum();
-        let mut var = 0.0;
-        for i in 0..n {
-            for j in 0..n {
-                var += row[i] * self.base_cov[(i, j)] * row[j];
+        (mean, slope, self.row_covariance(row, row).max(0.0).sqrt())
+    }
+
+    /// Covariance of the random parts of two linear rows, `a' base_cov b`.
+    pub fn row_covariance(&self, a: &[f64], b: &[f64]) -> f64 {
+        let n = a.len().min(b.len()).min(self.direction.len());
+        let mut cov = 0.0;
+        for (i, ai) in a.iter().enumerate().take(n) {
+            for (j, bj) in b.iter().enumerate().take(n) {
+                cov += ai * self.base_cov[(i, j)] * bj;
             }
         }
-        (mean, slope, var.max(0.0).sqrt())
+        cov
     }
 }

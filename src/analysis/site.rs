@@ -178,7 +178,7 @@ pub fn analyze_site(
         }
     };
     let sum = outcome.sum();
-    if (sum.value - 1.0).abs() > sum.error + 1e-9 {
+    if (sum.value - 1.0).abs() > sum.error + SUM_ROUNDING {
         warnings.push(format!(
             "the four figures of '{}' sum to {:.12} instead of 1 (bound {:.1e}): treat them with care",
             fault.name, sum.value, sum.error
@@ -240,6 +240,66 @@ pub struct AmplitudeWindow {
     pub moving: bool,
 }
 
+/// Two rows whose random parts have a correlation this close to +-1 (`1 - |rho|` below
+/// it) are nearly parallel: their ends can meet at a sharp kink of the integrand.
+const PARALLEL_ROWS: f64 = 0.01;
+
+/// Breakpoints where two nearly parallel rows of a polytope trade places as the amplitude
+/// moves: where their standardised ends coincide (for negative correlation, mirror each
+/// other). With the rows' random parts nearly equal, the polytope's probability has a kink
+/// there, smoothed only over the small spread of their difference (for instance a guard
+/// `x_c0 + F <= x_c2` and a safety end `x_c2 >= -L`, both random through `x_c2` but whose
+/// difference has the tiny sigma of `c0`: the kink sits at `F = -L`). No single row
+/// marks it, and the Kronrod error estimate can miss it. Each kink gets the same points as
+/// a row's band end: the centre and 2 and 6 of its widths either side.
+fn pair_kinks(polytope: &Polytope, scenario: &FaultScenario) -> Vec<f64> {
+    let profiles: Vec<(f64, f64, f64)> = polytope
+        .rows
+        .iter()
+        .map(|row| scenario.row_profile(row))
+        .collect();
+    let mut points = Vec::new();
+    for i in 0..profiles.len() {
+        for j in i + 1..profiles.len() {
+            let ((mi, si, di), (mj, sj, dj)) = (profiles[i], profiles[j]);
+            if !(di > 0.0 && dj > 0.0) {
+                continue;
+            }
+            let rho = scenario.row_covariance(&polytope.rows[i], &polytope.rows[j]) / (di * dj);
+            // (NaN, from a zero variance, is not nearly parallel either)
+            if rho.is_nan() || 1.0 - rho.abs() >= PARALLEL_ROWS {
+                continue;
+            }
+            let sign = rho.signum();
+            // Standardised end h(F) = (end - mean - slope F) / sd; the kink solves
+            // h_i(F) = sign h_j(F).
+            let rate = si / di - sign * sj / dj;
+            if rate == 0.0 || !rate.is_finite() {
+                continue;
+            }
+            let width = (2.0 * (1.0 - rho.abs())).max(0.0).sqrt() / rate.abs();
+            let (bi, bj) = (&polytope.bands[i], &polytope.bands[j]);
+            for ei in [bi.lower, bi.upper] {
+                for ej in [bj.lower, bj.upper] {
+                    if !(ei.is_finite() && ej.is_finite()) {
+                        continue;
+                    }
+                    let centre = ((ei - mi) / di - sign * (ej - mj) / dj) / rate;
+                    points.push(centre);
+                    for k in [-6.0, -2.0, 2.0, 6.0] {
+                        points.push(centre + k * width);
+                    }
+                }
+            }
+        }
+    }
+    points
+}
+
+/// Rounding allowance of the sum of the four figures (a few units in the last place of 1)
+/// before a site warns that they do not sum to 1 within their bounds.
+const SUM_ROUNDING: f64 = 1e-12;
+
 /// The [`AmplitudeWindow`] of one polytope (see there).
 pub fn amplitude_window(
     polytope: &Polytope,
@@ -285,9 +345,12 @@ pub fn amplitude_window(
     if lo >= hi {
         return None;
     }
+    points.extend(pair_kinks(polytope, scenario));
     points.retain(|p| p.is_finite() && *p > lo && *p < hi);
     points.sort_by(f64::total_cmp);
-    let min_gap = (hi - lo) * 1e-9;
+    // Only points that rounding cannot tell apart are merged: a step as narrow as its
+    // noise width (sigmas decades below the amplitude range) needs its own breakpoints.
+    let min_gap = 8.0 * f64::EPSILON * lo.abs().max(hi.abs());
     points.dedup_by(|a, b| (*a - *b).abs() <= min_gap);
     Some(AmplitudeWindow {
         lower: lo,

@@ -167,6 +167,32 @@ impl StandardBivariate {
         StandardBivariate { rho, method }
     }
 
+    /// The distribution with correlation `rho` when the caller also knows
+    /// `complement = sqrt(1 - rho^2)` to full relative precision (the sine of the angle
+    /// between two directions, `1 / sqrt(1 + c^2)` for the slope `c` of a strip).
+    ///
+    /// Near `|rho| = 1` the complement cannot be recovered from a rounded `rho`: at
+    /// `1 - rho = 5e-13` one rounding of `rho` moves `1 - rho^2` by 2e-4 relative, and the
+    /// rectangles of the nearly degenerate law (whose mass spreads over a band of width
+    /// `complement` about the diagonal) move by about `phi * complement * 1e-4`. Given here,
+    /// the integral about `|rho| = 1` uses it directly, and `rho` only for its sign; a
+    /// positive complement keeps that integral even where `rho` has rounded to `+-1`.
+    /// A complement that is zero, NaN or not below 1 falls back to [`Self::new`].
+    pub fn with_complement(rho: f64, complement: f64) -> Self {
+        let strong = rho.is_finite()
+            && rho.abs() > STRONG_RHO
+            && rho.abs() <= 1.0 + tolerance::CORRELATION_SLACK
+            && complement > 0.0
+            && complement < 1.0;
+        if !strong {
+            return Self::new(rho);
+        }
+        StandardBivariate {
+            rho: rho.clamp(-1.0, 1.0),
+            method: Method::Strong(Strong::from_complement(complement)),
+        }
+    }
+
     /// The correlation (after clamping).
     pub fn rho(&self) -> f64 {
         self.rho
@@ -383,8 +409,12 @@ impl Moderate {
 impl Strong {
     /// For `r = |rho|` in `(0.925, 1)`.
     fn new(r: f64) -> Self {
-        let a2 = (1.0 - r) * (1.0 + r);
-        let a = a2.sqrt();
+        Self::from_complement(((1.0 - r) * (1.0 + r)).sqrt())
+    }
+
+    /// For `a = sqrt(1 - rho^2)` in `(0, sqrt(1 - 0.925^2))`.
+    fn from_complement(a: f64) -> Self {
+        let a2 = a * a;
         let rule = legendre::RULE_20;
         let mut s = Strong {
             a,

@@ -38,7 +38,7 @@
 use nalgebra::DMatrix;
 use serde::Serialize;
 
-use crate::prob::bivariate;
+use crate::prob::bivariate::StandardBivariate;
 use crate::prob::cholesky::{self, Factor};
 use crate::prob::error::ProbError;
 use crate::prob::estimate::Estimate;
@@ -526,8 +526,11 @@ impl Gaussian {
             Reduced::Rows(rows) => rows,
         };
         let directions = rows.len();
-        let rounding =
-            |value: f64| -> f64 { rows.iter().map(|row| row.rounding_error(value)).sum() };
+        let rounding = |value: f64| -> f64 {
+            rows.iter()
+                .map(|row| row.rounding_error(value) + row.tilt_error())
+                .sum()
+        };
         let with_error = |value: f64, error: f64, method: Method, points, variables| {
             let value = value.clamp(0.0, 1.0);
             PolytopeProbability {
@@ -554,17 +557,9 @@ impl Gaussian {
         if rows.len() == 2 && options.exact_paths {
             // Two unit directions: the bivariate normal rectangle (Genz 2004) with the cosine
             // of the two directions as the correlation.
-            let rho: f64 = rows[0]
-                .dir
-                .iter()
-                .zip(&rows[1].dir)
-                .map(|(a, b)| a * b)
-                .sum();
-            let rho = rho.clamp(-1.0, 1.0);
-            let e = bivariate::rectangle_estimate(
+            let e = pair_law(&rows[0], &rows[1]).rectangle_estimate(
                 [rows[0].lower, rows[1].lower],
                 [rows[0].upper, rows[1].upper],
-                rho,
             );
             return Ok(with_error(e.value, e.error, Method::Bivariate, 0, 2));
         }
@@ -581,11 +576,9 @@ impl Gaussian {
                 // Sharper: the smallest probability of two slabs together.
                 'pairs: for (i, first) in rows.iter().enumerate() {
                     for second in &rows[i + 1..] {
-                        let rho: f64 = first.dir.iter().zip(&second.dir).map(|(a, b)| a * b).sum();
-                        let e = bivariate::rectangle_estimate(
+                        let e = pair_law(first, second).rectangle_estimate(
                             [first.lower, second.lower],
                             [first.upper, second.upper],
-                            rho.clamp(-1.0, 1.0),
                         );
                         bound = bound.min(e.value + e.error);
                         if bound <= tol.abs {
@@ -609,12 +602,13 @@ impl Gaussian {
         let plan = Plan::build(&rows, rank);
         if plan.variables == 1 {
             let value = plan.first_factor();
-            let error = value * tolerance::ROUNDING_REL;
+            let error = value * tolerance::ROUNDING_REL + plan.neglect_error();
             return Ok(with_error(value, error, Method::Univariate, 0, 1));
         }
         if options.exact_paths && plan.variables == 2 {
             let e = plan.pair_tail(&[]);
-            return Ok(with_error(e.value, e.error, Method::Planar, 0, 2));
+            let error = e.error + plan.neglect_error();
+            return Ok(with_error(e.value, error, Method::Planar, 0, 2));
         }
         // Rounding of the sums and of the integrand, relative to the value.
         let floor_rel = tolerance::ROUNDING_REL * (plan.variables as f64 + 1.0);
@@ -630,7 +624,8 @@ impl Gaussian {
             )
         } else {
             // The lattice must leave room for the rounding terms added below.
-            let target = |v: f64| tol.target(v) - rounding(v) - floor_rel * v.abs();
+            let target =
+                |v: f64| tol.target(v) - rounding(v) - floor_rel * v.abs() - plan.neglect_error();
             let outcome = plan.integrate(tol.max_points, options.seed, target, options.exact_paths);
             (
                 outcome.value,
@@ -640,7 +635,7 @@ impl Gaussian {
                 Method::Lattice,
             )
         };
-        let floor = value.abs() * floor_rel;
+        let floor = value.abs() * floor_rel + plan.neglect_error();
         let result = with_error(value, error + floor, method, points, plan.variables);
         if !converged && !options.best_effort {
             return Err(ProbError::BudgetExhausted {
@@ -745,6 +740,7 @@ impl Gaussian {
                 lower,
                 upper,
                 slack,
+                tilt: 0.0,
             };
             rows_merge(&mut rows, new);
         }
@@ -752,20 +748,24 @@ impl Gaussian {
     }
 }
 
-/// Add a unit row, intersecting it with a parallel or antiparallel row already present.
+/// Add a unit row, intersecting it with a parallel or antiparallel row already present
+/// (the small difference of the two directions is kept as the merged row's tilt).
 fn rows_merge(rows: &mut Vec<UnitRow>, new: UnitRow) {
     for row in rows.iter_mut() {
-        let same = row
-            .dir
-            .iter()
-            .zip(new.dir.iter())
-            .all(|(a, b)| (a - b).abs() <= tolerance::PARALLEL_ROW_ABS);
-        let opposite = row
-            .dir
-            .iter()
-            .zip(new.dir.iter())
-            .all(|(a, b)| (a + b).abs() <= tolerance::PARALLEL_ROW_ABS);
+        let gap = |sign: f64| -> f64 {
+            row.dir
+                .iter()
+                .zip(new.dir.iter())
+                .map(|(a, b)| (a - sign * b) * (a - sign * b))
+                .sum::<f64>()
+                .sqrt()
+        };
+        let (same_gap, opposite_gap) = (gap(1.0), gap(-1.0));
+        let same = same_gap <= tolerance::PARALLEL_ROW_ABS;
+        let opposite = opposite_gap <= tolerance::PARALLEL_ROW_ABS;
         if same || opposite {
+            let turn = if same { same_gap } else { opposite_gap };
+            row.tilt = row.tilt.max(new.tilt + MEAN_ABS_NORMAL * turn);
             let (lower, upper) = if same {
                 (new.lower, new.upper)
             } else {
@@ -795,6 +795,10 @@ struct UnitRow {
     upper: f64,
     /// Bound on the rounding error of `lower` and `upper`.
     slack: f64,
+    /// Mean size `E|d . z|` of a direction `d` dropped from the row (a nearly parallel row
+    /// merged into it, or a residual left out of the sequential conditioning): its ends
+    /// then move at random by that much (see [`UnitRow::tilt_error`]).
+    tilt: f64,
 }
 
 impl UnitRow {
@@ -811,6 +815,18 @@ impl UnitRow {
             }
         };
         self.slack * (end(self.lower) + end(self.upper))
+    }
+
+    /// What the dropped direction can change: the probability that the row's value and
+    /// its tilted value lie on two sides of an end `h` is at most the density there times
+    /// the mean shift, `tilt * phi(h)` per finite end. Absolute, not relative: a slab
+    /// thinner than the tilt can lose all of its probability.
+    fn tilt_error(&self) -> f64 {
+        if self.tilt == 0.0 {
+            return 0.0;
+        }
+        let end = |h: f64| if h.is_finite() { normal::pdf(h) } else { 0.0 };
+        self.tilt * (end(self.lower) + end(self.upper))
     }
 }
 
@@ -830,9 +846,38 @@ struct PlanRow {
 struct Plan {
     variables: usize,
     groups: Vec<Vec<PlanRow>>,
+    /// Rows that joined a group with a small residual direction dropped, as tilt on their
+    /// ends: the error that dropping adds (see [`Plan::neglect_error`]).
+    neglected: Vec<UnitRow>,
     /// The slopes on the second-to-last variable of the last group's strip rows (every row
     /// of that group that is not an indicator), for the exact pair tail.
     last_strips: Strips,
+}
+
+/// The standard bivariate law of two unit directions: correlation their cosine, and the
+/// complement `sqrt(1 - rho^2)` their sine from Lagrange's identity
+/// `|a|^2 |b|^2 - (a.b)^2 = sum_{i<j} (a_i b_j - a_j b_i)^2`, which keeps full relative
+/// precision for nearly parallel directions (channel sigmas decades apart), where
+/// `1 - rho^2` from a rounded cosine would not (see [`StandardBivariate::with_complement`]).
+fn pair_law(first: &UnitRow, second: &UnitRow) -> StandardBivariate {
+    let (a, b) = (&first.dir, &second.dir);
+    let rho: f64 = a.iter().zip(b).map(|(x, y)| x * y).sum();
+    let mut wedge = 0.0;
+    for i in 0..a.len().min(b.len()) {
+        for j in i + 1..a.len().min(b.len()) {
+            let t = a[i] * b[j] - a[j] * b[i];
+            wedge += t * t;
+        }
+    }
+    StandardBivariate::with_complement(rho.clamp(-1.0, 1.0), wedge.sqrt())
+}
+
+/// The interval of one nested variable cut to where the integrand can be non-zero, and
+/// breakpoints where later rows switch on or off (see [`Plan::switches`]).
+struct Switches {
+    lower: f64,
+    upper: f64,
+    points: Vec<f64>,
 }
 
 /// Outcome of the nested (three-variable) path.
@@ -866,6 +911,9 @@ fn truncated_mean(a: f64, b: f64) -> f64 {
         fallback()
     }
 }
+
+/// `E|Z| = sqrt(2 / pi)` for standard normal `Z`.
+const MEAN_ABS_NORMAL: f64 = 0.797_884_560_802_865_4;
 
 /// Largest magnitude of a conditioning variable (the normal quantile of the smallest
 /// positive double is about -38.5).
@@ -903,6 +951,7 @@ impl Plan {
         let mut remaining: Vec<usize> = (0..m).collect();
         let mut means: Vec<f64> = Vec::new();
         let mut groups: Vec<Vec<usize>> = Vec::new();
+        let mut neglected: Vec<UnitRow> = Vec::new();
         for j in 0..rank {
             if remaining.is_empty() {
                 break;
@@ -949,6 +998,17 @@ impl Plan {
                 let res = w[q][j + 1..].iter().map(|t| t * t).sum::<f64>().sqrt();
                 if res <= tolerance::LINEAR_DEPENDENCE_ABS {
                     group.push(q);
+                    if res > 0.0 {
+                        // Dropping `res * Z` from the row moves its ends by that much, on
+                        // average E|Z| = sqrt(2 / pi) times res.
+                        neglected.push(UnitRow {
+                            dir: Vec::new(),
+                            lower: rows[q].lower,
+                            upper: rows[q].upper,
+                            slack: 0.0,
+                            tilt: MEAN_ABS_NORMAL * res,
+                        });
+                    }
                     false
                 } else {
                     true
@@ -1022,6 +1082,7 @@ impl Plan {
         Plan {
             variables,
             groups,
+            neglected,
             last_strips: Strips::new(&slopes),
         }
     }
@@ -1112,13 +1173,24 @@ impl Plan {
         let Some((a, b)) = bounds(&self.groups[j], prefix) else {
             return Ok(none);
         };
+        let Some(switches) = self.switches(prefix, a, b) else {
+            return Ok(none);
+        };
+        let (a, b) = (switches.lower, switches.upper);
         let mass = normal::interval(a, b);
         if mass.is_nan() || mass <= 0.0 {
             return Ok(none);
         }
+        let prism = if self.last_is_faint() {
+            self.vertex_projections(prefix, true)
+        } else {
+            Vec::new()
+        };
         let breakpoints: Vec<f64> = self
-            .vertex_projections(prefix)
+            .vertex_projections(prefix, false)
             .into_iter()
+            .chain(prism)
+            .chain(switches.points)
             .filter(|t| *t > a && *t < b)
             .map(|t| normal::interval(a, t) / mass)
             .filter(|u| u.is_finite() && *u > 0.0 && *u < 1.0)
@@ -1157,6 +1229,84 @@ impl Plan {
             error: mass * integral.error,
             evaluations,
             converged: converged && ok,
+        })
+    }
+
+    /// How the rows of the later variables switch on and off as the variable
+    /// `j = prefix.len()` moves through `(a, b)`, for the nested rule.
+    ///
+    /// Given the earlier variables and `w_j = t`, a later row `lower <= s + c t + R <= upper`
+    /// has `R ~ N(0, rest^2)` (the row's weight on the variables after `j`), so its
+    /// conditional slab probability is a smoothed step in `t` centred at `(end - s) / c` of
+    /// width `rest / |c|`. Where some row's probability is below `Phi(-W_CLAMP)` (under the
+    /// smallest double) the integrand is zero to machine precision: the interval is cut
+    /// there, which the exact answer does not notice. A step that holds less than
+    /// [`tolerance::NESTED_NARROW_SWITCH`] of the interval's mass gets breakpoints around
+    /// it. Both matter when the directions are nearly parallel (channel sigmas decades
+    /// apart) or a step lies in a tail: the integrand then lives on, or changes over, a
+    /// sliver of the interval that the Kronrod nodes of the whole interval never sample.
+    /// `None` when the cut leaves nothing.
+    fn switches(&self, prefix: &[f64], a: f64, b: f64) -> Option<Switches> {
+        let j = prefix.len();
+        let (mut lower, mut upper) = (a, b);
+        let mut points = Vec::new();
+        for row in self.groups.iter().skip(j + 1).flatten() {
+            let c = row.coef.get(j).copied().unwrap_or(0.0);
+            if c == 0.0 || !c.is_finite() {
+                continue;
+            }
+            let s: f64 = row.coef.iter().zip(prefix).map(|(v, y)| v * y).sum();
+            let own = if row.indicator { 0.0 } else { 1.0 };
+            let rest = (row.coef.iter().skip(j + 1).map(|v| v * v).sum::<f64>() + own).sqrt();
+            let width = rest / c.abs();
+            for (end, is_lower) in [(row.lower, true), (row.upper, false)] {
+                if !end.is_finite() {
+                    continue;
+                }
+                let centre = (end - s) / c;
+                // The row needs c t above (lower end) or below (upper end) end - s, give or
+                // take W_CLAMP * rest; which side of the centre survives depends on c's sign.
+                if is_lower == (c > 0.0) {
+                    lower = lower.max(centre - W_CLAMP * width);
+                } else {
+                    upper = upper.min(centre + W_CLAMP * width);
+                }
+                // The switch's share of the interval's mass: the Kronrod nodes are spread
+                // by mass (the rule runs over Genz's uniform variable), so a switch that
+                // is narrow or far in a tail falls between them.
+                let outer = tolerance::NESTED_SWITCH_STEPS[2] * width;
+                let share = normal::interval((centre - outer).max(a), (centre + outer).min(b))
+                    / normal::interval(a, b);
+                if share < tolerance::NESTED_NARROW_SWITCH {
+                    for step in tolerance::NESTED_SWITCH_STEPS {
+                        points.push(centre - step * width);
+                        points.push(centre + step * width);
+                    }
+                }
+            }
+        }
+        (lower < upper).then_some(Switches {
+            lower,
+            upper,
+            points,
+        })
+    }
+
+    /// Bound on what the residual directions dropped by [`Plan::build`] can change (each
+    /// as a random shift of its row's ends).
+    fn neglect_error(&self) -> f64 {
+        self.neglected.iter().map(UnitRow::tilt_error).sum()
+    }
+
+    /// Whether the last variable has, in some row of its group, a weight below
+    /// [`tolerance::NESTED_NARROW_SWITCH`] times the row's other coefficients (its rows
+    /// are then nearly parallel to it; see [`Plan::vertex_projections`]).
+    fn last_is_faint(&self) -> bool {
+        self.groups.last().is_some_and(|group| {
+            group.iter().any(|row| {
+                let others = row.coef.iter().map(|c| c * c).sum::<f64>().sqrt();
+                !row.indicator && tolerance::NESTED_NARROW_SWITCH * others > 1.0
+            })
         })
     }
 
@@ -1216,9 +1366,18 @@ impl Plan {
     /// polytope where the earlier variables equal `prefix`: each set of `k` constraint
     /// planes (`k` the variables left) meeting in one point that satisfies every row, to a
     /// rounding allowance. Vertices slightly outside only add harmless breakpoints.
-    fn vertex_projections(&self, prefix: &[f64]) -> Vec<f64> {
+    ///
+    /// With `drop_last`, the vertices of the cross-section where the last variable is 0
+    /// instead (one variable fewer). When the last variable's weight in its rows is tiny
+    /// next to their other coefficients (nearly parallel directions), the polytope is,
+    /// to within that weight, a prism along it, and the prism's edges put near-kinks into
+    /// the integrand that the true vertices do not mark.
+    fn vertex_projections(&self, prefix: &[f64], drop_last: bool) -> Vec<f64> {
         let j0 = prefix.len();
-        let k = self.variables.saturating_sub(j0);
+        let k = self
+            .variables
+            .saturating_sub(j0)
+            .saturating_sub(usize::from(drop_last));
         if k == 0 {
             return Vec::new();
         }
@@ -1227,11 +1386,15 @@ impl Plan {
             for row in group {
                 let s: f64 = row.coef.iter().zip(prefix).map(|(c, y)| c * y).sum();
                 let mut r = vec![0.0; k];
-                for (i, c) in row.coef.iter().enumerate().skip(j0) {
+                for (i, c) in row.coef.iter().enumerate().skip(j0).take(k) {
                     r[i - j0] = *c;
                 }
-                if !row.indicator {
+                if !row.indicator && j - j0 < k {
                     r[j - j0] = 1.0;
+                }
+                if r.iter().all(|c| *c == 0.0) {
+                    // A row on the dropped variable alone: no plane of the cross-section.
+                    continue;
                 }
                 rows.push((r, row.lower - s, row.upper - s));
             }
@@ -1355,7 +1518,7 @@ fn solve_planes(planes: &[(&[f64], f64)]) -> Option<Vec<f64>> {
         .fold(0.0, f64::max);
     for col in 0..k {
         let pivot = (col..k).max_by(|&a, &b| m[a][col].abs().total_cmp(&m[b][col].abs()))?;
-        if m[pivot][col].abs() <= tolerance::LINEAR_DEPENDENCE_ABS * scale {
+        if m[pivot][col].abs() <= tolerance::SINGULAR_PLANES_REL * scale {
             return None;
         }
         m.swap(col, pivot);

@@ -68,7 +68,12 @@ impl Strips {
                 StripLaw {
                     slope,
                     inv_norm,
-                    law: StandardBivariate::new((slope * inv_norm).clamp(-1.0, 1.0)),
+                    // 1 - rho^2 = inv_norm^2 exactly: steep strips keep their
+                    // smoothing width (see StandardBivariate::with_complement)
+                    law: StandardBivariate::with_complement(
+                        (slope * inv_norm).clamp(-1.0, 1.0),
+                        inv_norm,
+                    ),
                 }
             })
             .collect();
@@ -260,7 +265,11 @@ impl Strips {
 }
 
 /// The active lower and upper lines at `t`: `(row, offset, slope)` of the largest lower
-/// line `k - c t` and of the smallest upper one.
+/// line `k - c t` and of the smallest upper one. Ties go to the line that leads just after
+/// `t` (for the lower envelope the smaller `c`, for the upper the larger), as in
+/// [`envelope_breaks`]: two lines can meet exactly at a piece's representative point when
+/// their crossing rounded onto the piece's start (bounds equal to the last digit, slopes
+/// millions apart), and the line that holds the rest of the piece must win.
 type ActiveLine = Option<(usize, f64, f64)>;
 
 fn active_lines(
@@ -274,11 +283,11 @@ fn active_lines(
         let c = slope(q);
         let v = k - c * t;
         if is_upper {
-            if v < hi_val {
+            if v < hi_val || (v == hi_val && hi.is_some_and(|(_, _, held)| c > held)) {
                 hi_val = v;
                 hi = Some((q, k, c));
             }
-        } else if v > lo_val {
+        } else if v > lo_val || (v == lo_val && lo.is_some_and(|(_, _, held)| c < held)) {
             lo_val = v;
             lo = Some((q, k, c));
         }
@@ -441,6 +450,23 @@ mod tests {
         let want = bivariate::rectangle([f64::NEG_INFINITY, l / n], [0.4, u / n], c / n);
         assert!(
             (got.value - want).abs() <= got.error + 1e-12,
+            "{got:?} vs {want}"
+        );
+    }
+
+    #[test]
+    fn lines_tied_at_the_representative_point_take_the_one_that_holds() {
+        // Regression: two lower lines with equal offsets and slopes 0 and -1e6 meet at
+        // t = 0, which is also the representative point of the piece (t_lo just below 0);
+        // the flat line won the tie there and the steep one, which bounds Y for all t > 0,
+        // was dropped (value 0.5). Reference: the integral over t > t_lo of
+        // phi(t) P(Y >= max(-4e6, 1e6 t - 4e6)), by mpmath 1.3.0 quad at 40 digits with
+        // breakpoints at 0 and 4: 0.4999683287581666128.
+        let strips = Strips::new(&[0.0, -1e6]);
+        let got = strips.probability(-1e-18, f64::INFINITY, &[-4e6, -4e6], &[f64::INFINITY; 2]);
+        let want = 0.499_968_328_758_166_6;
+        assert!(
+            (got.value - want).abs() <= got.error + 1e-15,
             "{got:?} vs {want}"
         );
     }

@@ -17,8 +17,11 @@ pub const CHOLESKY_PIVOT_REL: f64 = 1e-12;
 /// cancel to rounding.
 pub const DEGENERATE_ROW_REL: f64 = 1e-10;
 
-/// Two constraint rows whose unit directions agree to this much are merged into one.
-pub const PARALLEL_ROW_ABS: f64 = 1e-12;
+/// Two constraint rows whose unit directions agree to this much (Euclidean distance) are
+/// merged into one, their difference counted in the error bound. A hundred times the
+/// rounding of a normalised direction: at 1e-12 two rows tilted by 1e-12 were merged into a
+/// zero-width slab and a wedge of probability 1.6e-13 reported as 0 ± 0.
+pub const PARALLEL_ROW_ABS: f64 = 1e-14;
 
 /// Relative asymmetry allowed in a covariance matrix before it is rejected.
 pub const SYMMETRY_REL: f64 = 1e-10;
@@ -53,8 +56,15 @@ pub const PSD_NEGATIVE_REL: f64 = 1e-10;
 
 /// A unit constraint row whose component outside the span of the rows already used as
 /// pivots is shorter than this depends linearly on them: it shares their leading variable
-/// in the sequential conditioning instead of opening a new one.
-pub const LINEAR_DEPENDENCE_ABS: f64 = 1e-10;
+/// in the sequential conditioning instead of opening a new one, and the dropped component
+/// is added to the error bound. A thousand times the rounding of the Householder steps:
+/// a larger value dropped real geometry (a band of width 1e-8 tilted by 8e-11, channel
+/// sigmas 1e-4 and 1e6 in one file) by more than the bounds allowed.
+pub const LINEAR_DEPENDENCE_ABS: f64 = 1e-13;
+
+/// A set of planes whose elimination meets a pivot below this fraction of the largest
+/// plane normal is singular: the planes meet in no single point (vertex enumeration).
+pub const SINGULAR_PLANES_REL: f64 = 1e-10;
 
 /// The error of a randomised lattice estimate is this many standard errors of the means
 /// over the random shifts. With 12 shifts (11 degrees of freedom) a Student t quantile of
@@ -90,6 +100,17 @@ pub const PAIR_SCREEN_ABS: f64 = 1e-3;
 /// Subinterval budget of each inner Gauss–Kronrod rule of the nested path (the second of
 /// four conditioning variables).
 pub const NESTED_INNER_MAX_INTERVALS: usize = 100;
+
+/// A later row whose conditional slab probability switches, as a function of the variable
+/// being integrated, over less than this share of that variable's probability mass gets
+/// breakpoints around its switch (the nested path): a switch that narrow can otherwise fall
+/// between the Kronrod nodes, and the error estimate cannot see what it never samples.
+pub const NESTED_NARROW_SWITCH: f64 = 0.05;
+
+/// Multiples of a narrow switch's width at which the nested path places breakpoints on
+/// either side of its centre: inside the outer ones the switch is fully resolved, beyond
+/// them the slab probability differs from 0 or 1 by less than `Phi(-8)` ~ 6e-16.
+pub const NESTED_SWITCH_STEPS: [f64; 3] = [0.0, 2.5, 8.0];
 
 /// Largest number of plane sets whose meeting points the nested path enumerates to find
 /// the vertices of a polytope; past it the polytope goes to the lattice rule.

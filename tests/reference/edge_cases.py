@@ -176,6 +176,24 @@ def uniform_replace_b(sa, L, T, lo, hi):
     return {k: fig(k) for k in FIGURES}
 
 
+def uniform_add_narrow(s, L, T, lo, hi):
+    """As uniform_add_independent, for a noise far below the amplitude range: the figures
+    change only within a few noise widths of the steps at F = +-T (check) and F = +-2 L
+    (safety), so the range is cut there, every quarter sigma of the difference over twelve
+    sigmas either side, and the flat stretches between are integrated on their own."""
+    sy, sd = s / mpmath.sqrt(2), s * mpmath.sqrt(2)
+    near = []
+    for step in (-2 * L, -T, T, 2 * L):
+        near += [step + k * sd / 4 for k in range(-48, 49)]
+    breaks = sorted(set([lo, hi] + [x for x in near if lo < x < hi]))
+
+    def fig(name):
+        f = lambda F: independent(F / 2, sy, F, sd, L, T)[name]
+        return mpmath.quad(f, breaks) / (hi - lo)
+
+    return {k: fig(k) for k in FIGURES}
+
+
 def two_channel_file(name, sa, sb, rho, T, L, faults="", full_scale=None, output=None):
     fs = "" if full_scale is None else f"full_scale = [{full_scale[0]!r}, {full_scale[1]!r}]\n"
     out = output or 'kind = "mean"\nof = ["a", "b"]'
@@ -332,6 +350,20 @@ def cases():
                 "uniform amplitudes added and replacing; quadrature over the amplitude",
                 two_channel_file("full scale a million times the noise", s, s, None, T, L,
                                  faults, full_scale=(-fs, fs)), full_scale))
+
+    # 9. A step of noise width 1e-6 in an amplitude range of 2e5 (sigmas eleven decades
+    #    below the range): the check fires past F = 0.01 and the output violates past
+    #    F = 0.04, each over about a micrometre.
+    s, T, L, lo, hi = 1e-6, 0.01, 0.02, 0.0, 2e5
+    faults = ("\n[faults.a_creep]\nfit = 10.0\nhits = { a = 1.0 }\nmode = \"add\"\n"
+              f"amplitude = {{ uniform = [{lo!r}, {hi!r}] }}\n")
+
+    def narrow(s=s, T=T, L=L, lo=lo, hi=hi):
+        return {"a_creep": uniform_add_narrow(mpf(s), mpf(L), mpf(T), mpf(lo), mpf(hi))}
+
+    out.append(("uniform_steps_of_noise_width", "uniform amplitude over [0, 2e5] with noise "
+                "sigma 1e-6: steps a micrometre wide at F = 0.01 and 0.04",
+                two_channel_file("steps of noise width", s, s, None, T, L, faults), narrow))
     return out
 
 
