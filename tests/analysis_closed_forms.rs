@@ -242,3 +242,57 @@ fn stuck_channel_at_a_point_factorises() {
         1.0 - p(f - T, f + T) - p(-4.0 - f, 4.0 - f),
     );
 }
+
+/// One noisy channel and two equal constant ones (spread check, mean output) under a fault
+/// uniform over the full scale `[-50, 50]`: at amplitude `F` the noisy channel reads
+/// `x = F + n`, the mean is `x / 3` and the spread `|x|`. Averaged over `F`, `x` is uniform
+/// convolved with a unit gaussian, whose density is `1/100` to within `Phi(-49)` everywhere
+/// near 0, so `P(|x| <= w) = 2 w / 100` (derived by hand). The figures: quiet and safe
+/// `|x| <= 0.01`, detected and safe `0.01 < |x| <= 0.03`, detected and violating the rest.
+/// Regression: the two ordering cells of the equal constant channels both counted (an open
+/// end of a fixed row was taken as closed), which doubled every safe figure.
+#[test]
+fn uniform_amplitude_with_equal_constant_channels() {
+    let text = r#"
+name = "one noisy channel"
+unit = "mm"
+full_scale = [-50.0, 50.0]
+
+[channels.c0]
+mean = 0.0
+sigma = 1.0
+
+[channels.c1]
+mean = 0.0
+sigma = 0.0
+
+[channels.c2]
+mean = 0.0
+sigma = 0.0
+
+[output]
+kind = "mean"
+of = ["c0", "c1", "c2"]
+
+[checks.k]
+kind = "spread"
+of = ["c0", "c1", "c2"]
+limit = 0.01
+
+[safety]
+limit = 0.01
+
+[faults.f]
+fit = 10.0
+hits = { c0 = 1.0 }
+mode = "add"
+amplitude = { uniform = "full_scale" }
+"#;
+    let arch = load_str(text, "one-noisy.toml").expect("valid");
+    let a = analyze(&arch.model, &AnalysisOptions::default(), false).expect("runs");
+    let o = &a.sites[0].outcome;
+    assert_close("p_sq", o.p_sq, 2.0 * 0.01 / 100.0);
+    assert_close("p_sd", o.p_sd, 2.0 * (0.03 - 0.01) / 100.0);
+    assert_close("p_vd", o.p_vd, 1.0 - 2.0 * 0.03 / 100.0);
+    assert_close("p_vu", o.p_vu, 0.0);
+}

@@ -117,7 +117,9 @@ pub fn mean_over_uniform_shift(
         if s == 0.0 {
             // The row does not involve z: lower <= m + c F <= upper cuts F.
             if c == 0.0 {
-                if m < band.lower || m > band.upper {
+                // A fixed value: an open end excludes it (the cells of an ordering of
+                // equal constant channels rely on that to stay disjoint).
+                if !band.contains(m) {
                     return Some(Estimate::zero());
                 }
                 continue;
