@@ -514,6 +514,15 @@ prop_compose! {
     }
 }
 
+/// Seed of the property tests: fixed, or `CONCORD_FUZZ_SEED` when set (another stream of
+/// cases for a longer hunt).
+fn fuzz_seed() -> u64 {
+    std::env::var("CONCORD_FUZZ_SEED")
+        .ok()
+        .and_then(|v| v.parse().ok())
+        .unwrap_or(0x7257_5eed)
+}
+
 /// Cases per property: 48, or `CONCORD_FUZZ_CASES` when set.
 fn fuzz_cases() -> u32 {
     std::env::var("CONCORD_FUZZ_CASES")
@@ -526,7 +535,7 @@ proptest! {
     #![proptest_config(ProptestConfig {
         // 48 in CI; set CONCORD_FUZZ_CASES for a longer hunt (DEVELOPERS.md)
         cases: fuzz_cases(),
-        rng_seed: proptest::test_runner::RngSeed::Fixed(0x7257_5eed),
+        rng_seed: proptest::test_runner::RngSeed::Fixed(fuzz_seed()),
         failure_persistence: None,
         ..ProptestConfig::default()
     })]
