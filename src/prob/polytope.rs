@@ -26,9 +26,13 @@
 //! 5. The last two variables of the conditioning are integrated exactly as a polygon
 //!    probability of a standard normal pair ([`crate::prob::strip`]): with two variables that is the
 //!    answer ([`Method::Planar`]); with three, the first variable is integrated by adaptive
-//!    Gauss–Kronrod with the projections of the polytope's vertices as breakpoints
-//!    ([`Method::Nested`], deterministic, error from the Kronrod estimate); with four or
-//!    more, the lattice rule runs over two dimensions fewer than the variables.
+//!    Gauss–Kronrod with breakpoints at the projections of the polytope's vertices and
+//!    wherever a later row, or a pair of them, switches over a small share of the mass
+//!    (`Plan::switches`; nearly parallel directions make such switches narrow)
+//!    ([`Method::Nested`], deterministic, error four times the Kronrod estimate); with
+//!    four or more, the lattice rule runs over two dimensions fewer than the variables.
+//!    Rows merged as parallel or folded into a group as dependent carry what was dropped
+//!    into the bound (`UnitRow::tilt`).
 //!
 //! Every factor of the sequential conditioning is a normal interval from
 //! [`normal::interval`], which takes the tail that does not cancel, and the conditioning

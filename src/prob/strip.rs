@@ -15,7 +15,7 @@
 //! the rectangle of a standard bivariate normal with correlation `c / sqrt(1 + c^2)`
 //! (the pair `T`, `(Y + c T) / sqrt(1 + c^2)` is standard with that correlation; the
 //! identity is the law of total probability conditioned on `T = t`). Rectangles come from
-//! [`bivariate`] (Genz 2004). Where the strip lies in the upper tail of `Y` the
+//! [`crate::prob::bivariate`] (Genz 2004). Where the strip lies in the upper tail of `Y` the
 //! complementary form `P(.., > a')` is used so that small values keep their relative
 //! accuracy.
 //!
