@@ -251,14 +251,13 @@ const PARALLEL_ROWS: f64 = 0.01;
 /// `x_c0 + F <= x_c2` and a safety end `x_c2 >= -L`, both random through `x_c2` but whose
 /// difference has the tiny sigma of `c0`: the kink sits at `F = -L`). No single row
 /// marks it, and the Kronrod error estimate can miss it. Each kink gets the same points as
-/// a row's band end: the centre and 2 and 6 of its widths either side.
-fn pair_kinks(polytope: &Polytope, scenario: &FaultScenario) -> Vec<f64> {
-    let profiles: Vec<(f64, f64, f64)> = polytope
-        .rows
-        .iter()
-        .map(|row| scenario.row_profile(row))
-        .collect();
-    let mut points = Vec::new();
+/// a row's band end ([`push_steps`]).
+fn pair_kinks(
+    polytope: &Polytope,
+    scenario: &FaultScenario,
+    profiles: &[(f64, f64, f64)],
+    points: &mut Vec<f64>,
+) {
     for i in 0..profiles.len() {
         for j in i + 1..profiles.len() {
             let ((mi, si, di), (mj, sj, dj)) = (profiles[i], profiles[j]);
@@ -285,15 +284,22 @@ fn pair_kinks(polytope: &Polytope, scenario: &FaultScenario) -> Vec<f64> {
                         continue;
                     }
                     let centre = ((ei - mi) / di - sign * (ej - mj) / dj) / rate;
-                    points.push(centre);
-                    for k in [-6.0, -2.0, 2.0, 6.0] {
-                        points.push(centre + k * width);
-                    }
+                    push_steps(points, centre, width);
                 }
             }
         }
     }
-    points
+}
+
+/// A step (or kink) at `centre` smoothed over `width`: the centre and 2 and 6 widths either
+/// side, so that its steep part and its flat ends each get pieces of their own.
+fn push_steps(points: &mut Vec<f64>, centre: f64, width: f64) {
+    points.push(centre);
+    if width > 0.0 {
+        for k in [-6.0, -2.0, 2.0, 6.0] {
+            points.push(centre + k * width);
+        }
+    }
 }
 
 /// Rounding allowance of the sum of the four figures (a few units in the last place of 1)
@@ -310,8 +316,14 @@ pub fn amplitude_window(
     let (mut lo, mut hi) = (lower, upper);
     let mut points = Vec::new();
     let mut moving = false;
-    for (row, band) in polytope.rows.iter().zip(&polytope.bands) {
-        let (mean, slope, sd) = scenario.row_profile(row);
+    let profiles: Vec<(f64, f64, f64)> = polytope
+        .rows
+        .iter()
+        .map(|row| scenario.row_profile(row))
+        .collect();
+    for ((row, band), &(mean, slope, sd)) in
+        polytope.rows.iter().zip(&polytope.bands).zip(&profiles)
+    {
         if slope.abs() <= f64::EPSILON * row.iter().map(|r| r.abs()).sum::<f64>() {
             continue;
         }
@@ -333,19 +345,13 @@ pub fn amplitude_window(
             if !end.is_finite() {
                 continue;
             }
-            let centre = (end - mean) / slope;
-            points.push(centre);
-            if width > 0.0 {
-                for k in [-6.0, -2.0, 2.0, 6.0] {
-                    points.push(centre + k * width);
-                }
-            }
+            push_steps(&mut points, (end - mean) / slope, width);
         }
     }
     if lo >= hi {
         return None;
     }
-    points.extend(pair_kinks(polytope, scenario));
+    pair_kinks(polytope, scenario, &profiles, &mut points);
     points.retain(|p| p.is_finite() && *p > lo && *p < hi);
     points.sort_by(f64::total_cmp);
     // Only points that rounding cannot tell apart are merged: a step as narrow as its
