@@ -1029,3 +1029,78 @@ fn switch_in_the_tail_of_the_outer_variable() {
         1e-13,
     );
 }
+
+#[test]
+fn four_variables_past_the_lattice_budget_go_to_the_nested_rule() {
+    // Polytopes of four conditioning variables at a tolerance the lattice rule cannot meet
+    // within its first budget: the nested rule answers, and must cover the closed forms.
+    // The tail case exhausts the nested rule's budget at 1e-8 relative too, and the lattice
+    // rule with the whole budget answers it (either way the bound must hold).
+    // (a) P(z_1 > ... > z_5) = 1 / 5! for iid standard normals (exchangeability, as above);
+    // (b) the equicorrelated (rho = 1/2) orthant in four dimensions is 1 / 5 (as above);
+    // (c) P(z_1 > ... > z_4 > 3) = P(Z > 3)^4 / 4!, P(Z > 3) from mpmath 1.3.0.
+    let iid = |r: usize| -> Gaussian {
+        let cov: Vec<f64> = (0..r * r)
+            .map(|k| if k / r == k % r { 1.0 } else { 0.0 })
+            .collect();
+        gaussian(&vec![0.0; r], &cov)
+    };
+    let mut ordering = Polytope::new();
+    ordering_rows(5, &mut ordering);
+    let equi_cov: Vec<f64> = (0..16)
+        .map(|k| if k / 4 == k % 4 { 1.0 } else { 0.5 })
+        .collect();
+    let mut orthant = Polytope::new();
+    for i in 0..4 {
+        orthant.push(unit(4, i), Band::above(0.0));
+    }
+    let mut tail = Polytope::new();
+    ordering_rows(4, &mut tail);
+    for i in 0..4 {
+        tail.push(unit(4, i), Band::above(3.0));
+    }
+    let sf3 = 0.001_349_898_031_630_094_5_f64;
+    let cases = [
+        (
+            "ordering of five",
+            iid(5),
+            ordering,
+            1.0 / 120.0,
+            tol(1e-12, 0.0),
+            Method::Nested,
+        ),
+        (
+            "equicorrelated orthant",
+            gaussian(&[0.0; 4], &equi_cov),
+            orthant,
+            0.2,
+            tol(1e-12, 0.0),
+            Method::Nested,
+        ),
+        (
+            "ordered tail",
+            iid(4),
+            tail,
+            sf3.powi(4) / 24.0,
+            tol(0.0, 1e-8),
+            Method::Lattice,
+        ),
+    ];
+    for (name, g, p, exact, t, method) in cases {
+        let r = g.probability_detailed(&p, &t).unwrap();
+        println!(
+            "{name}: {:?}, {} points, value {:e}, error {:.1e}, exact {exact:e}",
+            r.method, r.points, r.estimate.value, r.estimate.error
+        );
+        assert_eq!(r.variables, 4, "{name}");
+        assert_eq!(r.method, method, "{name}");
+        assert_covers(
+            name,
+            r.estimate.value,
+            r.estimate.error,
+            exact,
+            1e-16 * exact,
+        );
+        assert!(r.estimate.error <= t.abs.max(t.rel * exact), "{name}");
+    }
+}

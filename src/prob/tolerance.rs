@@ -97,6 +97,14 @@ pub const VERTEX_SLACK_REL: f64 = 1e-9;
 /// bound has a fair chance to fall within the absolute tolerance.
 pub const PAIR_SCREEN_ABS: f64 = 1e-3;
 
+/// Points (over all shifts: 12 x 2^12) the lattice rule spends on a polytope of four
+/// conditioning variables before the nested rule takes over. Measured on the four-channel
+/// example: most of its polytopes settle within a few thousand points, and those that do not
+/// needed up to 3.1 million (kinks where rows trade places converge slowly on a lattice)
+/// where the nested rule took 10 to 80 ms; 49 152 gave the shortest run of the budgets
+/// tried (24 576: 15.2 s, 49 152: 12.7 s, 98 304: 14.8 s; lattice only: 51.6 s).
+pub const LATTICE_POINTS_BEFORE_NESTED: usize = 49_152;
+
 /// Subinterval budget of each inner Gauss–Kronrod rule of the nested path (the second of
 /// four conditioning variables).
 pub const NESTED_INNER_MAX_INTERVALS: usize = 100;
