@@ -103,10 +103,116 @@ impl Sum {
     }
 }
 
+/// A lattice integration that can be resumed with a larger budget: the points already
+/// evaluated are kept (the rule is embedded), so stopping early and going on later costs
+/// nothing extra.
+#[derive(Debug, Clone)]
+pub struct Run {
+    dim: usize,
+    z: Vec<u32>,
+    shifts: Vec<Vec<f64>>,
+    sums: [Sum; SHIFTS],
+    periodisation: Periodisation,
+    /// Points per shift evaluated so far.
+    done: usize,
+}
+
+impl Run {
+    /// A run over `[0, 1)^dim` (at most [`MAX_DIM`]) whose shifts come from `seed`.
+    pub fn new(dim: usize, seed: u64, periodisation: Periodisation) -> Self {
+        let dim = dim.min(MAX_DIM);
+        let mut rng = SplitMix64::new(seed);
+        let shifts: Vec<Vec<f64>> = (0..SHIFTS)
+            .map(|_| (0..dim).map(|_| rng.next_f64()).collect())
+            .collect();
+        Self {
+            dim,
+            z: generator(dim),
+            shifts,
+            sums: [Sum::default(); SHIFTS],
+            periodisation,
+            done: 0,
+        }
+    }
+
+    /// Go on until the error meets `target(value)` or `max_points` evaluations in all
+    /// (over all shifts, those of earlier calls included) are spent. `f` receives a point
+    /// of the unit cube (already transformed) and returns the integrand value; it must be
+    /// the same integrand on every call. A fresh run evaluates at least one round.
+    pub fn extend<F, T>(&mut self, max_points: usize, target: T, mut f: F) -> Outcome
+    where
+        F: FnMut(&[f64]) -> f64,
+        T: Fn(f64) -> f64,
+    {
+        // Whole lattices only: powers of two per shift, within the budget.
+        let per_shift_budget = (max_points / SHIFTS).clamp(1, 1 << 31);
+        let mut next = if self.done == 0 {
+            let mut first = FIRST_ROUND;
+            while first > per_shift_budget {
+                first /= 2;
+            }
+            first
+        } else if 2 * self.done <= per_shift_budget {
+            2 * self.done
+        } else {
+            return self.outcome(&target, true);
+        };
+        let mut x = vec![0.0; self.dim];
+        loop {
+            for (shift, sum) in self.shifts.iter().zip(self.sums.iter_mut()) {
+                for i in self.done..next {
+                    let i = i as u32;
+                    let mut weight = 1.0;
+                    for ((xk, &zk), &sk) in x.iter_mut().zip(self.z.iter()).zip(shift.iter()) {
+                        let u = (coordinate(i, zk) + sk).fract();
+                        match self.periodisation {
+                            Periodisation::Tent => *xk = 1.0 - (2.0 * u - 1.0).abs(),
+                            Periodisation::Polynomial => {
+                                let v = u * (1.0 - u);
+                                *xk = u * u * u * (10.0 - 15.0 * u + 6.0 * u * u);
+                                weight *= 30.0 * v * v;
+                            }
+                        }
+                    }
+                    if weight > 0.0 {
+                        sum.add(weight * f(&x));
+                    }
+                }
+            }
+            self.done = next;
+            let outcome = self.outcome(&target, true);
+            if outcome.converged {
+                return outcome;
+            }
+            next = 2 * self.done;
+            if next > per_shift_budget {
+                return outcome;
+            }
+        }
+    }
+
+    /// The estimate from the points so far; `converged` when `allow` and the error meets
+    /// the target.
+    fn outcome<T: Fn(f64) -> f64>(&self, target: &T, allow: bool) -> Outcome {
+        let n = self.done.max(1) as f64;
+        let means: Vec<f64> = self.sums.iter().map(|s| s.total() / n).collect();
+        let k = SHIFTS as f64;
+        let value = means.iter().sum::<f64>() / k;
+        let var = means.iter().map(|m| (m - value).powi(2)).sum::<f64>() / (k - 1.0);
+        let error = tolerance::LATTICE_SPREAD_FACTOR * (var / k).sqrt();
+        Outcome {
+            value,
+            error,
+            points: self.done * SHIFTS,
+            converged: allow && self.done > 0 && error <= target(value),
+        }
+    }
+}
+
 /// Integrate `f` over `[0, 1)^dim` until the error meets `target(value)` or `max_points`
 /// evaluations (over all shifts) are spent; the same `seed` gives the same bits.
 ///
-/// `f` receives a point of the unit cube (already tent-transformed) and returns the
+/// `f` receives a point of the unit cube (already periodised) and returns the
 /// integrand value. At least one round of `SHIFTS` points is always evaluated.
 pub fn integrate<F, T>(
     dim: usize,
@@ -114,75 +220,13 @@ pub fn integrate<F, T>(
     max_points: usize,
     periodisation: Periodisation,
     target: T,
-    mut f: F,
+    f: F,
 ) -> Outcome
 where
     F: FnMut(&[f64]) -> f64,
     T: Fn(f64) -> f64,
 {
-    let dim = dim.min(MAX_DIM);
-    let z = generator(dim);
-    let mut rng = SplitMix64::new(seed);
-    let shifts: Vec<Vec<f64>> = (0..SHIFTS)
-        .map(|_| (0..dim).map(|_| rng.next_f64()).collect())
-        .collect();
-    let mut sums = [Sum::default(); SHIFTS];
-    // Whole lattices only: powers of two per shift, within the budget.
-    let per_shift_budget = (max_points / SHIFTS).clamp(1, 1 << 31);
-    let mut first = FIRST_ROUND;
-    while first > per_shift_budget {
-        first /= 2;
-    }
-    let mut done = 0usize;
-    let mut next = first;
-    let mut x = vec![0.0; dim];
-    loop {
-        for (shift, sum) in shifts.iter().zip(sums.iter_mut()) {
-            for i in done..next {
-                let i = i as u32;
-                let mut weight = 1.0;
-                for ((xk, &zk), &sk) in x.iter_mut().zip(z.iter()).zip(shift.iter()) {
-                    let u = (coordinate(i, zk) + sk).fract();
-                    match periodisation {
-                        Periodisation::Tent => *xk = 1.0 - (2.0 * u - 1.0).abs(),
-                        Periodisation::Polynomial => {
-                            let v = u * (1.0 - u);
-                            *xk = u * u * u * (10.0 - 15.0 * u + 6.0 * u * u);
-                            weight *= 30.0 * v * v;
-                        }
-                    }
-                }
-                if weight > 0.0 {
-                    sum.add(weight * f(&x));
-                }
-            }
-        }
-        done = next;
-        let n = done as f64;
-        let means: Vec<f64> = sums.iter().map(|s| s.total() / n).collect();
-        let k = SHIFTS as f64;
-        let value = means.iter().sum::<f64>() / k;
-        let var = means.iter().map(|m| (m - value).powi(2)).sum::<f64>() / (k - 1.0);
-        let error = tolerance::LATTICE_SPREAD_FACTOR * (var / k).sqrt();
-        let points = done * SHIFTS;
-        if error <= target(value) {
-            return Outcome {
-                value,
-                error,
-                points,
-                converged: true,
-            };
-        }
-        next = 2 * done;
-        if next > per_shift_budget {
-            return Outcome {
-                value,
-                error,
-                points,
-                converged: false,
-            };
-        }
-    }
+    Run::new(dim, seed, periodisation).extend(max_points, target, f)
 }
 
 #[cfg(test)]
@@ -304,5 +348,40 @@ mod tests {
             |x| x[0].sin() + x[1] * x[2],
         );
         assert_eq!(out, again);
+    }
+
+    #[test]
+    fn resumed_run_gives_the_bits_of_one_run() {
+        // The rule is embedded: stopping at 12 * 256 points and going on to 12 * 4096 must
+        // evaluate exactly the points of one run to 12 * 4096, and return the same bits.
+        // Integrand with integral 1 (prod_k (1/2 + x_k), by hand) for a sanity check.
+        let f = |x: &[f64]| x.iter().map(|v| 0.5 + v).product::<f64>();
+        let mut calls = 0usize;
+        let mut run = Run::new(3, 7, Periodisation::Polynomial);
+        let early = run.extend(
+            12 * 256,
+            |_| 0.0,
+            |x| {
+                calls += 1;
+                f(x)
+            },
+        );
+        assert!(!early.converged);
+        assert_eq!(early.points, 12 * 256);
+        let resumed = run.extend(
+            12 * 4096,
+            |_| 0.0,
+            |x| {
+                calls += 1;
+                f(x)
+            },
+        );
+        let whole = integrate(3, 7, 12 * 4096, Periodisation::Polynomial, |_| 0.0, f);
+        assert_eq!(resumed, whole);
+        assert_eq!(calls, 12 * 4096);
+        assert!((whole.value - 1.0).abs() <= whole.error.max(1e-12));
+        // Asked for no more than it has, a run reports what it has.
+        let again = run.extend(12 * 4096, |_| 0.0, f);
+        assert_eq!(again, whole);
     }
 }

@@ -33,8 +33,9 @@
 //!    four or more, the lattice rule runs over two dimensions fewer than the variables.
 //!    Four variables that the lattice rule has not settled within
 //!    [`tolerance::LATTICE_POINTS_BEFORE_NESTED`] points go to the nested rule (one
-//!    Gauss–Kronrod rule inside another, with the breakpoints of each slice); if that
-//!    exhausts its intervals too, the lattice rule gets the whole budget.
+//!    Gauss–Kronrod rule inside another, with the breakpoints of each slice) if it can
+//!    finish within the points the lattice would still need; otherwise, or if it does not
+//!    settle them, the same lattice run goes on with the whole budget.
 //!    Rows merged as parallel or folded into a group as dependent carry what was dropped
 //!    into the bound (`UnitRow::tilt`).
 //!
@@ -624,8 +625,10 @@ impl Gaussian {
         let target =
             |v: f64| tol.target(v) - rounding(v) - floor_rel * v.abs() - plan.neglect_error();
         let nested_fits = options.exact_paths && plan.nested_fits();
-        let lattice = |budget: usize| {
-            let outcome = plan.integrate(budget, options.seed, target, options.exact_paths);
+        // One lattice run, resumed if it is asked for more points later.
+        let mut run = plan.lattice_run(options.seed, options.exact_paths);
+        let mut lattice = |budget: usize| {
+            let outcome = plan.lattice_extend(&mut run, budget, target, options.exact_paths);
             (
                 outcome.value,
                 outcome.error,
@@ -638,45 +641,43 @@ impl Gaussian {
             // Four variables: the lattice first, on a small budget. It settles most
             // polytopes of an analysis at a fraction of the nested rule's cost; the ones it
             // does not (kinks where rows trade places, tight relative targets) the nested
-            // rule settles far faster than more lattice points would.
+            // rule often settles far faster than more lattice points would. The nested
+            // rule may spend what the lattice would still need at its slowest rate
+            // (error falling like 1 / points), and gives way when it would spend more.
             let first = (plan.variables == 4)
                 .then(|| lattice(tol.max_points.min(tolerance::LATTICE_POINTS_BEFORE_NESTED)));
+            let allowance = first.map_or(usize::MAX, |(value, error, points, _, _)| {
+                let short = error / target(value).max(f64::MIN_POSITIVE);
+                ((points as f64) * short.max(1.0)).min(tol.max_points as f64) as usize
+            });
+            // The Kronrod estimate is a heuristic (QUADPACK's): it can fall short of the
+            // true error by a few times when a feature is barely resolved (measured: 2.4x,
+            // 1e-8 reported for 2.4e-8). It is reported times a safety factor, and the rule
+            // aims that much tighter so that the reported bound still meets the target.
+            let safety = tolerance::NESTED_ESTIMATE_SAFETY;
+            let aim = Tolerance {
+                abs: tol.abs / safety,
+                rel: tol.rel / safety,
+                max_points: tol.max_points,
+            };
+            let nested_answer = |nested: NestedOutcome, spent: usize| {
+                (
+                    nested.value,
+                    nested.error * safety,
+                    spent + nested.evaluations,
+                    nested.converged,
+                    Method::Nested,
+                )
+            };
             match first {
                 Some(first) if first.3 => first,
-                _ => {
-                    // The Kronrod estimate is a heuristic (QUADPACK's): it can fall short of
-                    // the true error by a few times when a feature is barely resolved
-                    // (measured: 2.4x, 1e-8 reported for 2.4e-8). It is reported times a
-                    // safety factor, and the rule aims that much tighter so that the
-                    // reported bound still meets the target.
-                    let safety = tolerance::NESTED_ESTIMATE_SAFETY;
-                    let aim = Tolerance {
-                        abs: tol.abs / safety,
-                        rel: tol.rel / safety,
-                        max_points: tol.max_points,
-                    };
-                    let nested = plan.nested(&aim)?;
-                    let spent = first.map_or(0, |f| f.2) + nested.evaluations;
-                    let answer = (
-                        nested.value,
-                        nested.error * safety,
-                        spent,
-                        nested.converged,
-                        Method::Nested,
-                    );
-                    if nested.converged || first.is_none() {
-                        answer
-                    } else {
-                        // Neither settled it: the lattice with the whole budget, or the
-                        // nested answer if that is still the tighter one.
-                        let last = lattice(tol.max_points);
-                        if last.3 || last.1 < answer.1 {
-                            last
-                        } else {
-                            answer
-                        }
-                    }
-                }
+                Some(first) => match plan.nested(&aim, allowance) {
+                    Ok(nested) if nested.converged => nested_answer(nested, first.2),
+                    // Not settled within its allowance: the lattice with the whole budget.
+                    Ok(_) | Err(ProbError::BudgetExhausted { .. }) => lattice(tol.max_points),
+                    Err(e) => return Err(e),
+                },
+                None => nested_answer(plan.nested(&aim, usize::MAX)?, 0),
             }
         } else {
             lattice(tol.max_points)
@@ -1185,10 +1186,20 @@ impl Plan {
     /// exact. Between the projections of the (slice) polytope's vertices the integrand is
     /// analytic; they are made interval ends, so that no narrow part of the support and no
     /// kink is left for the Kronrod error estimate to miss.
-    fn nested(&self, tol: &Tolerance) -> Result<NestedOutcome, ProbError> {
+    ///
+    /// `max_evaluations` caps the pair tails evaluated: past it (or when the outer
+    /// breakpoints alone promise more) the rule stops with
+    /// [`ProbError::BudgetExhausted`], for the caller to go back to the lattice rule.
+    fn nested(&self, tol: &Tolerance, max_evaluations: usize) -> Result<NestedOutcome, ProbError> {
         let outer_budget = (tol.max_points / 21).clamp(1, tolerance::NESTED_MAX_INTERVALS);
         let mut prefix = Vec::with_capacity(self.variables);
-        self.nested_level(&mut prefix, 0.5 * tol.abs, 0.5 * tol.rel, outer_budget)
+        self.nested_level(
+            &mut prefix,
+            0.5 * tol.abs,
+            0.5 * tol.rel,
+            outer_budget,
+            max_evaluations,
+        )
     }
 
     /// `P(variables prefix.len().. in their bounds | earlier variables = prefix)` to about
@@ -1199,6 +1210,7 @@ impl Plan {
         abs: f64,
         rel: f64,
         max_intervals: usize,
+        max_evaluations: usize,
     ) -> Result<NestedOutcome, ProbError> {
         let none = NestedOutcome {
             value: 0.0,
@@ -1244,6 +1256,22 @@ impl Plan {
         // Half of the target for this rule, half for the inner values it integrates. (A
         // subnormal mass would overflow the quotient; the target is then unbounded.)
         let (inner_abs, inner_rel) = ((0.5 * abs / mass).min(f64::MAX), 0.5 * rel);
+        // Each interval between breakpoints costs at least one Kronrod rule here, each of
+        // whose nodes costs at least one below.
+        let nodes = 21 * (breakpoints.len() + 1);
+        let least = if self.variables > j + 3 {
+            nodes * 21
+        } else {
+            nodes
+        };
+        let over_budget = |evaluations: usize| ProbError::BudgetExhausted {
+            achieved: f64::INFINITY,
+            requested: abs.max(rel),
+            points: evaluations,
+        };
+        if least > max_evaluations {
+            return Err(over_budget(least));
+        }
         let opts = QuadratureOptions {
             abs_tol: inner_abs,
             rel_tol: 0.5 * rel,
@@ -1259,10 +1287,14 @@ impl Plan {
                     inner_abs,
                     inner_rel,
                     tolerance::NESTED_INNER_MAX_INTERVALS,
+                    max_evaluations.saturating_sub(evaluations),
                 );
                 prefix.pop();
                 let inner = inner?;
                 evaluations += inner.evaluations;
+                if evaluations > max_evaluations {
+                    return Err(over_budget(evaluations));
+                }
                 converged &= inner.converged;
                 Ok(Estimate::new(inner.value, inner.error))
             },
@@ -1567,33 +1599,32 @@ impl Plan {
         prod * self.pair_tail(&w[..head]).value
     }
 
-    fn integrate<T: Fn(f64) -> f64>(
+    /// A lattice run for this plan: over `variables - 2` dimensions with the last two
+    /// variables exact (`exact_pair`, four or more variables), else `variables - 1`.
+    fn lattice_run(&self, seed: u64, exact_pair: bool) -> lattice::Run {
+        let dim = if exact_pair && self.variables >= 4 {
+            self.variables - 2
+        } else {
+            self.variables - 1
+        };
+        lattice::Run::new(dim, seed, lattice::Periodisation::Polynomial)
+    }
+
+    /// Go on with a run from [`Plan::lattice_run`] (the same `exact_pair`) up to
+    /// `max_points` in all.
+    fn lattice_extend<T: Fn(f64) -> f64>(
         &self,
+        run: &mut lattice::Run,
         max_points: usize,
-        seed: u64,
         target: T,
         exact_pair: bool,
     ) -> lattice::Outcome {
-        let periodisation = lattice::Periodisation::Polynomial;
         let mut w = vec![0.0; self.variables];
         if exact_pair && self.variables >= 4 {
-            return lattice::integrate(
-                self.variables - 2,
-                seed,
-                max_points,
-                periodisation,
-                target,
-                |x| self.eval_with_pair(x, &mut w),
-            );
+            run.extend(max_points, target, |x| self.eval_with_pair(x, &mut w))
+        } else {
+            run.extend(max_points, target, |x| self.eval(x, &mut w))
         }
-        lattice::integrate(
-            self.variables - 1,
-            seed,
-            max_points,
-            periodisation,
-            target,
-            |x| self.eval(x, &mut w),
-        )
     }
 }
 
