@@ -12,8 +12,8 @@ use crate::analysis::metrics::Asil;
 
 use super::TOOL_VERSION;
 use super::cautions::CAUTIONS;
+use super::csv::field as csv_field;
 use super::format::{fit, percent_floor, probability};
-use super::sweep::csv_field;
 
 /// The ASIL reached on both single-point and latent fault metrics (the lower of the two).
 pub fn asil_reached(row: &ArchitectureSummary) -> Asil {

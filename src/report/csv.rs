@@ -6,8 +6,9 @@ use super::ReportInput;
 pub const HEADER: &str = "scenario,fit,mode,amplitude,dc,dc_error,dc_all_dangerous,p_vd,p_vd_error,\
 p_vu,p_vu_error,p_sd,p_sd_error,p_sq,p_sq_error,worst_sigma,residual_fit,latent_fit";
 
-/// Quotes a text field when it holds a comma, quote or line break (RFC 4180, 2.6 and 2.7).
-fn field(text: &str) -> String {
+/// Quotes a text field when it holds a comma, quote or line break (RFC 4180, 2.6 and 2.7);
+/// every CSV writer of the report layer uses it.
+pub(crate) fn field(text: &str) -> String {
     if text.contains([',', '"', '\n', '\r']) {
         format!("\"{}\"", text.replace('"', "\"\""))
     } else {

@@ -17,17 +17,9 @@ use serde::Serialize;
 use crate::analysis::sweep::{SpreadCurve, SweepPlan, SweepRow};
 use crate::prob::Estimate;
 
+use super::csv::field as csv_field;
 use super::plot::{Chart, Marker, PlotError, ReferenceLine, Scale, Series, render_svg};
 use super::{TOOL_VERSION, input_sha256};
-
-/// Quotes a CSV field when needed (RFC 4180, 2.6 and 2.7).
-pub(crate) fn csv_field(text: &str) -> String {
-    if text.contains([',', '"', '\n', '\r']) {
-        format!("\"{}\"", text.replace('"', "\"\""))
-    } else {
-        text.to_string()
-    }
-}
 
 fn opt(v: Option<f64>) -> String {
     v.map_or(String::new(), |x| format!("{x:e}"))

@@ -6,9 +6,10 @@ use serde::Serialize;
 use crate::analysis::tune::{TradeOffPoint, TuneResult};
 
 use super::cautions::CAUTIONS;
+use super::csv::field as csv_field;
 use super::format::{percent_with_bound, probability};
 use super::plot::{Chart, Marker, PlotError, ReferenceLine, Scale, Series, render_svg};
-use super::sweep::{PLOT_SIZE, csv_field, dc_levels};
+use super::sweep::{PLOT_SIZE, dc_levels};
 use super::{TOOL_VERSION, input_sha256};
 
 /// `checks.ab.limit = 4.7218` with six significant digits, for text and pictures (the JSON
