@@ -357,25 +357,15 @@ mod tests {
         // Integrand with integral 1 (prod_k (1/2 + x_k), by hand) for a sanity check.
         let f = |x: &[f64]| x.iter().map(|v| 0.5 + v).product::<f64>();
         let mut calls = 0usize;
+        let mut counted = |x: &[f64]| {
+            calls += 1;
+            f(x)
+        };
         let mut run = Run::new(3, 7, Periodisation::Polynomial);
-        let early = run.extend(
-            12 * 256,
-            |_| 0.0,
-            |x| {
-                calls += 1;
-                f(x)
-            },
-        );
+        let early = run.extend(12 * 256, |_| 0.0, &mut counted);
         assert!(!early.converged);
         assert_eq!(early.points, 12 * 256);
-        let resumed = run.extend(
-            12 * 4096,
-            |_| 0.0,
-            |x| {
-                calls += 1;
-                f(x)
-            },
-        );
+        let resumed = run.extend(12 * 4096, |_| 0.0, &mut counted);
         let whole = integrate(3, 7, 12 * 4096, Periodisation::Polynomial, |_| 0.0, f);
         assert_eq!(resumed, whole);
         assert_eq!(calls, 12 * 4096);
