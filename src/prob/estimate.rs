@@ -6,7 +6,8 @@ use serde::Serialize;
 ///
 /// The bound covers the numerical method only (integration, quadrature, search), not the
 /// modelling assumptions. `error` is never negative; `0.0` means exact to rounding.
-#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+/// The default is [`Estimate::zero`].
+#[derive(Debug, Clone, Copy, Default, PartialEq, Serialize)]
 pub struct Estimate {
     /// The computed value.
     pub value: f64,

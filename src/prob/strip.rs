@@ -153,9 +153,13 @@ impl Strips {
         cuts.sort_by(f64::total_cmp);
         cuts.dedup();
 
-        let mut total = Estimate::zero();
-        // Runs of consecutive pieces with the same active pair are integrated at once.
-        let mut run: Option<Run> = None;
+        // Between consecutive cuts one lower and one upper line are active. The integral
+        // is summed per envelope segment, not per piece: each envelope contributes one
+        // rectangle for each stretch over which its active line and the tail form stay
+        // the same, so a break of one envelope does not cost a rectangle of the other.
+        let mut sum = HalfSum::default();
+        let mut upper_half: Option<Half> = None;
+        let mut lower_half: Option<Half> = None;
         for pair in cuts.windows(2) {
             let (s, e) = (pair[0], pair[1]);
             let (lo_line, hi_line) = active_lines(lines, &slope, representative(s, e));
@@ -173,94 +177,108 @@ impl Strips {
                 let t = representative(s, e);
                 let lo_val = lo_line.map_or(f64::NEG_INFINITY, |(_, k, c)| k - c * t);
                 let hi_val = hi_line.map_or(f64::INFINITY, |(_, k, c)| k - c * t);
-                let (lo_row, hi_row) = (lo_line.map(|l| l.0), hi_line.map(|l| l.0));
                 if hi_val <= lo_val {
-                    if let Some(r) = run.take() {
-                        total = total.add(self.piece(r, lower, upper));
+                    for half in [upper_half.take(), lower_half.take()].into_iter().flatten() {
+                        sum.add(self.half_term(half, lower, upper));
                     }
                     continue;
                 }
                 let upper_tail = lo_val > 0.0;
-                match run.as_mut() {
-                    Some(r)
-                        if r.lower_row == lo_row
-                            && r.upper_row == hi_row
-                            && r.upper_tail == upper_tail =>
-                    {
-                        r.end = e;
-                    }
-                    _ => {
-                        if let Some(r) = run.take() {
-                            total = total.add(self.piece(r, lower, upper));
+                for (open, row, is_upper) in [
+                    (&mut upper_half, hi_line.map(|l| l.0), true),
+                    (&mut lower_half, lo_line.map(|l| l.0), false),
+                ] {
+                    match open.as_mut() {
+                        Some(h) if h.row == row && h.upper_tail == upper_tail && h.end == s => {
+                            h.end = e;
                         }
-                        run = Some(Run {
-                            start: s,
-                            end: e,
-                            lower_row: lo_row,
-                            upper_row: hi_row,
-                            upper_tail,
-                        });
+                        _ => {
+                            if let Some(h) = open.take() {
+                                sum.add(self.half_term(h, lower, upper));
+                            }
+                            *open = Some(Half {
+                                start: s,
+                                end: e,
+                                row,
+                                is_upper,
+                                upper_tail,
+                            });
+                        }
                     }
                 }
             }
         }
-        if let Some(r) = run.take() {
-            total = total.add(self.piece(r, lower, upper));
+        for half in [upper_half, lower_half].into_iter().flatten() {
+            sum.add(self.half_term(half, lower, upper));
         }
-        Estimate::new(total.value.max(0.0), total.error)
+        sum.estimate()
     }
 
-    /// One run: `∫_s^e phi(t) [Phi(U(t)) - Phi(L(t))] dt` with its active lines.
-    fn piece(&self, run: Run, lower: &[f64], upper: &[f64]) -> Estimate {
-        let Run {
+    /// One envelope's share of the integral over a stretch where its active line and the
+    /// tail form are fixed, with the sign it enters with. In the lower-tail form the
+    /// integrand is `P(Y + cT < upper line) - P(Y + cT < lower line)`; in the upper-tail
+    /// form `P(Y + cT > lower line) - P(Y + cT > upper line)`, so that small values keep
+    /// their relative accuracy. An unbounded side gives the whole `T`-interval's mass or
+    /// nothing.
+    fn half_term(&self, half: Half, lower: &[f64], upper: &[f64]) -> (Estimate, bool) {
+        let Half {
             start: s,
             end: e,
-            lower_row: lo_row,
-            upper_row: hi_row,
+            row,
+            is_upper,
             upper_tail,
-        } = run;
-        // `below(q, a)`: P(s < T < e, Y + c_q T < a); `above`: the same with `>`.
-        let rect = |q: usize, a: f64, above: bool| -> Estimate {
-            let row = &self.rows[q];
-            let k = a * row.inv_norm;
-            if above {
-                row.law.rectangle_estimate([s, k], [e, f64::INFINITY])
-            } else {
-                row.law.rectangle_estimate([s, f64::NEG_INFINITY], [e, k])
+        } = half;
+        let positive = is_upper != upper_tail;
+        let term = match row {
+            Some(q) => {
+                let bound = if is_upper {
+                    upper.get(q).copied().unwrap_or(f64::INFINITY)
+                } else {
+                    lower.get(q).copied().unwrap_or(f64::NEG_INFINITY)
+                };
+                let law = &self.rows[q];
+                let k = bound * law.inv_norm;
+                if upper_tail {
+                    law.law.rectangle_estimate([s, k], [e, f64::INFINITY])
+                } else {
+                    law.law.rectangle_estimate([s, f64::NEG_INFINITY], [e, k])
+                }
             }
+            // No line on this side: below an absent upper line (or above an absent lower
+            // line) lies the whole interval; beyond it lies nothing.
+            None if positive => {
+                let v = normal::interval(s, e);
+                Estimate::new(v, v * tolerance::ROUNDING_REL)
+            }
+            None => Estimate::zero(),
         };
-        let whole = || {
-            let v = normal::interval(s, e);
-            Estimate::new(v, v * tolerance::ROUNDING_REL)
-        };
-        let lo = lo_row.map(|q| (q, lower.get(q).copied().unwrap_or(f64::NEG_INFINITY)));
-        let hi = hi_row.map(|q| (q, upper.get(q).copied().unwrap_or(f64::INFINITY)));
-        let (plus, minus) = if upper_tail {
-            // P(Y + cT > lower line) - P(Y + cT > upper line).
-            let plus = match lo {
-                Some((q, a)) => rect(q, a, true),
-                None => whole(),
-            };
-            let minus = match hi {
-                Some((q, a)) => rect(q, a, true),
-                None => Estimate::zero(),
-            };
-            (plus, minus)
+        (term, positive)
+    }
+}
+
+/// The signed sum of envelope shares: positive and negative terms kept apart so that the
+/// rounding of the difference is bounded by [`tolerance::ROUNDING_REL`] times the positive
+/// total.
+#[derive(Debug, Default)]
+struct HalfSum {
+    plus: Estimate,
+    minus: Estimate,
+}
+
+impl HalfSum {
+    fn add(&mut self, (term, positive): (Estimate, bool)) {
+        if positive {
+            self.plus = self.plus.add(term);
         } else {
-            // P(Y + cT < upper line) - P(Y + cT < lower line).
-            let plus = match hi {
-                Some((q, a)) => rect(q, a, false),
-                None => whole(),
-            };
-            let minus = match lo {
-                Some((q, a)) => rect(q, a, false),
-                None => Estimate::zero(),
-            };
-            (plus, minus)
-        };
-        let value = plus.value - minus.value;
-        let error = plus.error + minus.error + tolerance::ROUNDING_REL * plus.value.abs();
-        Estimate::new(value, error)
+            self.minus = self.minus.add(term);
+        }
+    }
+
+    fn estimate(&self) -> Estimate {
+        let value = self.plus.value - self.minus.value;
+        let error =
+            self.plus.error + self.minus.error + tolerance::ROUNDING_REL * self.plus.value.abs();
+        Estimate::new(value.max(0.0), error)
     }
 }
 
@@ -380,14 +398,15 @@ fn envelope_breaks(
     }
 }
 
-/// A stretch of the `T`-axis with one active lower and one active upper line (`None`: the
-/// envelope is unbounded there).
+/// A stretch of the `T`-axis over which one envelope keeps its active line (`None`: that
+/// side is unbounded there) and the integral keeps its tail form.
 #[derive(Debug, Clone, Copy)]
-struct Run {
+struct Half {
     start: f64,
     end: f64,
-    lower_row: Option<usize>,
-    upper_row: Option<usize>,
+    row: Option<usize>,
+    /// The upper envelope (else the lower one).
+    is_upper: bool,
     /// Use the complementary (upper-tail) form.
     upper_tail: bool,
 }
