@@ -30,13 +30,14 @@ use crate::prob::normal;
 use crate::prob::tolerance;
 
 /// Buffers reused by [`Strips::probability`] on one thread: the lines of the envelopes, the
-/// cuts between pieces, and one envelope's lines. The nested integration calls it tens of
+/// segments of each envelope, and one envelope's lines. The nested integration calls it tens of
 /// thousands of times a polytope; reusing them keeps the allocator off that path.
 #[derive(Debug, Default)]
 struct Scratch {
     lines: Vec<(usize, f64, bool)>,
-    cuts: Vec<f64>,
-    side: Vec<(f64, f64)>,
+    upper_segments: Vec<Segment>,
+    lower_segments: Vec<Segment>,
+    side: Vec<Line>,
 }
 
 thread_local! {
@@ -122,7 +123,12 @@ impl Strips {
         let lower_at = |q: usize| lower.get(q).copied().unwrap_or(f64::NEG_INFINITY);
         let upper_at = |q: usize| upper.get(q).copied().unwrap_or(f64::INFINITY);
         // Lines `k - c t` of the envelopes: (row, offset, is_upper), finite offsets only.
-        let Scratch { lines, cuts, side } = scratch;
+        let Scratch {
+            lines,
+            upper_segments,
+            lower_segments,
+            side,
+        } = scratch;
         lines.clear();
         for q in 0..self.rows.len() {
             let (lo, hi) = (lower_at(q), upper_at(q));
@@ -141,28 +147,39 @@ impl Strips {
             return Estimate::new(value, value * tolerance::ROUNDING_REL);
         }
         let slope = |q: usize| self.rows[q].slope;
-        // The breaks of both envelopes: between consecutive cuts one lower and one upper
-        // line are active. Inside such a piece the width U - L is linear, so it changes
-        // sign at most once, where the two active lines cross; the piece is split there.
-        cuts.clear();
-        cuts.push(t_lo);
-        for upper_side in [true, false] {
-            envelope_breaks(lines, upper_side, &slope, t_lo, t_hi, side, cuts);
-        }
-        cuts.push(t_hi);
-        cuts.sort_by(f64::total_cmp);
-        cuts.dedup();
+        // Each envelope as segments with their active line; between consecutive breaks of
+        // either, one lower and one upper line are active. Inside such a piece the width
+        // U - L is linear, so it changes sign at most once, where the two active lines
+        // cross; the piece is split there.
+        envelope_segments(lines, true, &slope, t_lo, t_hi, side, upper_segments);
+        envelope_segments(lines, false, &slope, t_lo, t_hi, side, lower_segments);
 
-        // Between consecutive cuts one lower and one upper line are active. The integral
-        // is summed per envelope segment, not per piece: each envelope contributes one
-        // rectangle for each stretch over which its active line and the tail form stay
-        // the same, so a break of one envelope does not cost a rectangle of the other.
+        // The integral is summed per envelope segment, not per piece: each envelope
+        // contributes one rectangle for each stretch over which its active line and the
+        // tail form stay the same, so a break of one envelope does not cost a rectangle of
+        // the other.
         let mut sum = HalfSum::default();
         let mut upper_half: Option<Half> = None;
         let mut lower_half: Option<Half> = None;
-        for pair in cuts.windows(2) {
-            let (s, e) = (pair[0], pair[1]);
-            let (lo_line, hi_line) = active_lines(lines, &slope, representative(s, e));
+        // Merge the two segment lists: each step ends at the nearer next break.
+        let (mut i, mut j) = (0, 0);
+        let mut start = t_lo;
+        while start < t_hi && i < upper_segments.len() && j < lower_segments.len() {
+            let hi_line = upper_segments[i].line;
+            let lo_line = lower_segments[j].line;
+            let upper_end = upper_segments.get(i + 1).map_or(t_hi, |g| g.start);
+            let lower_end = lower_segments.get(j + 1).map_or(t_hi, |g| g.start);
+            let (s, e) = (start, upper_end.min(lower_end));
+            if upper_end == e {
+                i += 1;
+            }
+            if lower_end == e {
+                j += 1;
+            }
+            start = e;
+            if s >= e {
+                continue;
+            }
             let crossing = match (lo_line, hi_line) {
                 (Some((_, kl, cl)), Some((_, kh, ch))) if ch != cl => {
                     Some((kh - kl) / (ch - cl)).filter(|x| *x > s && *x < e)
@@ -282,104 +299,100 @@ impl HalfSum {
     }
 }
 
-/// The active lower and upper lines at `t`: `(row, offset, slope)` of the largest lower
-/// line `k - c t` and of the smallest upper one. Ties go to the line that leads just after
-/// `t` (for the lower envelope the smaller `c`, for the upper the larger), as in
-/// [`envelope_breaks`]: two lines can meet exactly at a piece's representative point when
-/// their crossing rounded onto the piece's start (bounds equal to the last digit, slopes
-/// millions apart), and the line that holds the rest of the piece must win.
-type ActiveLine = Option<(usize, f64, f64)>;
+/// A line `k - c t` of an envelope: `(row, offset k, slope c)`.
+type Line = (usize, f64, f64);
 
-fn active_lines(
-    lines: &[(usize, f64, bool)],
-    slope: &dyn Fn(usize) -> f64,
-    t: f64,
-) -> (ActiveLine, ActiveLine) {
-    let (mut lo, mut lo_val): (ActiveLine, f64) = (None, f64::NEG_INFINITY);
-    let (mut hi, mut hi_val): (ActiveLine, f64) = (None, f64::INFINITY);
-    for &(q, k, is_upper) in lines {
-        let c = slope(q);
-        let v = k - c * t;
-        if is_upper {
-            if v < hi_val || (v == hi_val && hi.is_some_and(|(_, _, held)| c > held)) {
-                hi_val = v;
-                hi = Some((q, k, c));
-            }
-        } else if v > lo_val || (v == lo_val && lo.is_some_and(|(_, _, held)| c < held)) {
-            lo_val = v;
-            lo = Some((q, k, c));
-        }
-    }
-    (lo, hi)
+/// Where an envelope's active line starts, and the line (`None`: no line on that side, the
+/// envelope is unbounded).
+#[derive(Debug, Clone, Copy)]
+struct Segment {
+    start: f64,
+    line: Option<Line>,
 }
 
-/// The breaks inside `(t_lo, t_hi)` of the upper envelope `min (k - c t)` over the upper
-/// lines (`upper_side`) or of the lower envelope `max (k - c t)` over the lower lines,
-/// appended to `out`. The envelope is walked from `t_lo`: from the active line, the next
-/// one is the line that overtakes it first (for the minimum, a line with a larger `c`;
-/// for the maximum, a smaller one), so the cost is the number of lines times the number of
-/// breaks, not the square of the number of lines.
-fn envelope_breaks(
+/// The upper envelope `min (k - c t)` over the upper lines (`upper_side`) or the lower
+/// envelope `max (k - c t)` over the lower lines on `[t_lo, t_hi)`, as segments in
+/// increasing `t` written to `out`. The envelope is walked from `t_lo`: from the active
+/// line, the next one is the line that overtakes it first (for the minimum, a line with a
+/// larger `c`; for the maximum, a smaller one), so the cost is the number of lines times the
+/// number of breaks, not the square of the number of lines, and the slope moves one way,
+/// which bounds the walk by the number of lines. Ties go to the line that leads just after
+/// the tie (for the minimum the larger `c`, for the maximum the smaller): two lines can
+/// meet exactly at `t_lo` when bounds agree to the last digit, and the line that holds the
+/// rest of the segment must win.
+fn envelope_segments(
     lines: &[(usize, f64, bool)],
     upper_side: bool,
     slope: &dyn Fn(usize) -> f64,
     t_lo: f64,
     t_hi: f64,
-    side: &mut Vec<(f64, f64)>,
-    out: &mut Vec<f64>,
+    side: &mut Vec<Line>,
+    out: &mut Vec<Segment>,
 ) {
+    out.clear();
     side.clear();
     side.extend(
         lines
             .iter()
             .filter(|l| l.2 == upper_side)
-            .map(|&(q, k, _)| (k, slope(q))),
+            .map(|&(q, k, _)| (q, k, slope(q))),
     );
-    if side.len() < 2 {
+    let Some(&first) = side.first() else {
+        out.push(Segment {
+            start: t_lo,
+            line: None,
+        });
         return;
-    }
-    // Start just inside t_lo: the active line there, ties broken towards the line that
-    // leads just after it.
-    let better = |a: (f64, f64), b: (f64, f64), t: f64| -> bool {
-        let (va, vb) = (a.0 - a.1 * t, b.0 - b.1 * t);
+    };
+    // Start at t_lo: the active line there, ties broken towards the line that leads just
+    // after it.
+    let better = |a: Line, b: Line, t: f64| -> bool {
+        let (va, vb) = (a.1 - a.2 * t, b.1 - b.2 * t);
         if upper_side {
-            va < vb || (va == vb && a.1 > b.1)
+            va < vb || (va == vb && a.2 > b.2)
         } else {
-            va > vb || (va == vb && a.1 < b.1)
+            va > vb || (va == vb && a.2 < b.2)
         }
     };
-    let mut current = side[0];
+    let mut current = first;
     for &line in &side[1..] {
         if better(line, current, t_lo) {
             current = line;
         }
     }
+    out.push(Segment {
+        start: t_lo,
+        line: Some(current),
+    });
     let mut t = t_lo;
     for _ in 0..side.len() {
         // The earliest line to overtake the current one after t.
-        let mut next: Option<(f64, (f64, f64))> = None;
+        let mut next: Option<(f64, Line)> = None;
         for &line in side.iter() {
             let overtakes = if upper_side {
-                line.1 > current.1
+                line.2 > current.2
             } else {
-                line.1 < current.1
+                line.2 < current.2
             };
             if !overtakes {
                 continue;
             }
-            let x = (line.0 - current.0) / (line.1 - current.1);
-            if !x.is_finite() || x <= t {
+            let x = (line.1 - current.1) / (line.2 - current.2);
+            if !x.is_finite() {
                 continue;
             }
+            // A crossing at or before t can only come from rounding (three lines through
+            // one point): that line already leads, so it takes over at t.
+            let x = x.max(t);
             let earlier = match next {
                 None => true,
                 Some((best_x, best)) => {
                     x < best_x
                         || (x == best_x
                             && if upper_side {
-                                line.1 > best.1
+                                line.2 > best.2
                             } else {
-                                line.1 < best.1
+                                line.2 < best.2
                             })
                 }
             };
@@ -389,7 +402,10 @@ fn envelope_breaks(
         }
         match next {
             Some((x, line)) if x < t_hi => {
-                out.push(x);
+                out.push(Segment {
+                    start: x,
+                    line: Some(line),
+                });
                 t = x;
                 current = line;
             }
