@@ -8,7 +8,9 @@
 //!   piecewise-linear gaussian model.
 //! - [`analysis`]: coverage figures per fault site, worst cases, baseline, hardware metrics,
 //!   and an independent Monte Carlo cross-check.
-//! - [`report`]: tables, JSON and CSV.
+//! - [`report`]: everything concord writes: the analysis as a table, JSON and CSV, the HTML
+//!   report with its SVG charts and architecture diagram, the selftest summary, and the
+//!   outputs of sweep, tune and compare.
 //! - [`cli`]: command-line parsing and dispatch; `main.rs` only calls [`cli::run`].
 
 pub mod analysis;

@@ -143,7 +143,7 @@ fn fixed_offset_on_one_channel_factorises() {
             o.p_sq,
             inside(f / 2.0, sy, L) * inside(f, sd, T),
         );
-        // Residual rate = fit * p_vu (DESIGN.md "Hardware metrics").
+        // Residual rate = fit * p_vu (README.md "What the figures mean").
         assert!((a.sites[0].residual_fit().value - 10.0 * o.p_vu.value).abs() < 1e-15);
     }
 }

@@ -1,7 +1,7 @@
 //! Hardware metrics (`analysis::metrics`) on hand-computed FMEDA-style examples.
 //!
 //! Formulas, ISO 26262-5:2018 clauses 8.4.5 and 8.4.6 with Annex C (from memory), and the
-//! all-dangerous convention of DESIGN.md "Hardware metrics":
+//! all-dangerous convention of README.md "What the figures mean":
 //! - residual rate `sum(fit_i p_vu,i)`; SPFM = SFF = `1 - residual / sum(fit_i)` (the SFF of
 //!   IEC 61508-2 Annex C when every undetected violation counts as dangerous undetected);
 //! - latent rate `sum(fit_i p_sq,i (1 - latent_coverage_i))`;
@@ -105,7 +105,8 @@ fn three_site_sheet_by_hand() {
     assert!(m.spfm.error == 0.0 && m.lfm.error < 1e-15);
 }
 
-/// Bounds propagate (DESIGN.md "Engine": every figure carries its bound). The sheet above
+/// Bounds propagate (DEVELOPERS.md "How a figure is computed", step 5: every figure carries its
+/// bound). The sheet above
 /// with `s1.p_vu = 0.01 ± 1e-4` and `s1.p_sq = 0.70 ± 2e-4`:
 ///
 /// - residual error 100 * 1e-4 = 0.01 FIT; SPFM error 0.01 / 160 = 6.25e-5;

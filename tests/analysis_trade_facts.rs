@@ -6,7 +6,7 @@
 //! - c. for a gaussian fault of unknown spread, the residual is small for very small and
 //!   very large spreads and peaks in between, and the reported worst case is the peak.
 //!
-//! a and b are the monotonicity of the events (DESIGN.md "Semantics in detail"): with pass
+//! a and b are the monotonicity of the events (README.md "What the figures mean"): with pass
 //! bands that contain zero, scaling a band by `c < 1` shrinks it, so at every point `x` the
 //! set of firing checks can only grow (detection `any` or `at_least k` can only turn on) and
 //! a shrunk safety band can only turn a violation on. The residual `p_vu = P(V and not Det)`
@@ -254,7 +254,8 @@ fn tighter_safety_never_raises_coverage(name: &str) {
     );
 }
 
-/// Fact c (common practice; DESIGN.md "Unknown spread"): the residual over an unknown sigma.
+/// Fact c (common practice; the worst case as README.md "What the figures mean" defines it):
+/// the residual over an unknown sigma.
 fn unknown_spread_peaks_in_between(name: &str) {
     let arch = load(name, &[]);
     let analysis = as_written(name);

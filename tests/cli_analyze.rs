@@ -26,7 +26,7 @@ fn json_contract_parses_back_and_matches_the_library() {
         String::from_utf8_lossy(&out.stderr)
     );
     let doc: AnalysisJson = serde_json::from_slice(&out.stdout).expect("the JSON contract");
-    // Every key of the contract in DESIGN.md is present (serde would fail otherwise) and
+    // Every key of the contract (src/report/json.rs) is present (serde would fail otherwise) and
     // the numbers are those of the library for the same file.
     let arch = load(std::path::Path::new(EXAMPLE)).unwrap();
     let analysis = analyze(&arch.model, &AnalysisOptions::default(), false).unwrap();

@@ -1,6 +1,7 @@
 //! Every example architecture in architectures/ loads without warnings, and its compiled mean
 //! vector and covariance equal the ones computed by hand from the file's numbers with
-//! `mean = m + G mu_s` and `Sigma = D R D + G diag(sigma_s^2) G^T` (the model of DESIGN.md).
+//! `mean = m + G mu_s` and `Sigma = D R D + G diag(sigma_s^2) G^T` (docs/architecture-format.md,
+//! "Random part").
 //! The arithmetic is written out beside each matrix.
 
 use std::path::Path;

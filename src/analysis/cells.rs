@@ -4,7 +4,8 @@
 //! Their common refinement splits `x`-space into disjoint convex cells (for order statistics:
 //! orderings of the channels); inside a cell the output and every check are affine, so every
 //! event of the analysis (violation, detection, their complements) is, inside the cell, a
-//! finite union of disjoint polytopes. DESIGN.md "The engine" describes the approach.
+//! finite union of disjoint polytopes. DEVELOPERS.md "How a figure is computed" describes the
+//! approach.
 
 use crate::model::{CompiledModel, Detection, Guard, LinearForm};
 

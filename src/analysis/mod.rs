@@ -14,6 +14,8 @@
 //! - [`compare`]: several architectures reduced to one line each.
 //! - [`outcome`]: the four probabilities and the coverage figures derived from them.
 //! - [`selftest`]: the built-in validation suite against outside references.
+//! - [`options`]: the numerical settings of an analysis (tolerances and budgets).
+//! - [`error`]: the errors of the analysis layer.
 
 pub mod cells;
 pub mod compare;

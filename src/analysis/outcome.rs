@@ -2,7 +2,7 @@
 
 use crate::prob::Estimate;
 
-/// One of the four disjoint outcomes of a scenario (DESIGN.md "Figures per fault site").
+/// One of the four disjoint outcomes of a scenario (README.md "What the figures mean").
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
 pub enum Figure {
     /// `p_vd`: the safety requirement is violated and the checks detect it.

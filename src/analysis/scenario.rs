@@ -1,6 +1,6 @@
 //! A fault site turned into gaussian scenarios: with amplitude `F` the channel deviations
-//! are `x = base + direction * F` with `base ~ N(base_mean, base_cov)` (DESIGN.md
-//! "Semantics in detail").
+//! are `x = base + direction * F` with `base ~ N(base_mean, base_cov)` (the modes are
+//! described in docs/architecture-format.md, "Fault sites").
 //!
 //! - `add`: `base` is the fault-free vector and `direction` the fault's gains (source gains
 //!   already applied by the model, so a source fault reaches every channel it feeds).

@@ -1,5 +1,6 @@
-//! Figures of one fault site: the amplitude models of DESIGN.md "Fault sites" and the worst
-//! case over an unknown spread ("Unknown spread").
+//! Figures of one fault site: the amplitude models of docs/architecture-format.md "Fault
+//! sites" and the worst case over an unknown spread (its range: the same file, "The default
+//! range of an unknown sigma"; its search: DEVELOPERS.md "How a figure is computed", step 3).
 
 use crate::model::{Amplitude, CompiledFault, CompiledModel, FaultMode};
 use crate::prob::Estimate;
@@ -306,6 +307,11 @@ fn push_steps(points: &mut Vec<f64>, centre: f64, width: f64) {
 /// before a site warns that they do not sum to 1 within their bounds.
 const SUM_ROUNDING: f64 = 1e-12;
 
+/// Smallest relative step in sigma over which the figures of a worst case are compared to
+/// widen its bounds: a `sigma_rel_tol` below it (zero, say) is raised to it, so that the two
+/// neighbouring sigmas still differ from the centre in floating point.
+const MIN_WIDENING_STEP_REL: f64 = 1e-12;
+
 /// The [`AmplitudeWindow`] of one polytope (see there).
 pub fn amplitude_window(
     polytope: &Polytope,
@@ -521,8 +527,8 @@ fn worst_case(
     };
     let centre = at(sigma)?;
     // The location of the maximum is known to sigma_rel_tol: the figures may move by as much
-    // as they do over that distance, so widen every bound by it (DESIGN.md "Semantics").
-    let step = options.sigma_rel_tol.max(1e-12);
+    // as they do over that distance, so widen every bound by it.
+    let step = options.sigma_rel_tol.max(MIN_WIDENING_STEP_REL);
     let left = at((sigma * (1.0 - step)).max(lo))?;
     let right = at((sigma * (1.0 + step)).min(hi))?;
     let outcome = centre.widened(|f| {

@@ -5,9 +5,10 @@
 //! A parameter sweep reloads the file with the swept values set by dotted key path
 //! ([`crate::model::load_str_with_overrides`]) and runs [`analyze`] at every point, so each
 //! row is, bit for bit, what `concord analyze` prints for the file edited by hand. Points
-//! run in parallel in fixed chunks and are handed on in order, one chunk at a time: a sweep
-//! of any length holds one chunk in memory, and its output does not depend on the thread
-//! count.
+//! run in parallel in chunks of four per thread (`CHUNK_PER_THREAD`) and are handed on in
+//! order, one chunk at a time: a sweep of any length holds one chunk in memory. The chunk
+//! size follows the thread count, the output does not: every point is computed on its own
+//! and the rows are handed on in point order.
 
 use rayon::prelude::*;
 use serde::Serialize;

@@ -4,7 +4,8 @@
 //!
 //! - [`normal`]: the standard normal CDF, its complement and quantile, accurate in both tails.
 //! - [`bivariate`]: bivariate normal rectangle probabilities (Genz 2004).
-//! - [`legendre`]: the Gauss–Legendre rules (6, 12, 20 points) that [`bivariate`] uses.
+//! - [`legendre`]: Gauss–Legendre rules of 6, 12 and 20 points; [`bivariate`] and
+//!   [`shift_average`] use the 20-point rule, [`normal`] the 12-point one.
 //! - [`polytope`]: `P(l <= A x <= u)` for `x ~ N(mu, Sigma)` (Genz 1992; Genz and Bretz 2009).
 //! - [`strip`]: a standard normal pair in a convex polygon, exactly (the last two variables
 //!   of the sequential conditioning).
@@ -15,6 +16,9 @@
 //! - [`quadrature`]: adaptive Gauss–Kronrod integration (QUADPACK style).
 //! - [`optimise`]: Brent's bounded minimisation and a scan that keeps every local minimum.
 //! - [`tolerance`]: the named numerical tolerances shared by the engine.
+//! - [`estimate`]: a value with a bound on its numerical error.
+//! - [`rng`]: the seeded generator (SplitMix64) of the lattice shifts and the Monte Carlo engine.
+//! - [`error`]: the errors of the engine.
 
 pub mod bivariate;
 pub mod cholesky;

@@ -1,8 +1,9 @@
 //! The JSON output of `concord analyze --format json`.
 //!
-//! One object, the contract that scripts rely on (DESIGN.md "The command line"):
+//! One object, the contract that scripts rely on (README.md "JSON output"):
 //!
-//! - `name`, `unit`, `tool_version`, `input_sha256`, `method` (`exact` or `montecarlo`);
+//! - `name`, `unit`, `tool_version`, `input_sha256`, `input_file` (the file's name as it was
+//!   given), `method` (`exact` or `montecarlo`);
 //! - `baseline`: `p_vd`, `p_vu`, `p_sd`, `p_sq`, `error` (bound of each), `nuisance_alarm`,
 //!   `intrinsic_violation`;
 //! - `sites`: one object per fault site with `name`, `fit`, `mode`, `amplitude`, `dc` (null

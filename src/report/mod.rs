@@ -1,6 +1,8 @@
-//! The report layer: the figures of an analysis as a terminal table, JSON and CSV.
+//! The report layer: everything concord writes. The figures of an analysis as a terminal
+//! table, JSON and CSV; the HTML report with its SVG charts and architecture diagram; the
+//! selftest summary; and the outputs of sweep, tune and compare.
 //!
-//! - [`json`]: the JSON object that scripts rely on (the contract of DESIGN.md).
+//! - [`json`]: the JSON object that scripts rely on (the contract of README.md "JSON output").
 //! - [`table`]: the table for a terminal, 100 columns wide.
 //! - [`csv`]: one row per scenario, for spreadsheets.
 //! - [`selftest`]: the qualification summary of `concord selftest` (table and JSON).

@@ -3,9 +3,10 @@
 
 Writes tests/reference/edge_cases.json, read by tests/analysis_edge_cases.rs. The script
 never calls concord: it writes each architecture file itself and computes its figures from
-the model's definitions (DESIGN.md, "The model" and "Semantics in detail") by reductions
-derived below, each at two working precisions (30 and 50 digits); the stored tolerance is
-ten times their disagreement, at least 1e-25 relative.
+the model's definitions (docs/architecture-format.md, "Random part" and "Fault sites"; the
+figures as README.md "What the figures mean" defines them) by reductions derived below,
+each at two working precisions (30 and 50 digits); the stored tolerance is ten times their
+disagreement, at least 1e-25 relative.
 
 Reductions (derived by hand, stated per case):
 - two channels, mean output y = (a + b) / 2 and difference check d = a - b: (y, d) is a
