@@ -11,9 +11,11 @@
 //! odd candidates, the one whose weighted `P_2` criterion (Sloan and Joe 1994,
 //! *Lattice Methods for Multiple Integration*, sec. 5; weights `1/j`) stays closest to the
 //! best candidate's at every size `2^6..2^20` points.
-//! Periodisation: the baker's (tent) transform `x -> 1 - |2x - 1|` (Hickernell 2002,
-//! "Obtaining O(N^{-2+e}) convergence for lattice quadrature rules"), which gives lattice
-//! rules their fast convergence on smooth non-periodic integrands.
+//! Periodisation (the caller chooses, see [`Periodisation`]): the polynomial change of
+//! variables `t^3 (10 - 15 t + 6 t^2)` (Sloan and Joe 1994, sec. 2.12), which
+//! [`crate::prob::polytope`] uses, or the baker's (tent) transform `x -> 1 - |2x - 1|`
+//! (Hickernell 2002, "Obtaining O(N^{-2+e}) convergence for lattice quadrature rules").
+//! Either gives lattice rules their fast convergence on smooth non-periodic integrands.
 //! Randomisation: [`SHIFTS`] independent uniform shifts drawn by [`SplitMix64`] from a
 //! fixed seed. The estimate is the mean over the shifts, its error
 //! [`tolerance::LATTICE_SPREAD_FACTOR`] standard errors of the shift means.

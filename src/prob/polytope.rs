@@ -29,8 +29,10 @@
 //!    Gauss–Kronrod with breakpoints at the projections of the polytope's vertices and
 //!    wherever a later row, or a pair of them, switches over a small share of the mass
 //!    (`Plan::switches`; nearly parallel directions make such switches narrow)
-//!    ([`Method::Nested`], deterministic, error four times the Kronrod estimate); with
-//!    four or more, the lattice rule runs over two dimensions fewer than the variables.
+//!    ([`Method::Nested`], deterministic, error four times the Kronrod estimate), unless
+//!    the vertex enumeration would pass [`tolerance::NESTED_MAX_PLANE_SETS`] sets of planes
+//!    (then the lattice rule); with four or more, the lattice rule runs over two
+//!    dimensions fewer than the variables.
 //!    Four variables that the lattice rule has not settled within
 //!    [`tolerance::LATTICE_POINTS_BEFORE_NESTED`] points go to the nested rule (one
 //!    Gauss–Kronrod rule inside another, with the breakpoints of each slice) if it can
@@ -245,7 +247,8 @@ pub enum Method {
     /// standard normal pair, exactly as a sum of bivariate rectangles ([`crate::prob::strip`]).
     Planar,
     /// Three conditioning variables: adaptive Gauss–Kronrod over the first, the last two
-    /// exact ([`crate::prob::strip`]).
+    /// exact ([`crate::prob::strip`]); or four, one such rule inside another, when the
+    /// lattice rule has not settled them cheaply (see the module notes).
     Nested,
     /// Genz's sequential conditioning with the randomised lattice rule (for four or more
     /// variables the last two are exact, so the lattice has two dimensions fewer than the
@@ -266,7 +269,8 @@ pub struct PolytopeProbability {
     pub rank: usize,
     /// Distinct random constraint directions after merging parallel rows.
     pub directions: usize,
-    /// Variables of the sequential conditioning (the lattice dimension is one less).
+    /// Variables of the sequential conditioning (the lattice dimension is two less: the
+    /// last two variables are exact).
     pub variables: usize,
 }
 
@@ -277,7 +281,8 @@ pub struct Options {
     /// Seed of the random shifts.
     pub seed: u64,
     /// Use the exact and deterministic paths where they apply (one or two directions, two
-    /// or three conditioning variables, the last two variables exactly); `false` sends
+    /// or three conditioning variables, four when the lattice is slow, the last two
+    /// variables exactly); `false` sends
     /// everything with two or more directions through the plain lattice rule, an
     /// independent code path for cross-checks.
     pub exact_paths: bool,

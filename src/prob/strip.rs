@@ -9,18 +9,19 @@
 //!
 //! Method. For fixed `t` the admissible `Y` form the interval between the lower envelope
 //! `L(t) = max_q (lower_q - c_q t)` and the upper envelope `U(t) = min_q (upper_q - c_q t)`.
-//! Both are piecewise linear; between two consecutive crossings of their lines one lower
-//! line and one upper line are active, and each part is a difference of two integrals
+//! Both are piecewise linear: each is walked once into segments with one active line. On
+//! the `T`-interval where `U > L` the integral `∫ phi(t) [Phi(U(t)) - Phi(L(t))] dt` is the
+//! sum over the upper envelope's segments minus the sum over the lower one's, each term
 //! `∫_s^e phi(t) Phi(a - c t) dt = P(s < T < e, (Y + c T) / sqrt(1 + c^2) < a / sqrt(1 + c^2))`,
 //! the rectangle of a standard bivariate normal with correlation `c / sqrt(1 + c^2)`
 //! (the pair `T`, `(Y + c T) / sqrt(1 + c^2)` is standard with that correlation; the
 //! identity is the law of total probability conditioned on `T = t`). Rectangles come from
 //! [`crate::prob::bivariate`] (Genz 2004). Where the strip lies in the upper tail of `Y` the
-//! complementary form `P(.., > a')` is used so that small values keep their relative
-//! accuracy.
+//! complementary form `P(.., > a')` is used (for both envelopes over that stretch) so that
+//! small values keep their relative accuracy.
 //!
 //! Error: the sum of the rectangles' own bounds plus [`tolerance::ROUNDING_REL`] times the
-//! largest term, since each part is a difference.
+//! total of the positive terms, since the result is a difference.
 
 use std::cell::RefCell;
 
