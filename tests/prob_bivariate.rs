@@ -388,6 +388,42 @@ fn upper_tail_relative_accuracy() {
     assert!(rel <= 1e-14, "rel {rel:e}");
 }
 
+// A rectangle far in the tail of a strong negative correlation, where the expansion about
+// rho = -1 subtracts two nearly equal terms (b / a = 20): P(-1 < X < -0.5, Y < 0) for
+// rho = -40 / sqrt(1601) is the integral of phi(t) Phi(40 t) over (-1, -0.5) (conditioning
+// on X; the pair of a strip of slope -40). mpmath 1.3.0 at 40 digits, the integrand scaled
+// by 1e92, Gauss-Legendre and tanh-sinh over the breakpoints -1, -0.7, -0.6, -0.55, -0.52,
+// -0.51, -0.505, -0.5 agree to 40 digits. The bound must cover the error (before it was
+// scaled by the parts of the expansion it claimed 1.3e-13 relative and missed by 8e-12).
+#[test]
+fn strong_negative_tail_bound_covers_the_cancellation() {
+    let want = 1.205_085_264_855_463_4e-92;
+    let complement = 1.0 / 1601f64.sqrt();
+    let rho = -40.0 * complement;
+    for law in [
+        StandardBivariate::new(rho),
+        StandardBivariate::with_complement(rho, complement),
+    ] {
+        let got = law.rectangle_estimate([-1.0, f64::NEG_INFINITY], [-0.5, 0.0]);
+        let err = (got.value - want).abs();
+        eprintln!(
+            "far tail, rho = {rho}: {:e} +- {:e}, mpmath {want:e}",
+            got.value, got.error
+        );
+        assert!(
+            err <= got.error,
+            "error {err:e} beyond the bound {:e}",
+            got.error
+        );
+        assert!(err <= 1e-10 * want, "relative error {:e}", err / want);
+        assert!(
+            got.error <= 1e-9 * want,
+            "bound {:e} too loose to be useful",
+            got.error
+        );
+    }
+}
+
 proptest! {
     // a fixed seed: the same cases on every run
     #![proptest_config(ProptestConfig {
