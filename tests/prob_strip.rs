@@ -143,10 +143,13 @@ fn offset() -> impl Strategy<Value = f64> {
     ]
 }
 
-/// Slopes from a grid (repeats make parallel lines), steep and nearly flat ones included.
+/// Slopes from a grid (repeats make parallel lines), nearly parallel ones (a grid value
+/// moved by 1e-12 or 1e-9), steep and nearly flat ones.
 fn slope() -> impl Strategy<Value = f64> {
     prop_oneof![
         6 => (-4i32..=4).prop_map(|k| f64::from(k) * 0.5),
+        1 => ((-4i32..=4), prop_oneof![Just(1e-12), Just(-1e-9)])
+            .prop_map(|(k, tilt)| f64::from(k) * 0.5 + tilt),
         1 => Just(1e-7),
         1 => Just(-40.0),
         1 => -3.0f64..3.0,
@@ -212,10 +215,27 @@ fn t_end() -> impl Strategy<Value = f64> {
     ]
 }
 
+/// Cases: 2000, or `CONCORD_FUZZ_CASES` when set (a longer hunt, as for `model_fuzz`).
+fn cases() -> u32 {
+    std::env::var("CONCORD_FUZZ_CASES")
+        .ok()
+        .and_then(|v| v.parse().ok())
+        .unwrap_or(2000)
+}
+
+/// Seed: fixed, or `CONCORD_FUZZ_SEED` when set (another stream of cases).
+fn seed() -> u64 {
+    std::env::var("CONCORD_FUZZ_SEED")
+        .ok()
+        .and_then(|v| v.parse().ok())
+        .unwrap_or(0x5747_1905)
+}
+
 proptest! {
     #![proptest_config(ProptestConfig {
-        cases: 2000,
-        rng_seed: proptest::test_runner::RngSeed::Fixed(0x5747_1905),
+        cases: cases(),
+        rng_seed: proptest::test_runner::RngSeed::Fixed(seed()),
+        failure_persistence: None,
         ..ProptestConfig::default()
     })]
 
