@@ -860,7 +860,15 @@ mod properties {
     }
 
     proptest! {
-        #![proptest_config(ProptestConfig { cases: 24, .. ProptestConfig::default() })]
+        // A fixed seed: the same cases on every run; the saved regressions are replayed
+        // first. (A hunt with random seeds, 600 cases, found nothing; with up to five rows
+        // in five dimensions, 1500 cases, one cell of width 0.2 stopped at 3.2e-7 against
+        // the 1e-7 asked after 4 million lattice points: an honest BudgetExhausted.)
+        #![proptest_config(ProptestConfig {
+            cases: 24,
+            rng_seed: proptest::test_runner::RngSeed::Fixed(0x0b5e_55ed),
+            ..ProptestConfig::default()
+        })]
 
         /// The 3^k cells (below / inside / above for each of k rows) partition the space:
         /// their probabilities sum to 1 within the summed error bounds.
