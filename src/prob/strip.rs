@@ -30,15 +30,15 @@ use crate::prob::estimate::Estimate;
 use crate::prob::normal;
 use crate::prob::tolerance;
 
-/// Buffers reused by [`Strips::probability`] on one thread: the lines of the envelopes, the
-/// segments of each envelope, and one envelope's lines. The nested integration calls it tens of
+/// Buffers reused by [`Strips::probability`] on one thread: the lines of each envelope and
+/// its segments. The nested integration calls it tens of
 /// thousands of times a polytope; reusing them keeps the allocator off that path.
 #[derive(Debug, Default)]
 struct Scratch {
-    lines: Vec<(usize, f64, bool)>,
+    upper_lines: Vec<Line>,
+    lower_lines: Vec<Line>,
     upper_segments: Vec<Segment>,
     lower_segments: Vec<Segment>,
-    side: Vec<Line>,
 }
 
 thread_local! {
@@ -123,37 +123,37 @@ impl Strips {
         }
         let lower_at = |q: usize| lower.get(q).copied().unwrap_or(f64::NEG_INFINITY);
         let upper_at = |q: usize| upper.get(q).copied().unwrap_or(f64::INFINITY);
-        // Lines `k - c t` of the envelopes: (row, offset, is_upper), finite offsets only.
+        // Lines `k - c t` of each envelope, finite offsets only.
         let Scratch {
-            lines,
+            upper_lines,
+            lower_lines,
             upper_segments,
             lower_segments,
-            side,
         } = scratch;
-        lines.clear();
-        for q in 0..self.rows.len() {
+        upper_lines.clear();
+        lower_lines.clear();
+        for (q, row) in self.rows.iter().enumerate() {
             let (lo, hi) = (lower_at(q), upper_at(q));
             if lo > hi {
                 return Estimate::zero();
             }
             if lo.is_finite() {
-                lines.push((q, lo, false));
+                lower_lines.push((q, lo, row.slope));
             }
             if hi.is_finite() {
-                lines.push((q, hi, true));
+                upper_lines.push((q, hi, row.slope));
             }
         }
-        if lines.is_empty() {
+        if upper_lines.is_empty() && lower_lines.is_empty() {
             let value = normal::interval(t_lo, t_hi);
             return Estimate::new(value, value * tolerance::ROUNDING_REL);
         }
-        let slope = |q: usize| self.rows[q].slope;
         // Each envelope as segments with their active line; between consecutive breaks of
         // either, one lower and one upper line are active. Inside such a piece the width
         // U - L is linear, so it changes sign at most once, where the two active lines
         // cross; the piece is split there.
-        envelope_segments(lines, true, &slope, t_lo, t_hi, side, upper_segments);
-        envelope_segments(lines, false, &slope, t_lo, t_hi, side, lower_segments);
+        envelope_segments(upper_lines, true, t_lo, t_hi, upper_segments);
+        envelope_segments(lower_lines, false, t_lo, t_hi, lower_segments);
 
         // The integral is summed per envelope segment, not per piece: each envelope
         // contributes one rectangle for each stretch over which its active line and the
@@ -311,8 +311,8 @@ struct Segment {
     line: Option<Line>,
 }
 
-/// The upper envelope `min (k - c t)` over the upper lines (`upper_side`) or the lower
-/// envelope `max (k - c t)` over the lower lines on `[t_lo, t_hi)`, as segments in
+/// The upper envelope `min (k - c t)` over the upper lines `side` (`upper_side`) or the
+/// lower envelope `max (k - c t)` over the lower lines on `[t_lo, t_hi)`, as segments in
 /// increasing `t` written to `out`. The envelope is walked from `t_lo`: from the active
 /// line, the next one is the line that overtakes it first (for the minimum, a line with a
 /// larger `c`; for the maximum, a smaller one), so the cost is the number of lines times the
@@ -322,22 +322,13 @@ struct Segment {
 /// meet exactly at `t_lo` when bounds agree to the last digit, and the line that holds the
 /// rest of the segment must win.
 fn envelope_segments(
-    lines: &[(usize, f64, bool)],
+    side: &[Line],
     upper_side: bool,
-    slope: &dyn Fn(usize) -> f64,
     t_lo: f64,
     t_hi: f64,
-    side: &mut Vec<Line>,
     out: &mut Vec<Segment>,
 ) {
     out.clear();
-    side.clear();
-    side.extend(
-        lines
-            .iter()
-            .filter(|l| l.2 == upper_side)
-            .map(|&(q, k, _)| (q, k, slope(q))),
-    );
     let Some(&first) = side.first() else {
         out.push(Segment {
             start: t_lo,
