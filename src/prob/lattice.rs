@@ -200,8 +200,7 @@ impl Run {
         let means: Vec<f64> = self.sums.iter().map(|s| s.total() / n).collect();
         let k = SHIFTS as f64;
         let value = means.iter().sum::<f64>() / k;
-        let var = means.iter().map(|m| (m - value).powi(2)).sum::<f64>() / (k - 1.0);
-        let error = tolerance::LATTICE_SPREAD_FACTOR * (var / k).sqrt();
+        let error = tolerance::LATTICE_SPREAD_FACTOR * standard_error(&means, value);
         Outcome {
             value,
             error,
@@ -209,6 +208,24 @@ impl Run {
             converged: allow && self.done > 0 && error <= target(value),
         }
     }
+}
+
+/// The standard error of the mean `value` of `means` (sample standard deviation over
+/// `sqrt(len)`), computed on the deviations divided by the largest one: squaring them
+/// directly underflows for spreads below about 1e-154, and a tiny probability would then
+/// report an error of zero whatever its shifts disagree by.
+fn standard_error(means: &[f64], value: f64) -> f64 {
+    let k = means.len() as f64;
+    if !value.is_finite() {
+        // A non-finite shift mean: no error can be claimed (and `f64::max` would skip NaN).
+        return f64::NAN;
+    }
+    let scale = means.iter().map(|m| (m - value).abs()).fold(0.0, f64::max);
+    if k < 2.0 || scale == 0.0 || !scale.is_finite() {
+        return scale;
+    }
+    let sum_sq: f64 = means.iter().map(|m| ((m - value) / scale).powi(2)).sum();
+    scale * (sum_sq / (k - 1.0) / k).sqrt()
 }
 
 /// Integrate `f` over `[0, 1)^dim` until the error meets `target(value)` or `max_points`
@@ -350,6 +367,31 @@ mod tests {
             |x| x[0].sin() + x[1] * x[2],
         );
         assert_eq!(out, again);
+    }
+
+    #[test]
+    fn error_scales_with_the_integrand_down_to_tiny_values() {
+        // The spread of the shifts is homogeneous of degree one in the integrand (common
+        // practice: an error estimate in the units of the value). Squared deviations of
+        // shift means near 1e-200 underflow to zero and near 1e200 overflow, so a direct
+        // sum of squares reported 0 and infinity there.
+        let f = |x: &[f64]| x[0].sin() + x[1] * x[2];
+        let unit = integrate(3, 7, 12 * 256, Periodisation::Polynomial, |_| 0.0, f);
+        assert!(unit.error > 0.0);
+        for scale in [1e-200, 1e-300, 1e200] {
+            let scaled = integrate(
+                3,
+                7,
+                12 * 256,
+                Periodisation::Polynomial,
+                |_| 0.0,
+                |x| scale * f(x),
+            );
+            for (got, want) in [(scaled.value, unit.value), (scaled.error, unit.error)] {
+                let ratio = got / (scale * want);
+                assert!((ratio - 1.0).abs() < 1e-9, "scale {scale:e}: ratio {ratio}");
+            }
+        }
     }
 
     #[test]
