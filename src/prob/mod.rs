@@ -11,6 +11,8 @@
 //!   of the sequential conditioning).
 //! - [`shift_average`]: a rank-one polytope averaged over a uniform shift of the mean, in
 //!   closed form (a channel frozen at an arbitrary value among two).
+//! - [`feasibility`]: a verified bound on how deep a point can lie inside a polytope (a
+//!   small simplex search checked by duality): proves a polytope empty, or thin.
 //! - [`cholesky`]: pivoted Cholesky factor of a (possibly singular) covariance.
 //! - [`lattice`]: randomised extensible lattice integration with a fixed seed.
 //! - [`quadrature`]: adaptive Gauss–Kronrod integration (QUADPACK style).
@@ -24,6 +26,7 @@ pub mod bivariate;
 pub mod cholesky;
 pub mod error;
 pub mod estimate;
+pub(crate) mod feasibility;
 pub mod lattice;
 pub mod legendre;
 pub mod normal;

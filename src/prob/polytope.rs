@@ -40,6 +40,11 @@
 //!    settle them, the same lattice run goes on with the whole budget.
 //!    Rows merged as parallel or folded into a group as dependent carry what was dropped
 //!    into the bound (`UnitRow::tilt`).
+//! 6. A lattice round in which no point landed inside says nothing about how small the
+//!    inside is: a zero is not reported with the spread of the shifts (zero) as its error.
+//!    Either duality proves the polytope empty ([`Method::Empty`]), or the error is an
+//!    upper bound on its probability (the smallest slab, or the width that its inradius
+//!    allows, `depth_bound`) and, when that misses the target, the lattice goes on.
 //!
 //! Every factor of the sequential conditioning is a normal interval from
 //! [`normal::interval`], which takes the tail that does not cancel, and the conditioning
@@ -53,6 +58,7 @@ use crate::prob::bivariate::StandardBivariate;
 use crate::prob::cholesky::{self, Factor};
 use crate::prob::error::ProbError;
 use crate::prob::estimate::Estimate;
+use crate::prob::feasibility::{self, HalfSpace};
 use crate::prob::lattice;
 use crate::prob::normal;
 use crate::prob::quadrature::{self, QuadratureOptions};
@@ -254,6 +260,11 @@ pub enum Method {
     /// variables the last two are exact, so the lattice has two dimensions fewer than the
     /// variables).
     Lattice,
+    /// The lattice rule found no point inside, and linear programming duality proved that
+    /// the constraints contradict each other within [`normal::UNDERFLOW_X`] standard
+    /// deviations: the probability is below every double (see
+    /// [`crate::prob::feasibility`]).
+    Empty,
 }
 
 /// A polytope probability with diagnostics.
@@ -577,15 +588,17 @@ impl Gaussian {
             );
             return Ok(with_error(e.value, e.error, Method::Bivariate, 0, 2));
         }
+        // The polytope lies inside each of its slabs.
+        let slab_bound = rows
+            .iter()
+            .map(|row| normal::interval(row.lower, row.upper))
+            .fold(1.0, f64::min);
         if options.exact_paths {
             // The polytope lies inside each of its slabs, so the smallest slab probability
             // bounds it from above. When that bound is within the absolute tolerance the
             // midpoint of [0, bound] answers within it, at no integration cost (most
             // polytopes of an analysis are such far-tail corners).
-            let mut bound = rows
-                .iter()
-                .map(|row| normal::interval(row.lower, row.upper))
-                .fold(1.0, f64::min);
+            let mut bound = slab_bound;
             if bound > tol.abs && bound <= tolerance::PAIR_SCREEN_ABS {
                 // Sharper: the smallest probability of two slabs together.
                 'pairs: for (i, first) in rows.iter().enumerate() {
@@ -632,15 +645,39 @@ impl Gaussian {
         let nested_fits = options.exact_paths && plan.nested_fits();
         // One lattice run, resumed if it is asked for more points later.
         let mut run = plan.lattice_run(options.seed, options.exact_paths);
+        // What the geometry alone bounds, worked out only when a lattice round sees nothing.
+        let mut depth: Option<Depth> = None;
         let mut lattice = |budget: usize| {
-            let outcome = plan.lattice_extend(&mut run, budget, target, options.exact_paths);
-            (
-                outcome.value,
-                outcome.error,
-                outcome.points,
-                outcome.converged,
-                Method::Lattice,
-            )
+            // A round with no point inside stops at once, to be judged below.
+            let stop_on_zero = |v: f64| if v == 0.0 { f64::INFINITY } else { target(v) };
+            let mut outcome =
+                plan.lattice_extend(&mut run, budget, stop_on_zero, options.exact_paths);
+            let answer =
+                |o: lattice::Outcome| (o.value, o.error, o.points, o.converged, Method::Lattice);
+            if outcome.value != 0.0 || outcome.points == 0 {
+                return answer(outcome);
+            }
+            // Not one point inside (module notes, step 6).
+            let bound = match *depth.get_or_insert_with(|| depth_bound(&rows, rank)) {
+                Depth::Empty => return (0.0, 0.0, outcome.points, true, Method::Empty),
+                Depth::Thin(bound) => bound.min(slab_bound),
+            };
+            if bound > target(0.0) {
+                // Refuse a zero until the budget is spent: more points may land inside.
+                let unseen = |v: f64| {
+                    if v == 0.0 {
+                        f64::NEG_INFINITY
+                    } else {
+                        target(v)
+                    }
+                };
+                outcome = plan.lattice_extend(&mut run, budget, unseen, options.exact_paths);
+            }
+            if outcome.value == 0.0 {
+                outcome.error = bound;
+                outcome.converged = bound <= target(0.0);
+            }
+            answer(outcome)
         };
         let (value, error, points, converged, method) = if nested_fits {
             // Four variables: the lattice first, on a small budget. It settles most
@@ -1630,6 +1667,58 @@ impl Plan {
         } else {
             run.extend(max_points, target, |x| self.eval(x, &mut w))
         }
+    }
+}
+
+/// What the geometry of the rows alone says about the probability of their polytope.
+#[derive(Debug, Clone, Copy)]
+enum Depth {
+    /// No point within [`normal::UNDERFLOW_X`] of the origin in every coordinate is
+    /// inside: the probability is below every double.
+    Empty,
+    /// The probability is at most this.
+    Thin(f64),
+}
+
+/// An upper bound on the probability of the polytope of `rows` (in `rank` standard normal
+/// coordinates) from how deep a point can lie inside it: [`feasibility::margin_bound`]
+/// within the box `|z_j| <= UNDERFLOW_X`, outside which the probability is below every
+/// double. A negative margin proves the polytope empty. Otherwise a convex body of
+/// inradius `t` in `n` dimensions is at most `2 t sqrt(n + 1)` wide (Steinhagen 1921,
+/// Abh. Math. Sem. Hamburg 1:15-26: `2 t sqrt(n)` for odd `n`, `2 t (n + 1) / sqrt(n + 2)`
+/// for even `n`), so it lies in a slab of that width, whose probability is at most the
+/// width times the largest normal density `1 / sqrt(2 pi)`. Row ends move out by their
+/// rounding slack first, so that the proof holds for the exact rows.
+fn depth_bound(rows: &[UnitRow], rank: usize) -> Depth {
+    let negated: Vec<Vec<f64>> = rows
+        .iter()
+        .map(|row| row.dir.iter().map(|v| -v).collect())
+        .collect();
+    let mut spaces = Vec::with_capacity(2 * rows.len());
+    for (row, minus) in rows.iter().zip(&negated) {
+        if row.upper.is_finite() {
+            spaces.push(HalfSpace {
+                normal: &row.dir,
+                offset: row.upper + row.slack,
+            });
+        }
+        if row.lower.is_finite() {
+            spaces.push(HalfSpace {
+                normal: minus,
+                offset: -row.lower + row.slack,
+            });
+        }
+    }
+    let radius = normal::UNDERFLOW_X;
+    let n = rank as f64;
+    let outside = (2.0 * n * normal::sf(radius)).min(1.0);
+    match feasibility::margin_bound(&spaces, rank, radius) {
+        Some(margin) if margin < 0.0 => Depth::Empty,
+        Some(margin) => {
+            let width = 2.0 * (n + 1.0).sqrt() * margin;
+            Depth::Thin((width * normal::pdf(0.0) + outside).min(1.0))
+        }
+        None => Depth::Thin(1.0),
     }
 }
 

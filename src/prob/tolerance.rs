@@ -137,3 +137,16 @@ pub const SHIFT_SHORT_PIECE: f64 = 0.5;
 /// Rounding allowance per term of the closed-form average over a uniform shift, relative to
 /// the term (a few hundred ulps: the normal CDF's own error and the arithmetic of a term).
 pub const SHIFT_TERM_REL: f64 = 256.0 * f64::EPSILON;
+
+/// Phase 1 of the simplex search in [`crate::prob::feasibility`] counts as feasible when
+/// the artificial variables sum to at most this (the equations are scaled to unit rows).
+pub const SIMPLEX_FEASIBLE_ABS: f64 = 1e-9;
+
+/// A reduced cost of the simplex search counts as negative below this times the largest
+/// cost (smaller ones are rounding, and entering on them could cycle).
+pub const SIMPLEX_COST_REL: f64 = 1e-12;
+
+/// Smallest tableau entry the simplex search pivots on. The margin bound is verified
+/// afresh from the multipliers, so these three only decide how good the bound gets, never
+/// whether it holds.
+pub const SIMPLEX_PIVOT_ABS: f64 = 1e-11;
