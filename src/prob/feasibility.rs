@@ -349,6 +349,56 @@ mod tests {
         assert!((2.0..2.0 + 1e-12).contains(&bound), "{bound}");
     }
 
+    /// The largest margin by the `microlp` crate (an independent simplex code from the
+    /// package registry): maximise `t` subject to `g_i . z + t <= h_i` and the box faces.
+    fn reference_margin(rows: &[(Vec<f64>, f64)], dim: usize, radius: f64) -> f64 {
+        use microlp::{ComparisonOp, OptimizationDirection, Problem};
+        let mut lp = Problem::new(OptimizationDirection::Maximize);
+        let z: Vec<_> = (0..dim)
+            .map(|_| lp.add_var(0.0, (f64::NEG_INFINITY, f64::INFINITY)))
+            .collect();
+        let t = lp.add_var(1.0, (f64::NEG_INFINITY, f64::INFINITY));
+        for (g, h) in rows {
+            let mut terms: Vec<_> = z.iter().zip(g).map(|(&v, &c)| (v, c)).collect();
+            terms.push((t, 1.0));
+            lp.add_constraint(terms.as_slice(), ComparisonOp::Le, *h);
+        }
+        for &v in &z {
+            lp.add_constraint([(v, 1.0), (t, 1.0)], ComparisonOp::Le, radius);
+            lp.add_constraint([(v, -1.0), (t, 1.0)], ComparisonOp::Le, radius);
+        }
+        let outcome = lp.solve().expect("bounded and feasible by construction");
+        outcome.into_solution().expect("no limits set").objective()
+    }
+
+    #[test]
+    fn bound_matches_an_independent_solver() {
+        // Random polytopes in 2 to 8 dimensions with up to 40 half-spaces, feasible and
+        // not: the bound may not fall below the optimum (it would not be a bound) and,
+        // when the simplex search reaches its optimum, not exceed it either. Tolerance:
+        // microlp's feasibility tolerance 1e-7, times ten.
+        let mut rng = crate::prob::rng::SplitMix64::new(5);
+        for case in 0..300 {
+            let dim = 2 + case % 7;
+            let m = 2 + (rng.next_u64() % 39) as usize;
+            let rows: Vec<(Vec<f64>, f64)> = (0..m)
+                .map(|_| {
+                    let g: Vec<f64> = (0..dim).map(|_| 2.0 * rng.next_f64() - 1.0).collect();
+                    let norm = g.iter().map(|v| v * v).sum::<f64>().sqrt();
+                    let h = 1.5 * rng.next_f64() - 0.5;
+                    (g.iter().map(|v| v / norm).collect(), h)
+                })
+                .collect();
+            let radius = 4.0;
+            let bound = margin_bound(&spaces(&rows), dim, radius).unwrap();
+            let reference = reference_margin(&rows, dim, radius);
+            assert!(
+                (bound - reference).abs() <= 1e-6,
+                "case {case}: bound {bound} against microlp {reference}"
+            );
+        }
+    }
+
     #[test]
     fn bound_is_never_below_a_witnessed_margin() {
         // Random polygons: the margin of every point of a grid (computed directly) must not
