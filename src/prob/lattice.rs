@@ -18,7 +18,10 @@
 //! Either gives lattice rules their fast convergence on smooth non-periodic integrands.
 //! Randomisation: [`SHIFTS`] independent uniform shifts drawn by [`SplitMix64`] from a
 //! fixed seed. The estimate is the mean over the shifts, its error
-//! [`tolerance::LATTICE_SPREAD_FACTOR`] standard errors of the shift means.
+//! [`tolerance::LATTICE_SPREAD_FACTOR`] standard errors of the shift means, once every
+//! shift has met a nonzero value of the integrand; before that, a bound the caller knows in
+//! advance ([`Run::with_bound`]), since shifts that all missed a small support agree on a
+//! wrong value.
 
 use crate::prob::rng::SplitMix64;
 use crate::prob::tolerance;
@@ -114,6 +117,10 @@ pub struct Run {
     z: Vec<u32>,
     shifts: Vec<Vec<f64>>,
     sums: [Sum; SHIFTS],
+    /// Whether the shift has had a nonzero integrand value yet.
+    seen: [bool; SHIFTS],
+    /// A bound on the absolute value of the integral known in advance (infinite if none).
+    known_bound: f64,
     periodisation: Periodisation,
     /// Points per shift evaluated so far.
     done: usize,
@@ -132,9 +139,19 @@ impl Run {
             z: generator(dim),
             shifts,
             sums: [Sum::default(); SHIFTS],
+            seen: [false; SHIFTS],
+            known_bound: f64::INFINITY,
             periodisation,
             done: 0,
         }
+    }
+
+    /// The run with `bound >= |integral|` known in advance. It stands in for the error
+    /// while the shifts disagree on where the integrand is nonzero (see
+    /// [`Run::extend`]); without it such a run cannot converge.
+    pub fn with_bound(mut self, bound: f64) -> Self {
+        self.known_bound = bound;
+        self
     }
 
     /// Go on until the error meets `target(value)` or `max_points` evaluations in all
@@ -161,7 +178,8 @@ impl Run {
         };
         let mut x = vec![0.0; self.dim];
         loop {
-            for (shift, sum) in self.shifts.iter().zip(self.sums.iter_mut()) {
+            let lanes = self.shifts.iter().zip(self.sums.iter_mut());
+            for ((shift, sum), seen) in lanes.zip(self.seen.iter_mut()) {
                 for i in self.done..next {
                     let i = i as u32;
                     let mut weight = 1.0;
@@ -177,7 +195,9 @@ impl Run {
                         }
                     }
                     if weight > 0.0 {
-                        sum.add(weight * f(&x));
+                        let term = weight * f(&x);
+                        *seen |= term != 0.0;
+                        sum.add(term);
                     }
                 }
             }
@@ -200,7 +220,16 @@ impl Run {
         let means: Vec<f64> = self.sums.iter().map(|s| s.total() / n).collect();
         let k = SHIFTS as f64;
         let value = means.iter().sum::<f64>() / k;
-        let error = tolerance::LATTICE_SPREAD_FACTOR * standard_error(&means, value);
+        let spread = tolerance::LATTICE_SPREAD_FACTOR * standard_error(&means, value);
+        // Unless every shift has met a nonzero value, the support is small beside the
+        // lattice's spacing and the spread of the shift means (zero when no shift met it;
+        // a few lucky shifts against the rest otherwise) can fall far below the error.
+        // Then only `|value - integral| <= |value| + known_bound` holds for certain.
+        let error = if self.seen.iter().all(|&s| s) {
+            spread
+        } else {
+            spread.max(value.abs() + self.known_bound)
+        };
         Outcome {
             value,
             error,
@@ -391,6 +420,31 @@ mod tests {
                 let ratio = got / (scale * want);
                 assert!((ratio - 1.0).abs() < 1e-9, "scale {scale:e}: ratio {ratio}");
             }
+        }
+    }
+
+    #[test]
+    fn shifts_that_miss_a_small_support_fall_back_to_the_known_bound() {
+        // f = 1 on 0.3 <= x_0 < 0.3 + width, else 0: integral `width` (by hand). At 64
+        // points a shift, width 1e-4 is missed by every shift (0 +- 0 by the spread alone)
+        // and width 1e-2 by some; only the bound known in advance says how wrong that is.
+        for width in [1e-4, 1e-2] {
+            let f = |x: &[f64]| {
+                if (0.3..0.3 + width).contains(&x[0]) {
+                    1.0
+                } else {
+                    0.0
+                }
+            };
+            let blind = integrate(2, 7, 12 * 64, Periodisation::Tent, |_| 1.0, f);
+            assert!(!blind.converged, "width {width}: {blind:?}");
+            assert!(blind.error.is_infinite());
+            let known = Run::new(2, 7, Periodisation::Tent)
+                .with_bound(2.0 * width)
+                .extend(12 * 64, |_| 1.0, f);
+            assert!(known.converged);
+            assert!((known.value - width).abs() <= known.error, "{known:?}");
+            assert!(known.error >= 2.0 * width);
         }
     }
 

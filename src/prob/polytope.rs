@@ -40,11 +40,13 @@
 //!    settle them, the same lattice run goes on with the whole budget.
 //!    Rows merged as parallel or folded into a group as dependent carry what was dropped
 //!    into the bound (`UnitRow::tilt`).
-//! 6. A lattice round in which no point landed inside says nothing about how small the
-//!    inside is: a zero is not reported with the spread of the shifts (zero) as its error.
-//!    Either duality proves the polytope empty ([`Method::Empty`]), or the error is an
-//!    upper bound on its probability (the smallest slab, or the width that its inradius
-//!    allows, `depth_bound`) and, when that misses the target, the lattice goes on.
+//! 6. Before integrating three or more variables, linear programming duality either proves
+//!    the polytope empty ([`Method::Empty`]) or bounds its probability by how thin it is
+//!    (`depth_bound`; the smallest slab if that is less). A lattice round in which some
+//!    shift met no point inside says little about how small the inside is (all shifts
+//!    missing it report 0 with a spread of 0): until every shift has met it, that bound is
+//!    the error ([`lattice::Run::with_bound`]), and the lattice goes on while it misses the
+//!    target.
 //!
 //! Every factor of the sequential conditioning is a normal interval from
 //! [`normal::interval`], which takes the tail that does not cancel, and the conditioning
@@ -260,10 +262,10 @@ pub enum Method {
     /// variables the last two are exact, so the lattice has two dimensions fewer than the
     /// variables).
     Lattice,
-    /// The lattice rule found no point inside, and linear programming duality proved that
-    /// the constraints contradict each other within [`normal::UNDERFLOW_X`] standard
-    /// deviations: the probability is below every double (see
-    /// [`crate::prob::feasibility`]).
+    /// Linear programming duality proved that the constraints contradict each other
+    /// within [`normal::UNDERFLOW_X`] standard deviations: the probability is below every
+    /// double (see [`crate::prob::feasibility`]). Checked for three or more conditioning
+    /// variables, before any integration.
     Empty,
 }
 
@@ -637,6 +639,13 @@ impl Gaussian {
             let error = e.error + plan.neglect_error();
             return Ok(with_error(e.value, error, Method::Planar, 0, 2));
         }
+        // What the geometry alone says (module notes, step 6): a proof of emptiness
+        // answers at once; otherwise the bound stands in for the lattice's error until
+        // every shift has met the polytope.
+        let known_bound = match depth_bound(&rows, rank) {
+            Depth::Empty => return Ok(with_error(0.0, 0.0, Method::Empty, 0, plan.variables)),
+            Depth::Thin(bound) => bound.min(slab_bound),
+        };
         // Rounding of the sums and of the integrand, relative to the value.
         let floor_rel = tolerance::ROUNDING_REL * (plan.variables as f64 + 1.0);
         // The lattice must leave room for the rounding terms added below.
@@ -644,40 +653,18 @@ impl Gaussian {
             |v: f64| tol.target(v) - rounding(v) - floor_rel * v.abs() - plan.neglect_error();
         let nested_fits = options.exact_paths && plan.nested_fits();
         // One lattice run, resumed if it is asked for more points later.
-        let mut run = plan.lattice_run(options.seed, options.exact_paths);
-        // What the geometry alone bounds, worked out only when a lattice round sees nothing.
-        let mut depth: Option<Depth> = None;
+        let mut run = plan
+            .lattice_run(options.seed, options.exact_paths)
+            .with_bound(known_bound);
         let mut lattice = |budget: usize| {
-            // A round with no point inside stops at once, to be judged below.
-            let stop_on_zero = |v: f64| if v == 0.0 { f64::INFINITY } else { target(v) };
-            let mut outcome =
-                plan.lattice_extend(&mut run, budget, stop_on_zero, options.exact_paths);
-            let answer =
-                |o: lattice::Outcome| (o.value, o.error, o.points, o.converged, Method::Lattice);
-            if outcome.value != 0.0 || outcome.points == 0 {
-                return answer(outcome);
-            }
-            // Not one point inside (module notes, step 6).
-            let bound = match *depth.get_or_insert_with(|| depth_bound(&rows, rank)) {
-                Depth::Empty => return (0.0, 0.0, outcome.points, true, Method::Empty),
-                Depth::Thin(bound) => bound.min(slab_bound),
-            };
-            if bound > target(0.0) {
-                // Refuse a zero until the budget is spent: more points may land inside.
-                let unseen = |v: f64| {
-                    if v == 0.0 {
-                        f64::NEG_INFINITY
-                    } else {
-                        target(v)
-                    }
-                };
-                outcome = plan.lattice_extend(&mut run, budget, unseen, options.exact_paths);
-            }
-            if outcome.value == 0.0 {
-                outcome.error = bound;
-                outcome.converged = bound <= target(0.0);
-            }
-            answer(outcome)
+            let outcome = plan.lattice_extend(&mut run, budget, target, options.exact_paths);
+            (
+                outcome.value,
+                outcome.error,
+                outcome.points,
+                outcome.converged,
+                Method::Lattice,
+            )
         };
         let (value, error, points, converged, method) = if nested_fits {
             // Four variables: the lattice first, on a small budget. It settles most
