@@ -590,16 +590,16 @@ impl Gaussian {
             );
             return Ok(with_error(e.value, e.error, Method::Bivariate, 0, 2));
         }
-        // The polytope lies inside each of its slabs.
+        // The polytope lies inside each of its slabs, so the smallest slab probability
+        // bounds it from above.
         let slab_bound = rows
             .iter()
             .map(|row| normal::interval(row.lower, row.upper))
             .fold(1.0, f64::min);
         if options.exact_paths {
-            // The polytope lies inside each of its slabs, so the smallest slab probability
-            // bounds it from above. When that bound is within the absolute tolerance the
-            // midpoint of [0, bound] answers within it, at no integration cost (most
-            // polytopes of an analysis are such far-tail corners).
+            // When the slab bound is within the absolute tolerance the midpoint of
+            // [0, bound] answers within it, at no integration cost (most polytopes of an
+            // analysis are such far-tail corners).
             let mut bound = slab_bound;
             if bound > tol.abs && bound <= tolerance::PAIR_SCREEN_ABS {
                 // Sharper: the smallest probability of two slabs together.
