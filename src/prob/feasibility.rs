@@ -1,17 +1,19 @@
 //! How deep inside a polytope any point can lie: a verified upper bound on the largest
-//! margin `t` for which some `z` of the box `|z_j| <= radius` satisfies `g_i . z + t <= h_i`
-//! for every half-space `g_i . z <= h_i` (unit normals). A negative bound proves that no
-//! point of the box lies in the polytope; a small positive one bounds its inradius, hence
-//! its width and its probability (see [`crate::prob::polytope`]).
+//! margin `t` for which some `z` satisfies `g_i . z + t <= h_i` for every half-space
+//! `g_i . z <= h_i` (unit normals) and also `|z_j| + t <= radius` for every face of the box
+//! `|z_j| <= radius`; that is, on the inradius of the polytope cut to the box. A negative
+//! bound proves that no point of the box lies in the polytope; a small positive one bounds
+//! the inradius, hence the width and the probability (see [`crate::prob::polytope`]).
 //!
 //! The bound is linear programming duality (Farkas' lemma): for multipliers `lambda >= 0`
-//! on the half-spaces and on the faces of the box, and any `z` of the box,
-//! `min_i (h_i - g_i . z) <= sum_i lambda_i (h_i - g_i . z) / sum_i lambda_i`, and the right
-//! side is at most `(h . lambda + radius |G^T lambda|_1) / sum_i lambda_i`. A small dense
-//! simplex method (two phases, Bland's rule against cycling; Chvátal 1983, *Linear
-//! Programming*, ch. 3 and 8) looks for the multipliers that make this smallest. The bound
-//! is then evaluated afresh from the multipliers with an allowance for rounding, so a
-//! simplex run that stalls or rounds badly can only give a weaker bound, never a false one.
+//! on the half-spaces and on the faces of the box, and any `z` of the box, the smallest
+//! slack `min_i (h_i - g_i . z)` over both is at most their weighted mean
+//! `sum_i lambda_i (h_i - g_i . z) / sum_i lambda_i`, which is at most
+//! `(h . lambda + radius |G^T lambda|_1) / sum_i lambda_i`. A small dense simplex method
+//! (two phases, Bland's rule against cycling; Chvátal 1983, *Linear Programming*, ch. 3
+//! and 8) looks for the multipliers that make this smallest. The bound is then evaluated
+//! afresh from the multipliers with an allowance for rounding, so a simplex run that
+//! stalls or rounds badly can only give a weaker bound, never a false one.
 
 use crate::prob::tolerance;
 
@@ -27,14 +29,16 @@ pub(crate) struct HalfSpace<'a> {
     pub offset: f64,
 }
 
-/// The verified upper bound on the largest margin of a point of the box
-/// `|z_j| <= radius` (in `dim` dimensions) inside all `half_spaces`; `None` when the
-/// inputs are not finite.
+/// The verified upper bound on the largest margin of a point inside all `half_spaces` and
+/// the box `|z_j| <= radius` (in `dim` dimensions), see the module notes; `None` when an
+/// input is not finite, `radius` is not positive or a normal does not have `dim` entries.
 pub(crate) fn margin_bound(half_spaces: &[HalfSpace], dim: usize, radius: f64) -> Option<f64> {
-    if !radius.is_finite()
-        || half_spaces
-            .iter()
-            .any(|s| !s.offset.is_finite() || s.normal.iter().any(|g| !g.is_finite()))
+    if !(radius.is_finite() && radius > 0.0)
+        || half_spaces.iter().any(|s| {
+            !s.offset.is_finite()
+                || s.normal.len() != dim
+                || s.normal.iter().any(|g| !g.is_finite())
+        })
     {
         return None;
     }
@@ -107,8 +111,10 @@ fn verified_bound(
     let terms = (lambda.len() + dim + 2) as f64;
     let rounding = 2.0 * terms * f64::EPSILON * size;
     let bound = (value + radius * spread + rounding) / weight;
-    // The division rounds too.
-    bound + bound.abs() * tolerance::ROUNDING_REL
+    // The sum of the weights and the division round too.
+    let bound = bound + bound.abs() * (terms * f64::EPSILON + tolerance::ROUNDING_REL);
+    // Overflow: the box alone bounds the margin by its half-width.
+    if bound.is_finite() { bound } else { radius }
 }
 
 /// Multipliers `x >= 0` with `a x = b` (`b >= 0`) that minimise `c . x`, by the two-phase
@@ -124,7 +130,7 @@ fn minimise(a: &[Vec<f64>], b: &[f64], c: &[f64]) -> Vec<f64> {
     t.run(&phase_one, q + t.rows);
     let infeasibility: f64 = (0..t.rows)
         .filter(|&i| t.basis[i] >= q)
-        .map(|i| t.rhs(i))
+        .map(|i| t.rhs(i).abs())
         .sum();
     if infeasibility > tolerance::SIMPLEX_FEASIBLE_ABS {
         return vec![0.0; q];
@@ -249,7 +255,8 @@ impl Tableau {
 
     /// After phase 1: every artificial still basic (at level zero) is swapped for a real
     /// column with a usable entry in its row; a row with none is redundant and keeps its
-    /// artificial, which no later pivot can move.
+    /// artificial (later pivots leave it at zero up to rounding, and the multipliers are
+    /// verified afresh in any case).
     fn drive_out_artificials(&mut self, q: usize) {
         for i in 0..self.rows {
             if self.basis[i] < q {
@@ -278,6 +285,33 @@ mod tests {
                 offset: *h,
             })
             .collect()
+    }
+
+    #[test]
+    fn awkward_inputs_give_none_or_a_bound_without_panicking() {
+        // The rule of the engine: no panic on any input.
+        let nan = vec![(vec![f64::NAN, 0.0], 1.0)];
+        assert_eq!(margin_bound(&spaces(&nan), 2, 5.0), None);
+        let inf = vec![(vec![1.0, 0.0], f64::INFINITY)];
+        assert_eq!(margin_bound(&spaces(&inf), 2, 5.0), None);
+        let short = vec![(vec![1.0], 1.0)];
+        assert_eq!(margin_bound(&spaces(&short), 2, 5.0), None);
+        assert_eq!(margin_bound(&[], 2, f64::INFINITY), None);
+        assert_eq!(margin_bound(&[], 2, 0.0), None);
+        // No half-space: the box alone, margin its half-width (by hand).
+        let bound = margin_bound(&[], 3, 5.0).unwrap();
+        assert!((5.0..5.0 + 1e-12).contains(&bound), "{bound}");
+        // Dimension zero: no box, no direction; any finite bound will do.
+        assert!(margin_bound(&[], 0, 5.0).is_some());
+        // A zero normal (0 <= 1 holds everywhere) and duplicated rows.
+        let rows = vec![
+            (vec![0.0, 0.0], 1.0),
+            (vec![1.0, 0.0], 0.5),
+            (vec![1.0, 0.0], 0.5),
+            (vec![-1.0, 0.0], 0.5),
+        ];
+        let bound = margin_bound(&spaces(&rows), 2, 5.0).unwrap();
+        assert!((0.5..0.5 + 1e-12).contains(&bound), "{bound}");
     }
 
     #[test]

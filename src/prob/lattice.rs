@@ -77,7 +77,10 @@ pub enum Periodisation {
 pub struct Outcome {
     /// Mean over the shifts.
     pub value: f64,
-    /// `LATTICE_SPREAD_FACTOR` standard errors of the shift means.
+    /// `LATTICE_SPREAD_FACTOR` standard errors of the shift means once every shift has
+    /// met a nonzero value of the integrand; before that `|value|` plus the run's known
+    /// bound ([`Run::with_bound`]), infinite without one (an integrand that is zero at
+    /// every point evaluated so far, or on the whole cube, never converges then).
     pub error: f64,
     /// Integrand evaluations over all shifts.
     pub points: usize,
@@ -147,10 +150,15 @@ impl Run {
     }
 
     /// The run with `bound >= |integral|` known in advance. It stands in for the error
-    /// while the shifts disagree on where the integrand is nonzero (see
-    /// [`Run::extend`]); without it such a run cannot converge.
+    /// until every shift has met a nonzero value of the integrand (see [`Outcome`]);
+    /// without it such a run cannot converge. A NaN bound counts as none, a negative one
+    /// by its size.
     pub fn with_bound(mut self, bound: f64) -> Self {
-        self.known_bound = bound;
+        self.known_bound = if bound.is_nan() {
+            f64::INFINITY
+        } else {
+            bound.abs()
+        };
         self
     }
 
@@ -261,7 +269,9 @@ fn standard_error(means: &[f64], value: f64) -> f64 {
 /// evaluations (over all shifts) are spent; the same `seed` gives the same bits.
 ///
 /// `f` receives a point of the unit cube (already periodised) and returns the
-/// integrand value. At least one round of `SHIFTS` points is always evaluated.
+/// integrand value. At least one round of `SHIFTS` points is always evaluated. No bound is
+/// known in advance here, so an integrand that some shift has only seen as zero gives an
+/// infinite error (see [`Outcome::error`]); [`Run::with_bound`] supplies one.
 pub fn integrate<F, T>(
     dim: usize,
     seed: u64,

@@ -40,7 +40,8 @@
 //!    settle them, the same lattice run goes on with the whole budget.
 //!    Rows merged as parallel or folded into a group as dependent carry what was dropped
 //!    into the bound (`UnitRow::tilt`).
-//! 6. Before integrating three or more variables, linear programming duality either proves
+//! 6. Before integrating (three or more variables; two on the plain lattice path of
+//!    [`Options::exact_paths`]), linear programming duality either proves
 //!    the polytope empty ([`Method::Empty`]) or bounds its probability by how thin it is
 //!    (`depth_bound`; the smallest slab if that is less). A lattice round in which some
 //!    shift met no point inside says little about how small the inside is (all shifts
@@ -264,8 +265,8 @@ pub enum Method {
     Lattice,
     /// Linear programming duality proved that the constraints contradict each other
     /// within [`normal::UNDERFLOW_X`] standard deviations: the probability is below every
-    /// double (see [`crate::prob::feasibility`]). Checked for three or more conditioning
-    /// variables, before any integration.
+    /// double (see [`crate::prob::feasibility`]). Checked before any integration of three
+    /// or more conditioning variables (two on the plain lattice path).
     Empty,
 }
 
@@ -296,8 +297,9 @@ pub struct Options {
     /// Use the exact and deterministic paths where they apply (one or two directions, two
     /// or three conditioning variables, four when the lattice is slow, the last two
     /// variables exactly); `false` sends
-    /// everything with two or more directions through the plain lattice rule, an
-    /// independent code path for cross-checks.
+    /// everything with two or more directions through the plain lattice rule, a code path
+    /// for cross-checks (it shares the reduction of the rows and the emptiness proof,
+    /// [`Method::Empty`], with the default one).
     pub exact_paths: bool,
     /// Return the last estimate with its honest error instead of
     /// [`ProbError::BudgetExhausted`] when the point budget runs out.
@@ -653,6 +655,8 @@ impl Gaussian {
             |v: f64| tol.target(v) - rounding(v) - floor_rel * v.abs() - plan.neglect_error();
         let nested_fits = options.exact_paths && plan.nested_fits();
         // One lattice run, resumed if it is asked for more points later.
+        // `known_bound` bounds the probability of the rows; the lattice's integrand can
+        // differ from it by the neglect error, which is added to the result below.
         let mut run = plan
             .lattice_run(options.seed, options.exact_paths)
             .with_bound(known_bound);
@@ -811,12 +815,17 @@ impl Gaussian {
             for v in b.iter_mut() {
                 *v /= b_norm;
             }
+            // Each entry of `b` rounds by at most ROUNDING_REL of the sizes that entered
+            // it, so `|error of b| <= ROUNDING_REL * terms` (triangle inequality), twice
+            // that over `b_norm` after normalising.
+            let dir_error = tolerance::ROUNDING_REL * (2.0 * terms / b_norm + 1.0);
             let new = UnitRow {
                 dir: b,
                 lower,
                 upper,
                 slack,
                 tilt: 0.0,
+                dir_error,
             };
             rows_merge(&mut rows, new);
         }
@@ -850,6 +859,7 @@ fn rows_merge(rows: &mut Vec<UnitRow>, new: UnitRow) {
             row.lower = row.lower.max(lower);
             row.upper = row.upper.min(upper);
             row.slack = row.slack.max(new.slack);
+            row.dir_error = row.dir_error.max(new.dir_error) + turn;
             return;
         }
     }
@@ -875,6 +885,10 @@ struct UnitRow {
     /// merged into it, or a residual left out of the sequential conditioning): its ends
     /// then move at random by that much (see [`UnitRow::tilt_error`]).
     tilt: f64,
+    /// Bound on the Euclidean distance of `dir` from the exact direction (rounding, and a
+    /// merged row's dropped direction): within `|z| <= R` the row's value is off by at
+    /// most `dir_error * R`.
+    dir_error: f64,
 }
 
 impl UnitRow {
@@ -1083,6 +1097,7 @@ impl Plan {
                             upper: rows[q].upper,
                             slack: 0.0,
                             tilt: MEAN_ABS_NORMAL * res,
+                            dir_error: res,
                         });
                     }
                     false
@@ -1671,33 +1686,36 @@ enum Depth {
 /// coordinates) from how deep a point can lie inside it: [`feasibility::margin_bound`]
 /// within the box `|z_j| <= UNDERFLOW_X`, outside which the probability is below every
 /// double. A negative margin proves the polytope empty. Otherwise a convex body of
-/// inradius `t` in `n` dimensions is at most `2 t sqrt(n + 1)` wide (Steinhagen 1921,
-/// Abh. Math. Sem. Hamburg 1:15-26: `2 t sqrt(n)` for odd `n`, `2 t (n + 1) / sqrt(n + 2)`
+/// inradius `t` in `n` dimensions is at most `2 t sqrt(n + 1)` wide (Steinhagen 1922,
+/// Abh. Math. Sem. Univ. Hamburg 1:15-26: `2 t sqrt(n)` for odd `n`, `2 t (n + 1) / sqrt(n + 2)`
 /// for even `n`), so it lies in a slab of that width, whose probability is at most the
-/// width times the largest normal density `1 / sqrt(2 pi)`. Row ends move out by their
-/// rounding slack first, so that the proof holds for the exact rows.
+/// width times the largest normal density `1 / sqrt(2 pi)`. Row ends move out first by
+/// their rounding slack and by what the rounding of their directions can change within
+/// the box (`UnitRow::dir_error`), so that the proof holds for the exact rows.
 fn depth_bound(rows: &[UnitRow], rank: usize) -> Depth {
     let negated: Vec<Vec<f64>> = rows
         .iter()
         .map(|row| row.dir.iter().map(|v| -v).collect())
         .collect();
+    let radius = normal::UNDERFLOW_X;
+    let n = rank as f64;
     let mut spaces = Vec::with_capacity(2 * rows.len());
     for (row, minus) in rows.iter().zip(&negated) {
+        // Within the box, |z| <= radius sqrt(n).
+        let give = row.slack + row.dir_error * radius * n.sqrt();
         if row.upper.is_finite() {
             spaces.push(HalfSpace {
                 normal: &row.dir,
-                offset: row.upper + row.slack,
+                offset: row.upper + give,
             });
         }
         if row.lower.is_finite() {
             spaces.push(HalfSpace {
                 normal: minus,
-                offset: -row.lower + row.slack,
+                offset: -row.lower + give,
             });
         }
     }
-    let radius = normal::UNDERFLOW_X;
-    let n = rank as f64;
     let outside = (2.0 * n * normal::sf(radius)).min(1.0);
     match feasibility::margin_bound(&spaces, rank, radius) {
         Some(margin) if margin < 0.0 => Depth::Empty,

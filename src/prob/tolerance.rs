@@ -139,7 +139,8 @@ pub const SHIFT_SHORT_PIECE: f64 = 0.5;
 pub const SHIFT_TERM_REL: f64 = 256.0 * f64::EPSILON;
 
 /// Phase 1 of the simplex search in [`crate::prob::feasibility`] counts as feasible when
-/// the artificial variables sum to at most this (the equations are scaled to unit rows).
+/// the artificial variables sum to at most this (the equations have unit normals for
+/// coefficients and a right side of 0, or all ones and a right side of 1).
 pub const SIMPLEX_FEASIBLE_ABS: f64 = 1e-9;
 
 /// A reduced cost of the simplex search counts as negative below this times the largest
