@@ -26,6 +26,14 @@ fn gaussian(mean: &[f64], cov: &[f64]) -> Gaussian {
     Gaussian::new(mean, &DMatrix::from_row_slice(n, n, cov)).unwrap()
 }
 
+/// `n` standard normals of mean 0 with every correlation `rho`.
+fn equicorrelated(n: usize, rho: f64) -> Gaussian {
+    let cov: Vec<f64> = (0..n * n)
+        .map(|k| if k / n == k % n { 1.0 } else { rho })
+        .collect();
+    gaussian(&vec![0.0; n], &cov)
+}
+
 fn unit(n: usize, i: usize) -> Vec<f64> {
     let mut v = vec![0.0; n];
     v[i] = 1.0;
@@ -166,10 +174,7 @@ fn equicorrelated_one_half_orthant_is_one_over_n_plus_one() {
     // P(all X_i > 0) = P(E_0 is the largest of n + 1 iid values) = 1 / (n + 1)
     // (exchangeability; also known from memory as the equicorrelated orthant value).
     for n in 2..=8 {
-        let cov: Vec<f64> = (0..n * n)
-            .map(|k| if k / n == k % n { 1.0 } else { 0.5 })
-            .collect();
-        let g = gaussian(&vec![0.0; n], &cov);
+        let g = equicorrelated(n, 0.5);
         let mut p = Polytope::new();
         for i in 0..n {
             p.push(unit(n, i), Band::above(0.0));
@@ -1428,10 +1433,7 @@ fn contradictory_rows_are_proven_empty() {
     // lattice can meet at zero: the proof (linear programming duality) answers before any
     // integration instead of after the whole budget.
     for n in 4..=6 {
-        let cov: Vec<f64> = (0..n * n)
-            .map(|k| if k / n == k % n { 1.0 } else { 0.3 })
-            .collect();
-        let g = gaussian(&vec![0.0; n], &cov);
+        let g = equicorrelated(n, 0.3);
         let mut p = Polytope::new();
         for i in 0..n {
             p.push(unit(n, i), Band::closed(0.0, 1.0));
