@@ -45,6 +45,16 @@ impl CellSet {
     /// # Errors
     /// [`AnalysisError::TooLarge`] when the product has more than [`MAX_CELLS`] cells.
     pub fn from_model(model: &CompiledModel) -> Result<Self, AnalysisError> {
+        if !model.pieces_complete {
+            return Err(AnalysisError::TooLarge {
+                what: "the linear pieces of the output, a check or a signal (order statistics \
+                       of more than seven arguments cannot be multiplied out)"
+                    .into(),
+                unit: "pieces",
+                limit: crate::model::limits::MAX_PIECES,
+                found: crate::model::limits::MAX_PIECES + 1,
+            });
+        }
         let mut cells: Vec<Cell> = model
             .output
             .pieces

@@ -62,6 +62,12 @@ pub enum AnalysisError {
         /// Which figure.
         figure: String,
     },
+    /// Neither the order-statistic engine nor the polytope engine can take the model.
+    #[error("{message}")]
+    Unsupported {
+        /// Why each engine declines, and what to change.
+        message: String,
+    },
     /// The reference data compiled into the binary for `concord selftest` do not parse.
     #[error(
         "the selftest reference data built into concord cannot be read ({0}); \

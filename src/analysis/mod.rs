@@ -19,11 +19,13 @@
 
 pub mod cells;
 pub mod compare;
+pub mod engine;
 pub mod error;
 pub mod evaluate;
 pub mod metrics;
 pub mod montecarlo;
 pub mod options;
+pub mod ordered;
 pub mod outcome;
 pub mod run;
 pub mod scenario;

@@ -224,13 +224,23 @@ impl<'a> Sampler<'a> {
     /// Which of the four outcomes a sampled point falls in.
     fn classify(&self, x: &[f64]) -> usize {
         let m = self.model;
-        let y = m.output.eval(x);
+        // The pieces when they were built (the same linear forms the exact engine reads),
+        // else the formulas as the file defines them.
+        let y = if m.pieces_complete {
+            m.output.eval(x)
+        } else {
+            m.output_formula.eval(x)
+        };
         let violated = y < m.safety_lower || y > m.safety_upper;
         let fired = m
             .checks
             .iter()
             .filter(|c| {
-                let v = c.function.eval(x);
+                let v = if m.pieces_complete {
+                    c.function.eval(x)
+                } else {
+                    c.formula.eval(x)
+                };
                 v < c.lower || v > c.upper
             })
             .count();
@@ -402,6 +412,7 @@ pub fn analyze_montecarlo(
             curve: None,
             latent_coverage: fault.latent_coverage,
             warnings: Vec::new(),
+            method: crate::analysis::engine::FigureMethod::MonteCarlo,
         });
     }
     Ok(Analysis {
@@ -409,6 +420,7 @@ pub fn analyze_montecarlo(
         metrics: metrics(&sites),
         sites,
         cells: 0,
+        baseline_method: crate::analysis::engine::FigureMethod::MonteCarlo,
         warnings: vec![
             "figures by Monte Carlo sampling: each error is the half-width of a 99.9 % interval"
                 .into(),

@@ -32,6 +32,9 @@ pub struct AnalysisOptions {
     pub sigma_max_evaluations: usize,
     /// Upper limit on disjoint polytopes per evaluation of one scenario.
     pub max_polytopes: usize,
+    /// Which engine computes the figures (automatic by default: see
+    /// [`super::engine::EngineChoice`]).
+    pub engine: super::engine::EngineChoice,
 }
 
 impl Default for AnalysisOptions {
@@ -48,6 +51,7 @@ impl Default for AnalysisOptions {
             sigma_rel_tol: 1e-5,
             sigma_max_evaluations: 80,
             max_polytopes: 20_000,
+            engine: super::engine::EngineChoice::Automatic,
         }
     }
 }

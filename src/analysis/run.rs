@@ -6,11 +6,11 @@ use crate::model::CompiledModel;
 
 use super::cells::CellSet;
 use super::error::AnalysisError;
+use super::engine::{Engine, FigureMethod, Scenario};
 use super::evaluate::Evaluator;
 use super::metrics::{Metrics, metrics};
 use super::options::AnalysisOptions;
 use super::outcome::Outcome;
-use super::scenario::baseline;
 use super::site::{SiteResult, analyze_site};
 
 /// The result of analysing one architecture.
@@ -23,8 +23,11 @@ pub struct Analysis {
     pub sites: Vec<SiteResult>,
     /// Hardware metrics rolled up from the sites.
     pub metrics: Metrics,
-    /// Number of linear cells the output and checks split into.
+    /// Number of linear cells the output and checks split into (0 when no figure needed
+    /// the polytope engine).
     pub cells: usize,
+    /// The method that computed the fault-free figures.
+    pub baseline_method: FigureMethod,
     /// Warnings for the analyst, from every site.
     pub warnings: Vec<String>,
     /// The settings used.
@@ -63,16 +66,14 @@ pub fn analyze(
     options: &AnalysisOptions,
     want_curves: bool,
 ) -> Result<Analysis, AnalysisError> {
-    let prepared = Prepared::new(model, options)?;
-    let base = baseline(model)?;
-    let baseline_outcome = prepared
-        .evaluator
-        .outcome(&base)
+    let engine = Engine::new(model, options);
+    let (baseline_outcome, baseline_method) = engine
+        .outcome(Scenario::Baseline)
         .map_err(|e| prefix(e, "fault-free baseline"))?;
     let sites: Vec<SiteResult> = model
         .faults
         .par_iter()
-        .map(|fault| analyze_site(model, &prepared.evaluator, fault, options, want_curves))
+        .map(|fault| analyze_site(&engine, fault, options, want_curves))
         .collect::<Result<_, _>>()?;
     finite(&baseline_outcome, "fault-free baseline")?;
     for site in &sites {
@@ -98,7 +99,8 @@ pub fn analyze(
         baseline: baseline_outcome,
         metrics: metrics(&sites),
         sites,
-        cells: prepared.cells.cells.len(),
+        cells: engine.cells().unwrap_or(0),
+        baseline_method,
         warnings,
         options: *options,
     })

@@ -13,6 +13,7 @@ use crate::model::{CompiledFault, CompiledModel, FaultMode};
 use crate::prob::polytope::Gaussian;
 
 use super::error::AnalysisError;
+use super::ordered::{SharedFault, SharedTerms};
 
 /// The fault-free gaussian of a model.
 ///
@@ -34,6 +35,10 @@ pub struct FaultScenario {
     pub direction: Vec<f64>,
     /// The random part, factored once.
     pub base: Gaussian,
+    /// The same as channels independent given a few shared terms, with the amplitude's
+    /// direction, when the model's covariance can be written so (for the order-statistic
+    /// engine, see `analysis::ordered`).
+    pub shared: Option<SharedFault>,
 }
 
 impl FaultScenario {
@@ -67,11 +72,15 @@ impl FaultScenario {
         };
         let base = Gaussian::new(&base_mean, &base_cov)
             .map_err(|e| AnalysisError::engine(format!("fault site '{}'", fault.name), e))?;
+        let shared = SharedTerms::baseline(model)
+            .ok()
+            .map(|t| t.for_fault(fault));
         Ok(Self {
             base_mean,
             base_cov,
             direction,
             base,
+            shared,
         })
     }
 

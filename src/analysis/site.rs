@@ -2,7 +2,7 @@
 //! sites" and the worst case over an unknown spread (its range: the same file, "The default
 //! range of an unknown sigma"; its search: DEVELOPERS.md "How a figure is computed", step 3).
 
-use crate::model::{Amplitude, CompiledFault, CompiledModel, FaultMode};
+use crate::model::{Amplitude, CompiledFault, FaultMode};
 use crate::prob::Estimate;
 use crate::prob::optimise::{Stage, log_grid, scan_then_refine_staged};
 use crate::prob::polytope::Polytope;
@@ -10,6 +10,7 @@ use crate::prob::quadrature::integrate_best_effort;
 use crate::prob::shift_average::mean_over_uniform_shift;
 
 use super::error::AnalysisError;
+use super::engine::{Engine, FigureMethod, Scenario};
 use super::evaluate::{Evaluator, quiet_by_complement};
 use super::options::AnalysisOptions;
 use super::outcome::{Figure, Outcome};
@@ -71,6 +72,8 @@ pub struct SiteResult {
     pub latent_coverage: f64,
     /// Warnings for the analyst.
     pub warnings: Vec<String>,
+    /// The method that computed the figures.
+    pub method: FigureMethod,
 }
 
 impl SiteResult {
@@ -112,12 +115,12 @@ pub fn describe_amplitude(amplitude: &Amplitude) -> String {
 /// # Errors
 /// Engine failures, with the site named.
 pub fn analyze_site(
-    model: &CompiledModel,
-    evaluator: &Evaluator,
+    engine: &Engine<'_>,
     fault: &CompiledFault,
     options: &AnalysisOptions,
     want_curve: bool,
 ) -> Result<SiteResult, AnalysisError> {
+    let model = engine.model();
     let scenario = FaultScenario::new(model, fault)?;
     let named = |e: AnalysisError| match e {
         AnalysisError::Engine { context, source } => AnalysisError::Engine {
@@ -129,16 +132,36 @@ pub fn analyze_site(
     let mut warnings = Vec::new();
     let mut worst = None;
     let mut curve = None;
+    let ordered = engine.site_is_ordered(&scenario);
+    let mut method = if ordered {
+        FigureMethod::OrderStatistics
+    } else {
+        FigureMethod::Polytopes
+    };
     let outcome = match &fault.amplitude {
-        Amplitude::Gaussian { mean, sigma } => evaluator
-            .outcome(
-                &scenario
-                    .with_gaussian_amplitude(*mean, *sigma)
-                    .map_err(named)?,
-            )
-            .map_err(named)?,
-        Amplitude::Points(points) => points_outcome(evaluator, &scenario, points).map_err(named)?,
+        Amplitude::Gaussian { mean, sigma } => {
+            let (o, m) = engine
+                .outcome(Scenario::Gaussian(&scenario, *mean, *sigma))
+                .map_err(named)?;
+            method = m;
+            o
+        }
+        Amplitude::Points(points) => points_outcome(engine, &scenario, points).map_err(named)?,
+        Amplitude::Uniform { lower, upper }
+            if ordered
+                && engine.method(Scenario::Uniform(&scenario, *lower, *upper))
+                    == FigureMethod::OrderStatistics =>
+        {
+            engine
+                .outcome(Scenario::Uniform(&scenario, *lower, *upper))
+                .map_err(named)?
+                .0
+        }
+        Amplitude::Uniform { lower, upper } if ordered => {
+            uniform_outcome_ordered(engine, &scenario, *lower, *upper, options).map_err(named)?
+        }
         Amplitude::Uniform { lower, upper } => {
+            let evaluator = engine.evaluator().map_err(named)?;
             uniform_outcome(evaluator, &scenario, *lower, *upper, options).map_err(named)?
         }
         Amplitude::GaussianUnknownSigma {
@@ -148,7 +171,7 @@ pub fn analyze_site(
             defaulted,
         } => {
             let (found, outcome, points) = worst_case(
-                evaluator,
+                engine,
                 &scenario,
                 *mean,
                 (*sigma_lo, *sigma_hi),
@@ -198,17 +221,19 @@ pub fn analyze_site(
         curve,
         latent_coverage: fault.latent_coverage,
         warnings,
+        method,
     })
 }
 
 fn points_outcome(
-    evaluator: &Evaluator,
+    engine: &Engine<'_>,
     scenario: &FaultScenario,
     points: &[(f64, f64)],
 ) -> Result<Outcome, AnalysisError> {
     let mut parts = Vec::with_capacity(points.len());
     for (value, weight) in points {
-        parts.push((evaluator.outcome(&scenario.at_amplitude(*value)?)?, *weight));
+        let (outcome, _) = engine.outcome(Scenario::At(scenario, *value))?;
+        parts.push((outcome, *weight));
     }
     Ok(Outcome::from_fn(|f| {
         parts
@@ -460,6 +485,92 @@ fn uniform_outcome(
     })
 }
 
+/// The figures for a uniform amplitude on `[lower, upper]` when every amplitude goes to the
+/// order-statistic engine: the four figures integrated together over the amplitude by
+/// adaptive Gauss–Kronrod (`prob::vector_quadrature`), with breakpoints where a moved
+/// channel's mean meets a safety end or another channel's mean, each shifted by a check
+/// band, and a few noise widths either side.
+fn uniform_outcome_ordered(
+    engine: &Engine<'_>,
+    scenario: &FaultScenario,
+    lower: f64,
+    upper: f64,
+    options: &AnalysisOptions,
+) -> Result<Outcome, AnalysisError> {
+    if upper <= lower {
+        return Ok(engine.outcome(Scenario::At(scenario, lower))?.0);
+    }
+    let width = upper - lower;
+    let model = engine.model();
+    let sd = model
+        .total_sigmas()
+        .into_iter()
+        .fold(0.0, f64::max)
+        .max(f64::MIN_POSITIVE);
+    let bands: Vec<f64> = model
+        .checks
+        .iter()
+        .flat_map(|c| [c.lower, c.upper])
+        .chain([0.0])
+        .collect();
+    // A moved channel at a safety end, or a check band away from it (the band's end then
+    // switches between the safety end and the other channel: a kink).
+    let mut levels = Vec::new();
+    for t in [model.safety_lower, model.safety_upper] {
+        for b in &bands {
+            levels.push(t + b);
+            levels.push(t - b);
+        }
+    }
+    for m in &scenario.base_mean {
+        for b in &bands {
+            levels.push(m + b);
+            levels.push(m - b);
+        }
+    }
+    let mut points = Vec::new();
+    for (i, d) in scenario.direction.iter().enumerate() {
+        if *d == 0.0 {
+            continue;
+        }
+        let own = scenario.base_mean.get(i).copied().unwrap_or(0.0);
+        for level in &levels {
+            if level.is_finite() {
+                push_steps(&mut points, (level - own) / d, sd / d.abs());
+            }
+        }
+    }
+    points.retain(|p| p.is_finite() && *p > lower && *p < upper);
+    points.sort_by(f64::total_cmp);
+    points.dedup();
+    let tol = crate::prob::vector_quadrature::VectorTolerance {
+        abs: options.amplitude_abs * width,
+        rel: [options.amplitude_rel; 4],
+        max_intervals: options.amplitude_max_intervals + points.len(),
+    };
+    let r = crate::prob::vector_quadrature::integrate(
+        |amplitude| {
+            let (o, _) = engine
+                .outcome(Scenario::At(scenario, amplitude))
+                .map_err(engine_of)?;
+            let f = [o.p_vd, o.p_vu, o.p_sd, o.p_sq];
+            Ok((f.map(|e| e.value), f.map(|e| e.error)))
+        },
+        lower,
+        upper,
+        &points,
+        &tol,
+    )
+    .map_err(|e| AnalysisError::engine("integral of the figures over the amplitude", e))?;
+    let figure = |i: usize| Estimate::new(r.value[i] / width, r.error[i] / width).clamp_probability();
+    Ok(Outcome {
+        p_vd: figure(0),
+        p_vu: figure(1),
+        p_sd: figure(2),
+        p_sq: figure(3),
+    })
+}
+
 /// The quadrature takes engine errors only; analysis errors are carried through as their
 /// engine cause or as an invalid argument with the message.
 fn engine_of(e: AnalysisError) -> crate::prob::ProbError {
@@ -472,7 +583,7 @@ fn engine_of(e: AnalysisError) -> crate::prob::ProbError {
 type WorstFound = (WorstCase, Outcome, Option<Vec<CurvePoint>>);
 
 fn worst_case(
-    evaluator: &Evaluator,
+    engine: &Engine<'_>,
     scenario: &FaultScenario,
     mean: f64,
     range: (f64, f64),
@@ -484,12 +595,12 @@ fn worst_case(
         .map_err(|e| AnalysisError::engine("grid over the fault sigma", e))?;
     // The scan only ranks grid points: it runs at the looser scan tolerance; the Brent
     // refinement and every reported figure use the full one.
-    let scan_tolerance = options.scan_tolerance();
+    let scan_rel = options.scan_tolerance().rel;
     let residual_at = |sigma: f64, stage: Stage| -> Result<Estimate, AnalysisError> {
-        let g = scenario.with_gaussian_amplitude(mean, sigma)?;
+        let at = Scenario::Gaussian(scenario, mean, sigma);
         match stage {
-            Stage::Scan => evaluator.figure_with(&g, Figure::ViolatedUndetected, &scan_tolerance),
-            Stage::Refine => evaluator.figure(&g, Figure::ViolatedUndetected),
+            Stage::Scan => engine.residual(at, scan_rel),
+            Stage::Refine => engine.residual(at, options.polytope_rel),
         }
     };
     let mut scan_values = Vec::with_capacity(grid.len());
@@ -523,7 +634,7 @@ fn worst_case(
         .collect();
     let sigma = local_maxima.first().map_or(lo, |m| m.sigma);
     let at = |s: f64| -> Result<Outcome, AnalysisError> {
-        evaluator.outcome(&scenario.with_gaussian_amplitude(mean, s)?)
+        Ok(engine.outcome(Scenario::Gaussian(scenario, mean, s))?.0)
     };
     let centre = at(sigma)?;
     // The location of the maximum is known to sigma_rel_tol: the figures may move by as much

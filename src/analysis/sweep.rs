@@ -20,7 +20,8 @@ use super::error::AnalysisError;
 use super::metrics::Asil;
 use super::options::AnalysisOptions;
 use super::outcome::Outcome;
-use super::run::{Analysis, Prepared, analyze};
+use super::engine::{Engine, Scenario};
+use super::run::{Analysis, analyze};
 use super::scenario::FaultScenario;
 use super::site::{SiteResult, analyze_site};
 
@@ -507,14 +508,16 @@ pub fn spread_curve(
             format!("{s} is not a positive finite sigma; give a range of positive values"),
         ));
     }
-    let prepared = Prepared::new(model, options)?;
+    let engine = Engine::new(model, options);
     let fault = &model.faults[index];
     let scenario = FaultScenario::new(model, fault)?;
     let points: Vec<SpreadPoint> = sigmas
         .par_iter()
         .map(|&sigma| {
-            let gaussian = scenario.with_gaussian_amplitude(mean, sigma)?;
-            let outcome = prepared.evaluator.outcome(&gaussian).map_err(|e| match e {
+            let outcome = engine
+                .outcome(Scenario::Gaussian(&scenario, mean, sigma))
+                .map(|(o, _)| o)
+                .map_err(|e| match e {
                 AnalysisError::Engine { context, source } => AnalysisError::Engine {
                     context: format!("fault site '{site}' at sigma {sigma}, {context}"),
                     source,
@@ -535,8 +538,7 @@ pub fn spread_curve(
             defaulted: false,
         };
         Some(analyze_site(
-            model,
-            &prepared.evaluator,
+            &engine,
             &searched,
             options,
             false,

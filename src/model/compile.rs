@@ -10,7 +10,6 @@ use nalgebra::DMatrix;
 
 use super::compiled::*;
 use super::error::Sink;
-use super::limits;
 use super::pieces::{Builder, OrderKind, PieceError, Pw};
 use super::resolved::*;
 use super::text::linear_formula;
@@ -52,45 +51,56 @@ pub(crate) fn compile(v: &Resolved, order: &[usize], sink: &mut Sink<'_>) -> Opt
         }
     }
 
-    let mut b = Builder::new(n);
-    let channel_pw: Vec<Pw> = (0..n)
-        .map(|i| b.linear(LinearForm::coordinate(n, i)))
-        .collect();
-    let mut signal_pw: Vec<Option<Pw>> = vec![None; v.signals.len()];
-    let names = Names { v };
+    // The formulas as written (always), then the linear pieces when they stay within the
+    // limits; beyond them only the order-statistic and Monte Carlo engines can run.
+    let mut signal_formula: Vec<Option<Formula>> = vec![None; v.signals.len()];
     for &i in order {
-        let sig = &v.signals[i];
-        let built = build(&mut b, &sig.def, &channel_pw, &signal_pw, None);
-        signal_pw[i] = Some(report(built, sink, &sig.loc, "the signal")?);
+        let f = formula(&v.signals[i].def, &signal_formula, None);
+        signal_formula[i] = Some(f);
     }
-    let output_pw = report(
-        build(&mut b, &v.output.def, &channel_pw, &signal_pw, None),
-        sink,
-        &v.output.loc,
-        "the output",
-    )?;
+    let output_formula = formula(&v.output.def, &signal_formula, None);
+    let check_formulas: Vec<Formula> = v
+        .checks
+        .iter()
+        .map(|c| formula(&c.def, &signal_formula, Some(&output_formula)))
+        .collect();
+
+    let mut b = Builder::new(n);
+    let built = all_pieces(&mut b, v, order, n);
+    let pieces_complete = built.is_ok();
+    let empty = || PiecewiseLinear { pieces: Vec::new() };
+    let (signal_pieces, output, check_pieces) = match built {
+        Ok(p) => p,
+        Err(_) => (
+            vec![empty(); v.signals.len()],
+            empty(),
+            vec![empty(); v.checks.len()],
+        ),
+    };
+    let names = Names { v };
     let mut checks = Vec::new();
-    for c in &v.checks {
-        let built = build(&mut b, &c.def, &channel_pw, &signal_pw, Some(&output_pw));
-        let pw = report(built, sink, &c.loc, "the check")?;
+    for ((c, function), formula) in v.checks.iter().zip(check_pieces).zip(check_formulas) {
         checks.push(CompiledCheck {
             name: c.name.clone(),
-            function: b.export(&pw),
+            function,
             lower: c.lower,
             upper: c.upper,
             description: names.describe(&c.def),
+            formula,
         });
     }
-    let output = b.export(&output_pw);
-    warn_truth_gain(&output, 1.0, sink, &v.output.loc, "the output", "1");
-    for (c, vc) in checks.iter().zip(&v.checks) {
-        warn_truth_gain(&c.function, 0.0, sink, &vc.loc, "the check", "0");
+    if pieces_complete {
+        warn_truth_gain(&output, 1.0, sink, &v.output.loc, "the output", "1");
+        for (c, vc) in checks.iter().zip(&v.checks) {
+            warn_truth_gain(&c.function, 0.0, sink, &vc.loc, "the check", "0");
+        }
     }
-    let mut signals = Vec::new();
-    for (i, sig) in v.signals.iter().enumerate() {
-        let pw = signal_pw[i].as_ref()?;
-        signals.push((sig.name.clone(), b.export(pw)));
-    }
+    let signals: Vec<(String, PiecewiseLinear)> = v
+        .signals
+        .iter()
+        .zip(signal_pieces)
+        .map(|(sig, pw)| (sig.name.clone(), pw))
+        .collect();
     let faults = v.faults.iter().map(|f| fault(f, &gains, n, sink)).collect();
     Some(CompiledModel {
         name: v.name.clone(),
@@ -110,6 +120,8 @@ pub(crate) fn compile(v: &Resolved, order: &[usize], sink: &mut Sink<'_>) -> Opt
         signals,
         output_description: names.describe(&v.output.def),
         output,
+        output_formula,
+        pieces_complete,
         checks,
         detection: match v.detection {
             VDetection::Any => Detection::Any,
@@ -121,36 +133,101 @@ pub(crate) fn compile(v: &Resolved, order: &[usize], sink: &mut Sink<'_>) -> Opt
     })
 }
 
-fn report(r: Result<Pw, PieceError>, sink: &mut Sink<'_>, loc: &Loc, what: &str) -> Option<Pw> {
-    match r {
-        Ok(p) => Some(p),
-        Err(PieceError::TooManyPieces) => {
-            sink.error(
-                loc.span,
-                &loc.key,
-                format!(
-                    "{what} has more than {} linear pieces (the limit) once its order \
-                     statistics are multiplied out",
-                    limits::MAX_PIECES
-                ),
-                "use fewer arguments in medians, minima, maxima and spreads, or fewer nested \
-                 order statistics",
-            );
-            None
+/// The linear pieces of every signal, the output and every check, or the first limit
+/// that building them passes.
+#[allow(clippy::type_complexity)]
+fn all_pieces(
+    b: &mut Builder,
+    v: &Resolved,
+    order: &[usize],
+    n: usize,
+) -> Result<(Vec<PiecewiseLinear>, PiecewiseLinear, Vec<PiecewiseLinear>), PieceError> {
+    let channel_pw: Vec<Pw> = (0..n)
+        .map(|i| b.linear(LinearForm::coordinate(n, i)))
+        .collect();
+    let mut signal_pw: Vec<Option<Pw>> = vec![None; v.signals.len()];
+    for &i in order {
+        let built = build(b, &v.signals[i].def, &channel_pw, &signal_pw, None)?;
+        signal_pw[i] = Some(built);
+    }
+    let output_pw = build(b, &v.output.def, &channel_pw, &signal_pw, None)?;
+    let mut checks = Vec::new();
+    for c in &v.checks {
+        let pw = build(b, &c.def, &channel_pw, &signal_pw, Some(&output_pw))?;
+        checks.push(b.export(&pw));
+    }
+    let signals = signal_pw
+        .iter()
+        .map(|p| match p {
+            Some(p) => b.export(p),
+            None => PiecewiseLinear { pieces: Vec::new() },
+        })
+        .collect();
+    Ok((signals, b.export(&output_pw), checks))
+}
+
+/// A function as a [`Formula`], with derived signals (and the output, for a check) written
+/// out in place.
+fn formula(def: &FnDef, signals: &[Option<Formula>], output: Option<&Formula>) -> Formula {
+    let reading = |r: &Reading| -> Formula {
+        match r {
+            Reading::Channel(i) => Formula::Channel(*i),
+            Reading::Signal(i) => signals
+                .get(*i)
+                .cloned()
+                .flatten()
+                .unwrap_or(Formula::Sum {
+                    terms: Vec::new(),
+                    constant: f64::NAN,
+                }),
         }
-        Err(PieceError::TooManyPairs) => {
-            sink.error(
-                loc.span,
-                &loc.key,
-                format!(
-                    "{what} combines piecewise functions with more than {} pairs of pieces \
-                     to examine (the limit)",
-                    limits::MAX_PRODUCT_PAIRS
-                ),
-                "combine fewer order statistics in one function",
-            );
-            None
+    };
+    let sorted = |rs: &[Reading]| {
+        let mut r = rs.to_vec();
+        r.sort();
+        r.iter().map(reading).collect::<Vec<_>>()
+    };
+    match def {
+        FnDef::Linear {
+            terms, constant, ..
+        } => Formula::Sum {
+            terms: terms.iter().map(|(r, w)| (*w, reading(r))).collect(),
+            constant: *constant,
+        },
+        FnDef::Mean(rs) => {
+            let w = 1.0 / rs.len().max(1) as f64;
+            Formula::Sum {
+                terms: rs.iter().map(|r| (w, reading(r))).collect(),
+                constant: 0.0,
+            }
         }
+        FnDef::Select(r) => reading(r),
+        FnDef::Order(stat, rs) => Formula::Order {
+            stat: match stat {
+                Stat::Median => OrderStat::Median,
+                Stat::Min => OrderStat::Min,
+                Stat::Max => OrderStat::Max,
+            },
+            args: sorted(rs),
+        },
+        FnDef::Spread(rs) => Formula::Range(sorted(rs)),
+        FnDef::Difference(a, c) => Formula::Sum {
+            terms: vec![(1.0, reading(a)), (-1.0, reading(c))],
+            constant: 0.0,
+        },
+        FnDef::FromOutput(r) => Formula::Sum {
+            terms: vec![
+                (1.0, reading(r)),
+                (
+                    -1.0,
+                    output.cloned().unwrap_or(Formula::Sum {
+                        terms: Vec::new(),
+                        constant: f64::NAN,
+                    }),
+                ),
+            ],
+            constant: 0.0,
+        },
     }
 }
 

@@ -126,6 +126,107 @@ impl PiecewiseLinear {
     }
 }
 
+/// Which order statistic a [`Formula::Order`] takes.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum OrderStat {
+    /// The middle value; of an even count, the mean of the two middle values.
+    Median,
+    Min,
+    Max,
+}
+
+/// A function of the channel deviations as the file defines it, before it is split into
+/// linear pieces: derived signals and the output are written out in place. The
+/// order-statistic engine reads its structure, and the Monte Carlo engine evaluates it
+/// directly when the pieces are too many to build.
+#[derive(Debug, Clone, PartialEq)]
+pub enum Formula {
+    /// One channel, `x[i]`.
+    Channel(usize),
+    /// `sum(weight * term) + constant`.
+    Sum {
+        terms: Vec<(f64, Formula)>,
+        constant: f64,
+    },
+    /// An order statistic of the arguments.
+    Order { stat: OrderStat, args: Vec<Formula> },
+    /// `max - min` of the arguments.
+    Range(Vec<Formula>),
+}
+
+impl Formula {
+    /// The value at `x` (NaN for a channel index outside `x`).
+    pub fn eval(&self, x: &[f64]) -> f64 {
+        match self {
+            Formula::Channel(i) => x.get(*i).copied().unwrap_or(f64::NAN),
+            Formula::Sum { terms, constant } => {
+                let mut s = 0.0;
+                for (w, t) in terms {
+                    s += w * t.eval(x);
+                }
+                s + constant
+            }
+            Formula::Order { stat, args } => {
+                let mut v: Vec<f64> = args.iter().map(|a| a.eval(x)).collect();
+                v.sort_by(f64::total_cmp);
+                match (stat, v.len()) {
+                    (_, 0) => f64::NAN,
+                    (OrderStat::Min, _) => v[0],
+                    (OrderStat::Max, n) => v[n - 1],
+                    (OrderStat::Median, n) if n % 2 == 1 => v[n / 2],
+                    (OrderStat::Median, n) => 0.5 * (v[n / 2 - 1] + v[n / 2]),
+                }
+            }
+            Formula::Range(args) => {
+                let v: Vec<f64> = args.iter().map(|a| a.eval(x)).collect();
+                let max = v.iter().copied().fold(f64::NEG_INFINITY, f64::max);
+                let min = v.iter().copied().fold(f64::INFINITY, f64::min);
+                max - min
+            }
+        }
+    }
+
+    /// The channel indices of the arguments when every argument is a bare channel (or a
+    /// sum that is exactly one channel).
+    pub fn bare_channels(args: &[Formula]) -> Option<Vec<usize>> {
+        args.iter().map(Formula::as_channel).collect()
+    }
+
+    /// The channel this formula is, when it is one channel with gain 1 and no constant.
+    pub fn as_channel(&self) -> Option<usize> {
+        match self {
+            Formula::Channel(i) => Some(*i),
+            Formula::Sum { terms, constant } if *constant == 0.0 && terms.len() == 1 => {
+                let (w, t) = &terms[0];
+                if *w == 1.0 { t.as_channel() } else { None }
+            }
+            Formula::Order { args, .. } if args.len() == 1 => args[0].as_channel(),
+            _ => None,
+        }
+    }
+
+    /// The formula as one linear form over `n` channels, when it is linear.
+    pub fn linear(&self, n: usize) -> Option<LinearForm> {
+        match self {
+            Formula::Channel(i) => (*i < n).then(|| LinearForm::coordinate(n, *i)),
+            Formula::Sum { terms, constant } => {
+                let mut f = LinearForm::zero(n);
+                f.constant = *constant;
+                for (w, t) in terms {
+                    let inner = t.linear(n)?;
+                    for (c, ic) in f.coeffs.iter_mut().zip(&inner.coeffs) {
+                        *c += w * ic;
+                    }
+                    f.constant += w * inner.constant;
+                }
+                Some(f)
+            }
+            Formula::Order { args, .. } if args.len() == 1 => args[0].linear(n),
+            _ => None,
+        }
+    }
+}
+
 /// A check: fires when `function(x) < lower` or `> upper`.
 #[derive(Debug, Clone, PartialEq)]
 pub struct CompiledCheck {
@@ -135,6 +236,8 @@ pub struct CompiledCheck {
     pub upper: f64,
     /// The check value as a formula, e.g. `a - b` or `max(a, b, c) - min(a, b, c)`.
     pub description: String,
+    /// The check value as the file defines it.
+    pub formula: Formula,
 }
 
 /// When the diagnostics count as detecting.
@@ -219,6 +322,13 @@ pub struct CompiledModel {
     /// Formula of each derived signal, in the order of `signals`.
     pub signal_descriptions: Vec<String>,
     pub output: PiecewiseLinear,
+    /// The output as the file defines it.
+    pub output_formula: Formula,
+    /// False when the output, a check or a signal has more linear pieces than
+    /// `limits::MAX_PIECES` (or pairs than `limits::MAX_PRODUCT_PAIRS`): the piecewise
+    /// functions are then left empty and only the order-statistic engine and the Monte
+    /// Carlo engine (through the formulas) can analyse the model.
+    pub pieces_complete: bool,
     /// The output as a formula, e.g. `median(a, b, c)`.
     pub output_description: String,
     pub checks: Vec<CompiledCheck>,

@@ -7,15 +7,9 @@ use super::raw::*;
 use super::resolved::*;
 use super::validate::{NameRef, Namespace};
 
-/// Largest k with k! <= MAX_PIECES: the most arguments of an order statistic.
+/// The most arguments of an order statistic or a range check.
 pub(crate) fn max_order_args() -> usize {
-    let mut k = 1usize;
-    let mut f = 1usize;
-    while f.saturating_mul(k + 1) <= limits::MAX_PIECES {
-        k += 1;
-        f *= k;
-    }
-    k
+    limits::MAX_ORDER_ARGS
 }
 
 fn is_reading(r: NameRef) -> bool {
@@ -92,11 +86,9 @@ fn list(
         of.error(
             sink,
             format!(
-                "{what} of {} names would have {}! linear pieces, more than the limit of {} \
-                 pieces",
+                "{what} has {} names, more than the limit of {} (limits::MAX_ORDER_ARGS)",
                 names.len(),
-                names.len(),
-                limits::MAX_PIECES
+                limits::MAX_ORDER_ARGS
             ),
             format!("use at most {max} names"),
         );

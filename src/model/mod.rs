@@ -35,7 +35,7 @@ use std::path::Path;
 
 pub use compiled::{
     Amplitude, Architecture, CompiledCheck, CompiledFault, CompiledModel, Detection, FaultMode,
-    Guard, LinearForm, Piece, PiecewiseLinear,
+    Formula, Guard, LinearForm, OrderStat, Piece, PiecewiseLinear,
 };
 pub use describe::describe;
 pub use dot::to_dot;

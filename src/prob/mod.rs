@@ -11,6 +11,10 @@
 //!   of the sequential conditioning).
 //! - [`shift_average`]: a rank-one polytope averaged over a uniform shift of the mean, in
 //!   closed form (a channel frozen at an arbitrary value among two).
+//! - [`order`]: order statistics, range and difference checks of channels that are
+//!   independent once a few shared terms are fixed, at polynomial cost in the number of
+//!   channels (counts and one-dimensional integrals instead of orderings).
+//! - [`vector_quadrature`]: adaptive Gauss–Kronrod over several integrands at once.
 //! - [`feasibility`]: a verified bound on how deep a point can lie inside a polytope (a
 //!   small simplex search checked by duality): proves a polytope empty, or thin.
 //! - [`cholesky`]: pivoted Cholesky factor of a (possibly singular) covariance.
@@ -31,12 +35,14 @@ pub mod lattice;
 pub mod legendre;
 pub mod normal;
 pub mod optimise;
+pub mod order;
 pub mod polytope;
 pub mod quadrature;
 pub mod rng;
 pub mod shift_average;
 pub mod strip;
 pub mod tolerance;
+pub mod vector_quadrature;
 
 pub use error::ProbError;
 pub use estimate::Estimate;
