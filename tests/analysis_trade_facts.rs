@@ -31,11 +31,11 @@ use concord::model::{Amplitude, Architecture, load_str_with_overrides};
 
 /// The example files; `every_example_file_is_listed` keeps this list complete.
 const EXAMPLES: [&str; 5] = [
-    "kestrel_swa2_mean.toml",
-    "kestrel_swa2_plausibility.toml",
-    "kestrel_swa2_shared_ref.toml",
-    "kestrel_swa3_median.toml",
-    "kestrel_swa4_dual_pair.toml",
+    "plovrant_swa2_mean.toml",
+    "plovrant_swa2_plausibility.toml",
+    "plovrant_swa2_shared_ref.toml",
+    "plovrant_swa3_median.toml",
+    "plovrant_swa4_dual_pair.toml",
 ];
 
 /// Scale of a tightened band (a 20 % tighter threshold).
@@ -473,23 +473,23 @@ macro_rules! on_every_example {
         mod $fact {
             #[test]
             fn swa2_mean() {
-                super::$fact("kestrel_swa2_mean.toml");
+                super::$fact("plovrant_swa2_mean.toml");
             }
             #[test]
             fn swa2_plausibility() {
-                super::$fact("kestrel_swa2_plausibility.toml");
+                super::$fact("plovrant_swa2_plausibility.toml");
             }
             #[test]
             fn swa2_shared_ref() {
-                super::$fact("kestrel_swa2_shared_ref.toml");
+                super::$fact("plovrant_swa2_shared_ref.toml");
             }
             #[test]
             fn swa3_median() {
-                super::$fact("kestrel_swa3_median.toml");
+                super::$fact("plovrant_swa3_median.toml");
             }
             #[test]
             fn swa4_dual_pair() {
-                super::$fact("kestrel_swa4_dual_pair.toml");
+                super::$fact("plovrant_swa4_dual_pair.toml");
             }
         }
     };

@@ -9,9 +9,9 @@ use std::process::Command;
 use concord::report::json::AnalysisJson;
 use serde_json::Value;
 
-const MEAN: &str = "architectures/kestrel_swa2_mean.toml";
-const PLAUSIBILITY: &str = "architectures/kestrel_swa2_plausibility.toml";
-const SHARED_REF: &str = "architectures/kestrel_swa2_shared_ref.toml";
+const MEAN: &str = "architectures/plovrant_swa2_mean.toml";
+const PLAUSIBILITY: &str = "architectures/plovrant_swa2_plausibility.toml";
+const SHARED_REF: &str = "architectures/plovrant_swa2_shared_ref.toml";
 
 fn concord(args: &[&str]) -> std::process::Output {
     Command::new(env!("CARGO_BIN_EXE_concord"))
@@ -240,7 +240,7 @@ fn compare_prints_the_numbers_of_analyze() {
         "one figure per file: {}",
         rows[0]
     );
-    assert!(table.contains("Kestrel SWA-2P"));
+    assert!(table.contains("Plovrant SWA-2P"));
 }
 
 #[test]

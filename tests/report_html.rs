@@ -8,7 +8,7 @@ use std::process::Command;
 use concord::report::html::SECTIONS;
 use serde_json::Value;
 
-const EXAMPLES: [&str; 2] = ["kestrel_swa2_mean", "kestrel_swa2_shared_ref"];
+const EXAMPLES: [&str; 2] = ["plovrant_swa2_mean", "plovrant_swa2_shared_ref"];
 const SAMPLES: &str = "20000";
 const SEED: &str = "7";
 
@@ -242,11 +242,11 @@ fn report_is_well_formed_complete_and_agrees_with_the_json() {
 
 #[test]
 fn same_input_and_date_give_the_same_bytes() {
-    let a = report("kestrel_swa2_mean", "2026-01-02");
-    let b = report("kestrel_swa2_mean", "2026-01-02");
+    let a = report("plovrant_swa2_mean", "2026-01-02");
+    let b = report("plovrant_swa2_mean", "2026-01-02");
     assert_eq!(a, b);
     assert!(a.contains("2026-01-02"));
-    let c = report("kestrel_swa2_mean", "2026-01-03");
+    let c = report("plovrant_swa2_mean", "2026-01-03");
     assert_ne!(a, c);
 }
 
@@ -255,7 +255,7 @@ fn source_date_epoch_sets_the_date_and_bad_dates_are_input_errors() {
     let dir = std::env::temp_dir().join(format!("concord-report-epoch-{}", std::process::id()));
     std::fs::create_dir_all(&dir).expect("temp dir");
     let out = dir.join("r.html");
-    let file = example("kestrel_swa2_mean");
+    let file = example("plovrant_swa2_mean");
     let run = Command::new(env!("CARGO_BIN_EXE_concord"))
         .args([
             "report",
