@@ -243,9 +243,9 @@ fn stuck_channel_at_a_point_factorises() {
     );
 }
 
-/// One noisy channel and two equal constant ones (spread check, mean output) under a fault
+/// One noisy channel and two equal constant ones (range check, mean output) under a fault
 /// uniform over the full scale `[-50, 50]`: at amplitude `F` the noisy channel reads
-/// `x = F + n`, the mean is `x / 3` and the spread `|x|`. Averaged over `F`, `x` is uniform
+/// `x = F + n`, the mean is `x / 3` and the range `|x|`. Averaged over `F`, `x` is uniform
 /// convolved with a unit gaussian, whose density is `1/100` to within `Phi(-49)` everywhere
 /// near 0, so `P(|x| <= w) = 2 w / 100` (derived by hand). The figures: quiet and safe
 /// `|x| <= 0.01`, detected and safe `0.01 < |x| <= 0.03`, detected and violating the rest.
@@ -275,7 +275,7 @@ kind = "mean"
 of = ["c0", "c1", "c2"]
 
 [checks.k]
-kind = "spread"
+kind = "range"
 of = ["c0", "c1", "c2"]
 limit = 0.01
 

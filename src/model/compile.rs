@@ -225,10 +225,10 @@ fn build(
             };
             b.order(&args, kind)
         }
-        FnDef::Spread(rs) => {
+        FnDef::Range(rs) => {
             let rs = sorted(rs);
             let args: Vec<&Pw> = rs.iter().map(pw).collect();
-            b.order(&args, OrderKind::Spread)
+            b.order(&args, OrderKind::Range)
         }
         FnDef::Difference(a, c) => b.combine(&[(1.0, pw(a)), (-1.0, pw(c))], 0.0),
         FnDef::FromOutput(r) => b.combine(&[(1.0, pw(r)), (-1.0, output.unwrap_or(&empty))], 0.0),
@@ -269,7 +269,7 @@ impl Names<'_> {
             FnDef::Select(r) => self.name(r),
             FnDef::Order(stat, rs) => format!("{}({})", stat.word(), self.list(rs)),
             FnDef::Difference(a, b) => format!("{} - {}", self.name(a), self.name(b)),
-            FnDef::Spread(rs) => {
+            FnDef::Range(rs) => {
                 let l = self.list(rs);
                 format!("max({l}) - min({l})")
             }
