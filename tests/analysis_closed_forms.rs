@@ -152,7 +152,7 @@ fn fixed_offset_on_one_channel_factorises() {
 fn common_cause_gaussian_fault_is_invisible_to_the_difference_check() {
     // A gaussian fault N(0, 1.2^2) on the shared source moves a and b equally: y gains the
     // full fault variance, d is untouched and stays independent of y. The check's chance to
-    // fire is the same with and without the fault, so dc = P(|d| > T) = the nuisance rate:
+    // fire is the same with and without the fault, so dc = P(|d| > T) = the false-alarm rate:
     // near zero by construction, whatever the fault.
     let sf = 1.2;
     let faults = format!(

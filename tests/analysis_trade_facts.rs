@@ -287,7 +287,7 @@ fn unknown_spread_peaks_in_between(name: &str) {
             tiny.p_vu.value,
             baseline.p_vu.value
         );
-        // Both ends near 100 % (a design whose nuisance-free residual is below 1 %), and
+        // Both ends near 100 % (a design whose fault-free residual is below 1 %), and
         // the worst case lower than both by more than the bounds.
         for (end, o) in [(sigma_lo, &low), (sigma_hi, &high)] {
             let dc = o.dc_all_dangerous();

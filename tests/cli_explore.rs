@@ -69,9 +69,9 @@ fn sweep_rows_equal_analyze_on_files_edited_by_hand() {
         let single = analyze_json(&path);
         assert_eq!(row["x"].as_f64().unwrap(), limit.parse::<f64>().unwrap());
         assert_eq!(
-            value(row, "nuisance_alarm"),
-            single.baseline.nuisance_alarm,
-            "nuisance alarm at {limit}"
+            value(row, "false_alarm"),
+            single.baseline.false_alarm,
+            "false alarm at {limit}"
         );
         assert_eq!(value(row, "residual_fit"), single.metrics.residual_fit);
         assert_eq!(value(row, "spfm"), single.metrics.spfm);
@@ -103,7 +103,7 @@ fn a_long_sweep_streams_every_row_as_csv_in_order() {
     let text = ok(&out);
     let lines: Vec<&str> = text.lines().collect();
     assert_eq!(lines.len(), 801, "header and 800 rows");
-    assert!(lines[0].starts_with("safety.limit,checks.ab.limit,nuisance_alarm,"));
+    assert!(lines[0].starts_with("safety.limit,checks.ab.limit,false_alarm,"));
     assert!(lines[1].starts_with("1e0,2e0,"));
     assert!(lines[400].starts_with("4e0,2e0,"));
     assert!(lines[401].starts_with("1e0,3e0,"));
@@ -220,7 +220,7 @@ fn compare_prints_the_numbers_of_analyze() {
         last = residual;
         assert_eq!(value(&row["metrics"], "spfm"), single.metrics.spfm);
         assert_eq!(value(&row["metrics"], "lfm"), single.metrics.lfm);
-        assert_eq!(value(row, "nuisance_alarm"), single.baseline.nuisance_alarm);
+        assert_eq!(value(row, "false_alarm"), single.baseline.false_alarm);
         for (s, j) in row["sites"].as_array().unwrap().iter().zip(&single.sites) {
             assert_eq!(s["name"].as_str().unwrap(), j.name);
             assert_eq!(s["dc"]["value"].as_f64(), j.dc, "{path} {}", j.name);

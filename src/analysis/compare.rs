@@ -31,7 +31,7 @@ pub struct ArchitectureSummary {
     /// The hardware metrics.
     pub metrics: Metrics,
     /// Fault-free alarm probability (`p_vd + p_sd` of the baseline).
-    pub nuisance_alarm: Estimate,
+    pub false_alarm: Estimate,
     /// Linear cells of the decomposition (a measure of the work, independent of the machine).
     pub cells: usize,
     /// Wall-clock seconds of the analysis on this machine (not reproducible bit for bit).
@@ -79,7 +79,7 @@ pub fn summarise(
         checks: arch.model.checks.len(),
         sites: analysis.sites.iter().map(SiteSummary::of).collect(),
         metrics: analysis.metrics,
-        nuisance_alarm: analysis.baseline.alarm(),
+        false_alarm: analysis.baseline.alarm(),
         cells: analysis.cells,
         seconds,
     })

@@ -267,7 +267,7 @@ pub struct SweepRow {
     /// The series value, if the plan has series.
     pub series: Option<f64>,
     /// Fault-free alarm probability `p_vd + p_sd` of the baseline (the false-alarm price).
-    pub nuisance_alarm: Estimate,
+    pub false_alarm: Estimate,
     /// Residual rate, FIT.
     pub residual_fit: Estimate,
     /// Single-point fault metric.
@@ -289,7 +289,7 @@ impl SweepRow {
             index,
             x,
             series,
-            nuisance_alarm: analysis.baseline.alarm(),
+            false_alarm: analysis.baseline.alarm(),
             residual_fit: analysis.metrics.residual_fit,
             spfm: analysis.metrics.spfm,
             lfm: analysis.metrics.lfm,

@@ -264,7 +264,7 @@ pub enum CompareColumn {
     Spfm,
     /// LFM (highest first).
     Lfm,
-    /// Nuisance-alarm probability (lowest first).
+    /// False-alarm probability (lowest first).
     Alarm,
     /// Wall-clock seconds of the analysis (lowest first).
     Seconds,

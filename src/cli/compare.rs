@@ -51,7 +51,7 @@ fn sort(rows: &mut [ArchitectureSummary], column: CompareColumn, all_dangerous: 
             rows.sort_by(|a, b| b.metrics.lfm.value.total_cmp(&a.metrics.lfm.value))
         }
         CompareColumn::Alarm => {
-            rows.sort_by(|a, b| a.nuisance_alarm.value.total_cmp(&b.nuisance_alarm.value))
+            rows.sort_by(|a, b| a.false_alarm.value.total_cmp(&b.false_alarm.value))
         }
         CompareColumn::Seconds => rows.sort_by(|a, b| a.seconds.total_cmp(&b.seconds)),
     }

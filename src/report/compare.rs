@@ -2,7 +2,7 @@
 //!
 //! Columns: architecture, channels, checks, the coverage per fault site (a site of the same
 //! name in several files shares a column; `-` where a file has no such site), the residual
-//! rate, SPFM, LFM, the ASIL whose SPFM and LFM targets are both met, the nuisance-alarm
+//! rate, SPFM, LFM, the ASIL whose SPFM and LFM targets are both met, the false-alarm
 //! probability and the cost of the evaluation (linear cells and seconds).
 
 use serde::Serialize;
@@ -89,7 +89,7 @@ pub fn table(rows: &[ArchitectureSummary], all_dangerous: bool) -> String {
         "SPFM %",
         "LFM %",
         "ASIL",
-        "nuisance alarm",
+        "false alarm",
         "cells",
         "seconds",
     ]
@@ -110,7 +110,7 @@ pub fn table(rows: &[ArchitectureSummary], all_dangerous: bool) -> String {
                 percent_floor(r.metrics.spfm.value),
                 percent_floor(r.metrics.lfm.value),
                 asil_reached(r).label().to_string(),
-                probability(r.nuisance_alarm.value),
+                probability(r.false_alarm.value),
                 r.cells.to_string(),
                 format!("{:.3}", r.seconds),
             ]
@@ -138,7 +138,7 @@ pub fn table(rows: &[ArchitectureSummary], all_dangerous: bool) -> String {
     out.push_str(&columns(&head, &body));
     out.push_str(
         "\nlowest: the lowest coverage over the sites; ASIL: the highest level whose SPFM and LFM \
-         targets are both met (ISO 26262-5:2018 Tables 4 and 5, from memory); nuisance alarm: a \
+         targets are both met (ISO 26262-5:2018 Tables 4 and 5, from memory); false alarm: a \
          check fires without a fault; cells and seconds: the cost of the evaluation.\n\n",
     );
     for c in CAUTIONS {
@@ -207,8 +207,8 @@ pub fn csv(rows: &[ArchitectureSummary], all_dangerous: bool) -> String {
         "lfm",
         "lfm_error",
         "asil_reached",
-        "nuisance_alarm",
-        "nuisance_alarm_error",
+        "false_alarm",
+        "false_alarm_error",
         "cells",
         "seconds",
     ] {
@@ -231,8 +231,8 @@ pub fn csv(rows: &[ArchitectureSummary], all_dangerous: bool) -> String {
             line.push(format!("{:e}", e.error));
         }
         line.push(csv_field(asil_reached(r).label()));
-        line.push(format!("{:e}", r.nuisance_alarm.value));
-        line.push(format!("{:e}", r.nuisance_alarm.error));
+        line.push(format!("{:e}", r.false_alarm.value));
+        line.push(format!("{:e}", r.false_alarm.error));
         line.push(r.cells.to_string());
         line.push(format!("{:e}", r.seconds));
         out.push_str(&line.join(","));

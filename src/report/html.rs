@@ -675,11 +675,11 @@ fn results(o: &mut String, doc: &AnalysisJson) {
     o.push_str("</tbody></table>\n");
     let _ = writeln!(
         o,
-        r#"<p>Without a fault, a check fires with probability <span class="inline-num" data-key="baseline/nuisance_alarm" data-value="{}">{}</span> (the nuisance-alarm price of the thresholds) and the output leaves its band with probability <span class="inline-num" data-key="baseline/intrinsic_violation" data-value="{}">{}</span>.</p>"#,
-        json_number(b.nuisance_alarm),
-        sci_html(&probability(b.nuisance_alarm)),
-        json_number(b.intrinsic_violation),
-        sci_html(&probability(b.intrinsic_violation))
+        r#"<p>Without a fault, a check fires with probability <span class="inline-num" data-key="baseline/false_alarm" data-value="{}">{}</span> (the false-alarm price of the thresholds) and the output leaves its band with probability <span class="inline-num" data-key="baseline/fault_free_violation" data-value="{}">{}</span>.</p>"#,
+        json_number(b.false_alarm),
+        sci_html(&probability(b.false_alarm)),
+        json_number(b.fault_free_violation),
+        sci_html(&probability(b.fault_free_violation))
     );
 
     let mut warnings: Vec<String> = doc.warnings.clone();

@@ -2,7 +2,7 @@
 //! of one fault site.
 //!
 //! CSV columns of a parameter sweep: the swept key, the series key (when there is one),
-//! `nuisance_alarm`, `residual_fit`, `spfm`, `lfm` (each followed by `_error`, its bound),
+//! `false_alarm`, `residual_fit`, `spfm`, `lfm` (each followed by `_error`, its bound),
 //! `asil_spfm`, `asil_lfm`, then per fault site `SITE.dc`, `SITE.dc_error`,
 //! `SITE.dc_all_dangerous`, `SITE.p_vu`, `SITE.p_vu_error`, `SITE.worst_sigma`.
 //!
@@ -74,7 +74,7 @@ impl<W: Write> SweepWriter<W> {
                 if let Some(s) = &plan.series {
                     head.push(csv_field(&s.key));
                 }
-                for k in ["nuisance_alarm", "residual_fit", "spfm", "lfm"] {
+                for k in ["false_alarm", "residual_fit", "spfm", "lfm"] {
                     head.push(k.to_string());
                     head.push(format!("{k}_error"));
                 }
@@ -127,7 +127,7 @@ impl<W: Write> SweepWriter<W> {
                 if let Some(s) = row.series {
                     cells.push(format!("{s:e}"));
                 }
-                for e in [row.nuisance_alarm, row.residual_fit, row.spfm, row.lfm] {
+                for e in [row.false_alarm, row.residual_fit, row.spfm, row.lfm] {
                     cells.push(est(e));
                 }
                 cells.push(csv_field(row.asil_spfm.label()));

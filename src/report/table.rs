@@ -34,19 +34,19 @@ pub fn render(input: &ReportInput<'_>) -> String {
     let _ = writeln!(out, "Fault-free baseline");
     let _ = writeln!(
         out,
-        "  nuisance alarm (a check fires)       {:>11}  ± {}",
+        "  false alarm (a check fires)           {:>11}  ± {}",
         probability(b.alarm().value),
         bound(b.alarm().error)
     );
     let _ = writeln!(
         out,
-        "  intrinsic violation (output outside) {:>11}  ± {}",
+        "  fault-free violation (output outside) {:>11}  ± {}",
         probability(b.violation().value),
         bound(b.violation().error)
     );
     let _ = writeln!(
         out,
-        "  of which undetected, p_vu            {:>11}  ± {}",
+        "  of which undetected, p_vu             {:>11}  ± {}",
         probability(b.p_vu.value),
         bound(b.p_vu.error)
     );
