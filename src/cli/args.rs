@@ -21,7 +21,7 @@ pub enum Command {
     /// Compute the coverage figures of every fault site, the baseline and the metrics.
     Analyze(AnalyzeArgs),
     /// Run the built-in validation suite against outside references and print the
-    /// qualification summary (exit code 1 when any case fails).
+    /// validation summary (exit code 1 when any case fails).
     Selftest(SelftestArgs),
     /// Repeat the analysis over a range of one key of the file (and series of a second), or
     /// follow one fault site over the spread of its amplitude.

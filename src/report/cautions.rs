@@ -8,6 +8,6 @@ pub const CAUTIONS: [&str; 3] = [
     "The analyst remains responsible for the inputs, for the fault models and for how the \
      figures enter the safety case.",
     "The applicable standards (ISO 26262, IEC 61508), the assessor and local practice decide \
-     what is acceptable; the ASIL targets printed here are recalled from ISO 26262-5:2018 and \
-     must be checked against the standard in force.",
+     what is acceptable; the ASIL targets printed here are recalled from ISO 26262-5:2018, not \
+     checked against the published text, and must be checked against the standard in force.",
 ];

@@ -16,7 +16,8 @@
 
 use std::fmt::Write as _;
 
-use crate::analysis::metrics::{Asil, LFM_TARGETS, PMHF_TARGETS_FIT, SPFM_TARGETS};
+use crate::analysis::metrics::{self, Asil, LFM_TARGETS, PMHF_TARGETS_FIT, SPFM_TARGETS};
+use crate::prob::Estimate;
 use crate::model::{Amplitude, Detection, FaultMode};
 
 use super::ReportInput;
@@ -242,6 +243,7 @@ fn summary(o: &mut String, doc: &AnalysisJson) {
         format!("{} fault sites", doc.sites.len()),
     );
     o.push_str("</div>\n");
+    o.push_str("<p>A target counts as met only when the value minus its error bound meets it (for the residual rate: the value plus its bound stays below it); section 8 lists the targets.</p>\n");
     if let Some(w) = worst {
         let _ = writeln!(
             o,
@@ -808,7 +810,7 @@ fn curves(o: &mut String, doc: &AnalysisJson) {
         o.push_str("<p>The curves were not computed for this report.</p>\n</section>\n");
         return;
     }
-    o.push_str("<p>For a fault whose spread σ is not known, the figures change with σ: tiny spreads rarely violate, huge ones are almost always caught, and the residual peaks in between. The report takes every figure of the site at that peak (the marked worst case). Horizontal lines: the DC levels low, medium and high of ISO 26262-5 Annex D (60 / 90 / 99 %, from memory).</p>\n");
+    o.push_str("<p>For a fault whose spread σ is not known, the figures change with σ: tiny spreads rarely violate, huge ones are almost always caught, and the residual peaks in between. The report takes every figure of the site at that peak (the marked worst case). Horizontal lines: the DC levels low, medium and high of ISO 26262-5 Annex D (60 / 90 / 99 %, recalled, not checked against the published text).</p>\n");
     let mut figure = 2;
     for s in with_curve {
         let _ = writeln!(o, r#"<div class="site-curves"><h3>{}</h3>"#, esc(&s.name));
@@ -838,11 +840,23 @@ fn curves(o: &mut String, doc: &AnalysisJson) {
     o.push_str("</section>\n");
 }
 
-fn targets_met(value: f64, targets: &[(Asil, f64)], minimum: bool) -> Vec<(Asil, f64, bool)> {
+/// Each target with whether it is met, by the pass rule of every output
+/// ([`metrics::meets_minimum`], [`metrics::meets_maximum`]: value minus, or plus, its bound).
+fn targets_met(
+    value: f64,
+    error: f64,
+    targets: &[(Asil, f64)],
+    minimum: bool,
+) -> Vec<(Asil, f64, bool)> {
+    let estimate = Estimate::new(value, error);
     let mut list: Vec<(Asil, f64, bool)> = targets
         .iter()
         .map(|(a, t)| {
-            let met = if minimum { value >= *t } else { value < *t };
+            let met = if minimum {
+                metrics::meets_minimum(estimate, *t)
+            } else {
+                metrics::meets_maximum(estimate, *t)
+            };
             (*a, *t, met)
         })
         .collect();
@@ -853,11 +867,11 @@ fn targets_met(value: f64, targets: &[(Asil, f64)], minimum: bool) -> Vec<(Asil,
 fn metrics(o: &mut String, doc: &AnalysisJson) {
     let m = &doc.metrics;
     section_start(o, "metrics", 8, "Hardware metrics against the ASIL targets");
-    o.push_str("<p>Targets of ISO 26262-5:2018 Tables 4 to 6, recalled from memory: check them against the standard in force. The residual rate is the single-point part of the PMHF only. A target counts as met when the value itself meets it; the error bound is shown beside.</p>\n");
+    o.push_str("<p>Targets of ISO 26262-5:2018 Tables 4 to 6, recalled, not checked against the published text: check them against the standard in force. The residual rate is the single-point part of the PMHF only. A target counts as met only when the value minus its error bound meets it (for the residual rate: the value plus its bound stays below it), so that numerical error never lifts a design a level; every mark, the column “reached”, the summary of section 1, the terminal output and the JSON use this one rule.</p>\n");
     o.push_str(r#"<table class="wide metrics"><thead><tr><th>metric</th><th class="num">value</th><th>ASIL B</th><th>ASIL C</th><th>ASIL D</th><th>reached</th></tr></thead><tbody>"#);
-    let target_cells = |value: f64, targets: &[(Asil, f64)], minimum: bool, unit: &str| {
+    let target_cells = |value: f64, error: f64, targets: &[(Asil, f64)], minimum: bool, unit: &str| {
         let mut s = String::new();
-        for (_, t, met) in targets_met(value, targets, minimum) {
+        for (_, t, met) in targets_met(value, error, targets, minimum) {
             let text = if minimum {
                 format!("≥ {} {unit}", percent_floor(t))
             } else {
@@ -871,14 +885,14 @@ fn metrics(o: &mut String, doc: &AnalysisJson) {
         o,
         "<tr><th scope=\"row\">SPFM</th>{}{}<td>{}</td></tr>",
         percent_cell("metrics/spfm", m.spfm, Some(m.error.spfm), " %"),
-        target_cells(m.spfm, &SPFM_TARGETS, true, "%"),
+        target_cells(m.spfm, m.error.spfm, &SPFM_TARGETS, true, "%"),
         esc(&m.asil_spfm)
     );
     let _ = writeln!(
         o,
         "<tr><th scope=\"row\">LFM</th>{}{}<td>{}</td></tr>",
         percent_cell("metrics/lfm", m.lfm, Some(m.error.lfm), " %"),
-        target_cells(m.lfm, &LFM_TARGETS, true, "%"),
+        target_cells(m.lfm, m.error.lfm, &LFM_TARGETS, true, "%"),
         esc(&m.asil_lfm)
     );
     let _ = writeln!(
@@ -891,7 +905,13 @@ fn metrics(o: &mut String, doc: &AnalysisJson) {
             Some(m.error.residual_fit),
             &sci_html(&bound(m.error.residual_fit))
         ),
-        target_cells(m.residual_fit, &PMHF_TARGETS_FIT, false, "FIT"),
+        target_cells(
+            m.residual_fit,
+            m.error.residual_fit,
+            &PMHF_TARGETS_FIT,
+            false,
+            "FIT"
+        ),
         esc(&m.asil_residual_budget)
     );
     o.push_str("</tbody></table>\n");

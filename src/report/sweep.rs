@@ -294,7 +294,7 @@ pub fn spread_summary(curve: &SpreadCurve, unit: &str) -> String {
 }
 
 /// The low, medium and high diagnostic-coverage levels of ISO 26262-5:2018 Annex D (60, 90
-/// and 99 %, from memory), drawn as reference lines on every coverage plot.
+/// and 99 %, recalled, not checked against the published text), drawn as reference lines on every coverage plot.
 pub fn dc_levels() -> Vec<ReferenceLine> {
     [
         (60.0, "low DC 60 %"),
