@@ -29,7 +29,7 @@ const EXAMPLES: [&str; 4] = [
 #[test]
 fn exact_json_is_identical_for_one_and_two_threads() {
     for file in EXAMPLES {
-        let args = ["analyze", file, "--format", "json", "--curve"];
+        let args = ["analyze", file, "--format", "json", "--with-curves"];
         let one = concord(&args, "1");
         let two = concord(&args, "2");
         assert!(one == two, "{file}: output differs between 1 and 2 threads");

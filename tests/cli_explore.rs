@@ -173,7 +173,7 @@ fn plots_are_well_formed_svg_with_their_series_and_levels() {
         "95%",
         "--plot",
         tune.to_str().unwrap(),
-        "--curve",
+        "--curve-csv",
         curve.to_str().unwrap(),
     ]));
     let svg = parse_svg(&tune);

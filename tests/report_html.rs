@@ -60,7 +60,7 @@ fn analysis_json(name: &str) -> Value {
         file.to_str().expect("utf-8 path"),
         "--format",
         "json",
-        "--curve",
+        "--with-curves",
         "--verify",
         SAMPLES,
         "--seed",

@@ -88,7 +88,7 @@ pub struct AnalyzeArgs {
     #[arg(long, value_name = "N")]
     pub verify: Option<u64>,
     /// Include the whole curve over sigma of every site with unknown spread (JSON).
-    #[arg(long)]
+    #[arg(long = "with-curves")]
     pub curve: bool,
 }
 
@@ -242,7 +242,7 @@ pub struct TuneArgs {
     #[arg(long, value_enum, default_value = "text")]
     pub format: TuneFormat,
     /// Write the trade-off curve (coverage against false alarm) as CSV to FILE.
-    #[arg(long, value_name = "FILE")]
+    #[arg(long = "curve-csv", value_name = "FILE")]
     pub curve: Option<PathBuf>,
     /// Draw the trade-off curve as an SVG picture in FILE.
     #[arg(long, value_name = "FILE")]

@@ -87,7 +87,7 @@ pub fn run(args: &super::args::DemoArgs) -> Result<String, Failure> {
             (
                 Format::Json,
                 "json",
-                "concord analyze --format json --curve: the same as JSON",
+                "concord analyze --format json --with-curves: the same as JSON",
             ),
         ] {
             let text = analyze::run(&AnalyzeArgs {

@@ -1064,7 +1064,7 @@ fn method(o: &mut String, input: &ReportInput<'_>, options: &HtmlOptions) {
 
 fn reproduce(o: &mut String, doc: &AnalysisJson, options: &HtmlOptions) {
     section_start(o, "reproduce", 11, "Reproducing this report");
-    o.push_str("<p>concord is deterministic: the same input file, tool version and options give the same figures, bit for bit, whatever the number of threads. To reproduce this report, check that the file's SHA-256 matches and run the command below; <code>concord analyze FILE --format json --curve</code> prints the same numbers as JSON (each number cell of this page carries its exact JSON value in <code>data-value</code>).</p>\n");
+    o.push_str("<p>concord is deterministic: the same input file, tool version and options give the same figures, bit for bit, whatever the number of threads. To reproduce this report, check that the file's SHA-256 matches and run the command below; <code>concord analyze FILE --format json --with-curves</code> prints the same numbers as JSON (each number cell of this page carries its exact JSON value in <code>data-value</code>).</p>\n");
     o.push_str(r#"<table class="kv"><tbody>"#);
     let rows = [
         ("tool", format!("concord {}", doc.tool_version)),

@@ -90,7 +90,7 @@ pub fn summary(result: &TuneResult, file: &str) -> String {
             if result.at_range_end {
                 out.push_str(
                     "  the widest band of the range meets the target: a wider range may allow a \
-                     cheaper band (give --scale LO:HI)\n",
+                     wider band with fewer false alarms (give --scale LO:HI)\n",
                 );
             }
         }
