@@ -41,6 +41,34 @@ fn analyze_json(path: &Path) -> AnalysisJson {
     serde_json::from_str(&ok(&out)).expect("the analyze JSON contract")
 }
 
+/// The data lines of a CSV text of sweep or tune, after checking that it opens with the
+/// comment block of the cautions (lines starting with `#`, the rule README.md states).
+fn csv_data_lines(text: &str) -> Vec<&str> {
+    let comments: Vec<&str> = text.lines().take_while(|l| l.starts_with('#')).collect();
+    let block = comments.join("\n");
+    for words in ["analyst remains responsible", "assessor", "estimates"] {
+        assert!(block.contains(words), "the CSV comment block lacks '{words}':\n{block}");
+    }
+    let data: Vec<&str> = text.lines().skip(comments.len()).collect();
+    assert!(
+        data.iter().all(|l| !l.starts_with('#')),
+        "comments only at the top"
+    );
+    data
+}
+
+/// The cautions of a JSON document of sweep, with the same three as `analyze`.
+fn assert_cautions(doc: &Value) {
+    let single = analyze_json(Path::new(MEAN));
+    let cautions: Vec<&str> = doc["cautions"]
+        .as_array()
+        .expect("a cautions field")
+        .iter()
+        .filter_map(Value::as_str)
+        .collect();
+    assert_eq!(cautions, single.cautions, "the same cautions as analyze");
+}
+
 fn value(v: &Value, key: &str) -> f64 {
     v[key]["value"].as_f64().unwrap_or(f64::NAN)
 }
@@ -57,6 +85,7 @@ fn sweep_rows_equal_analyze_on_files_edited_by_hand() {
         "json",
     ]);
     let doc: Value = serde_json::from_str(&ok(&out)).expect("the sweep JSON");
+    assert_cautions(&doc);
     let rows = doc["rows"].as_array().unwrap();
     assert_eq!(rows.len(), 3);
     let original = std::fs::read_to_string(MEAN).unwrap();
@@ -101,7 +130,7 @@ fn a_long_sweep_streams_every_row_as_csv_in_order() {
         "checks.ab.limit=2,3",
     ]);
     let text = ok(&out);
-    let lines: Vec<&str> = text.lines().collect();
+    let lines = csv_data_lines(&text);
     assert_eq!(lines.len(), 801, "header and 800 rows");
     assert!(lines[0].starts_with("safety.limit,checks.ab.limit,false_alarm,"));
     assert!(lines[1].starts_with("1e0,2e0,"));
@@ -158,9 +187,14 @@ fn plots_are_well_formed_svg_with_their_series_and_levels() {
         spread.to_str().unwrap(),
     ]);
     let csv = ok(&out);
-    assert_eq!(csv.lines().count(), 41);
+    assert_eq!(csv_data_lines(&csv).len(), 41);
     let svg = parse_svg(&spread);
-    for label in ["dc_all_dangerous = 1 - p_vu", "worst case", "high DC 99 %"] {
+    for label in [
+        "dc_all_dangerous = 1 - p_vu",
+        "worst case",
+        "high DC 99 %",
+        "analyst remains responsible",
+    ] {
         assert!(svg.contains(label), "spread plot lacks {label}");
     }
 
@@ -179,8 +213,13 @@ fn plots_are_well_formed_svg_with_their_series_and_levels() {
     let svg = parse_svg(&tune);
     assert!(svg.contains("chosen: checks.ab.limit"));
     assert!(svg.contains("target 95 %"));
+    assert!(svg.contains("analyst remains responsible"));
     let rows = std::fs::read_to_string(&curve).unwrap();
-    assert_eq!(rows.lines().count(), 42, "header and 41 curve points");
+    assert_eq!(
+        csv_data_lines(&rows).len(),
+        42,
+        "header and 41 curve points"
+    );
 }
 
 #[test]
@@ -191,6 +230,7 @@ fn the_spread_worst_case_equals_analyze_over_the_same_range() {
     let site = single.sites.iter().find(|s| s.name == "a_drift").unwrap();
     let out = concord(&["sweep", MEAN, "--spread", "a_drift", "--format", "json"]);
     let doc: Value = serde_json::from_str(&ok(&out)).unwrap();
+    assert_cautions(&doc);
     assert_eq!(doc["worst"]["sigma"].as_f64(), site.worst_sigma);
     assert_eq!(value(&doc["worst"], "p_vu"), site.p_vu);
 }

@@ -751,6 +751,7 @@ pub fn coverage_chart(site: &SiteJson, unit: &str) -> Option<Chart> {
         })
         .collect(),
         markers,
+        caption: Vec::new(),
     })
 }
 
@@ -777,6 +778,7 @@ pub fn residual_chart(site: &SiteJson, unit: &str) -> Option<Chart> {
             })
             .into_iter()
             .collect(),
+        caption: Vec::new(),
     })
 }
 
