@@ -22,8 +22,12 @@ pub struct ArchitectureSummary {
     pub name: String,
     /// The file as given.
     pub path: String,
-    /// Number of channels.
+    /// Number of channels of the file (those the output uses and those only checks read, such
+    /// as a model estimate).
     pub channels: usize,
+    /// Number of channels the output uses: the measuring hardware the architecture votes or
+    /// averages over.
+    pub output_channels: usize,
     /// Number of checks.
     pub checks: usize,
     /// Every fault site, in file order.
@@ -76,6 +80,7 @@ pub fn summarise(
         name: arch.model.name.clone(),
         path: arch.path.clone(),
         channels: arch.model.channels.len(),
+        output_channels: output_channels(arch),
         checks: arch.model.checks.len(),
         sites: analysis.sites.iter().map(SiteSummary::of).collect(),
         metrics: analysis.metrics,
@@ -83,6 +88,23 @@ pub fn summarise(
         cells: analysis.cells,
         seconds,
     })
+}
+
+/// The channels with a nonzero coefficient in some piece of the output (its values or its
+/// guards): for a median of three, all three, though each piece takes one.
+fn output_channels(arch: &Architecture) -> usize {
+    let m = &arch.model;
+    (0..m.channels.len())
+        .filter(|&j| {
+            m.output.pieces.iter().any(|p| {
+                p.value.coeffs.get(j).is_some_and(|c| *c != 0.0)
+                    || p
+                        .guards
+                        .iter()
+                        .any(|g| g.form.coeffs.get(j).is_some_and(|c| *c != 0.0))
+            })
+        })
+        .count()
 }
 
 /// The fault-site names of a comparison: every name in the order first met, so that sites

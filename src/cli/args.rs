@@ -254,7 +254,7 @@ pub struct TuneArgs {
 pub enum CompareColumn {
     /// Architecture name.
     Name,
-    /// Number of channels.
+    /// Number of channels the output uses (fewest first).
     Channels,
     /// Lowest coverage over the sites (highest first).
     Coverage,

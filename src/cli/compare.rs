@@ -36,7 +36,7 @@ fn sort(rows: &mut [ArchitectureSummary], column: CompareColumn, all_dangerous: 
     let low = |r: &ArchitectureSummary| r.lowest_coverage(all_dangerous).map_or(1.0, |e| e.value);
     match column {
         CompareColumn::Name => rows.sort_by(|a, b| a.name.cmp(&b.name)),
-        CompareColumn::Channels => rows.sort_by_key(|r| r.channels),
+        CompareColumn::Channels => rows.sort_by_key(|r| r.output_channels),
         CompareColumn::Coverage => rows.sort_by(|a, b| low(b).total_cmp(&low(a))),
         CompareColumn::ResidualFit => rows.sort_by(|a, b| {
             a.metrics

@@ -1,6 +1,7 @@
 //! Output of `concord compare`: the architectures side by side as a table, JSON or CSV.
 //!
-//! Columns: architecture, channels, checks, the coverage per fault site (a site of the same
+//! Columns: architecture, channels (those the output uses; the JSON and CSV give
+//! `output_channels` and `channels`, every channel of the file), checks, the coverage per fault site (a site of the same
 //! name in several files shares a column; `-` where a file has no such site), the residual
 //! rate, SPFM, LFM, the ASIL whose SPFM and LFM targets are both met, the false-alarm
 //! probability and the computation time. The JSON and CSV also carry `cells`, the number of
@@ -102,7 +103,7 @@ pub fn table(rows: &[ArchitectureSummary], all_dangerous: bool) -> String {
             vec![
                 (i + 1).to_string(),
                 r.name.clone(),
-                r.channels.to_string(),
+                r.output_channels.to_string(),
                 r.checks.to_string(),
                 r.lowest_coverage(all_dangerous)
                     .map_or("-".into(), |e| percent_floor(e.value)),
@@ -136,7 +137,8 @@ pub fn table(rows: &[ArchitectureSummary], all_dangerous: bool) -> String {
     ));
     out.push_str(&columns(&head, &body));
     out.push_str(
-        "\nchannels: the number of measuring channels (the hardware); lowest: the lowest coverage \
+        "\nchannels: the channels the output uses (the measuring hardware; a channel only a \
+         check reads, such as a model estimate, is not counted); lowest: the lowest coverage \
          over the sites; ASIL: the highest level whose SPFM and LFM targets are both met, each \
          judged on its value minus its error bound (targets of ISO 26262-5:2018 Tables 4 and 5, \
          recalled, not checked against the published text); false alarm: the probability that \
@@ -198,6 +200,7 @@ pub fn json(rows: &[ArchitectureSummary], all_dangerous: bool) -> Result<String,
 pub fn csv(rows: &[ArchitectureSummary], all_dangerous: bool) -> String {
     let sites = site_columns(rows);
     let mut head: Vec<String> = vec!["architecture".into(), "file".into(), "channels".into()];
+    head.push("output_channels".into());
     head.push("checks".into());
     head.extend(sites.iter().map(|s| csv_field(s)));
     for k in [
@@ -222,6 +225,7 @@ pub fn csv(rows: &[ArchitectureSummary], all_dangerous: bool) -> String {
             csv_field(&r.name),
             csv_field(&r.path),
             r.channels.to_string(),
+            r.output_channels.to_string(),
             r.checks.to_string(),
         ];
         for s in &sites {
