@@ -261,6 +261,19 @@ fn compare_prints_the_numbers_of_analyze() {
         assert_eq!(value(&row["metrics"], "spfm"), single.metrics.spfm);
         assert_eq!(value(&row["metrics"], "lfm"), single.metrics.lfm);
         assert_eq!(value(row, "false_alarm"), single.baseline.false_alarm);
+        // The channels the output uses, counted from the file's [output] `of` as written
+        // (these outputs read channels directly, no derived signals), and every channel.
+        let file: toml::Table = std::fs::read_to_string(path).unwrap().parse().unwrap();
+        let of = &file["output"]["of"];
+        let named = of
+            .as_array()
+            .map(Vec::len)
+            .or_else(|| of.as_table().map(toml::Table::len))
+            .unwrap_or(1);
+        assert_eq!(row["output_channels"].as_u64(), Some(named as u64), "{path}");
+        let declared = file["channels"].as_table().unwrap().len();
+        assert_eq!(row["channels"].as_u64(), Some(declared as u64), "{path}");
+        assert!(row["cells"].as_u64().is_some(), "cells stays in the JSON");
         for (s, j) in row["sites"].as_array().unwrap().iter().zip(&single.sites) {
             assert_eq!(s["name"].as_str().unwrap(), j.name);
             assert_eq!(s["dc"]["value"].as_f64(), j.dc, "{path} {}", j.name);
@@ -281,6 +294,16 @@ fn compare_prints_the_numbers_of_analyze() {
         rows[0]
     );
     assert!(table.contains("Plovrant SWA-2P"));
+    // The internal count of cells is in the JSON only; the words are the README's.
+    let head = table
+        .lines()
+        .find(|l| l.contains("architecture"))
+        .expect("a header line");
+    assert!(!head.contains("cells"), "{head}");
+    for word in ["channels", "false alarm", "time s"] {
+        assert!(head.contains(word), "{word} missing: {head}");
+    }
+    assert!(!table.contains("nuisance"));
 }
 
 #[test]
