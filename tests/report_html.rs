@@ -237,6 +237,42 @@ fn report_is_well_formed_complete_and_agrees_with_the_json() {
             .count();
         assert_eq!(charts, 2 * unknown, "{name}");
         assert!(text.contains("DC, all dangerous = 1 − p_vu"));
+
+        // The marks of section 8 judge value minus error bound, as the JSON does. Targets of
+        // ISO 26262-5:2018 Tables 4 and 5, recalled, not checked against the published text:
+        // SPFM >= 90 / 97 / 99 %, LFM >= 60 / 80 / 90 % for ASIL B / C / D.
+        let table = doc
+            .descendants()
+            .find(|n| n.has_tag_name("table") && n.attribute("class") == Some("wide metrics"))
+            .unwrap_or_else(|| panic!("{name}: no metrics table"));
+        for (row, key, targets) in [
+            ("SPFM", "spfm", [0.90, 0.97, 0.99]),
+            ("LFM", "lfm", [0.60, 0.80, 0.90]),
+        ] {
+            let tr = table
+                .descendants()
+                .filter(|n| n.has_tag_name("tr"))
+                .find(|n| {
+                    n.children()
+                        .find(|c| c.has_tag_name("th"))
+                        .is_some_and(|th| all_text(th) == row)
+                })
+                .unwrap_or_else(|| panic!("{name}: no {row} row"));
+            let cells: Vec<String> = tr
+                .children()
+                .filter(|c| c.has_tag_name("td"))
+                .map(all_text)
+                .collect();
+            let value = json["metrics"][key].as_f64().expect("metric");
+            let error = json["metrics"]["error"][key].as_f64().expect("bound");
+            for (i, target) in targets.iter().enumerate() {
+                let met = value - error >= *target;
+                let mark = cells[1 + i].trim_start();
+                assert_eq!(mark.starts_with('✓'), met, "{name}: {row} {target}: {mark}");
+                assert_eq!(mark.starts_with('✗'), !met, "{name}: {row} {target}: {mark}");
+            }
+        }
+        assert!(text.contains("value minus its error bound"));
     }
 }
 

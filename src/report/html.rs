@@ -710,7 +710,7 @@ pub fn coverage_chart(site: &SiteJson, unit: &str) -> Option<Chart> {
         .iter()
         .filter_map(|p| p.dc.map(|d| (p.sigma, 100.0 * d)))
         .collect();
-    let dcad: Vec<(f64, f64)> = curve
+    let dc_all: Vec<(f64, f64)> = curve
         .iter()
         .map(|p| (p.sigma, 100.0 * p.dc_all_dangerous))
         .collect();
@@ -736,7 +736,7 @@ pub fn coverage_chart(site: &SiteJson, unit: &str) -> Option<Chart> {
             },
             Series {
                 label: "DC, all dangerous = 1 − p_vu".to_string(),
-                points: dcad,
+                points: dc_all,
             },
         ],
         reference_lines: [
