@@ -232,8 +232,10 @@ fn a_frozen_channel_of_two_matches_mpmath_within_its_bound() {
     // tests/reference/frozen_channel_mpmath.py (mpmath 1.3.0, 30 digits): site b_frozen of
     // plovrant_swa2_mean.toml, channel b frozen at F uniform on [-540, 540]. The closed form
     // over the uniform shift (prob::shift_average) must sit within its bound of these.
-    let arch =
-        concord::model::load(std::path::Path::new("architectures/plovrant_swa2_mean.toml")).unwrap();
+    let arch = concord::model::load(std::path::Path::new(
+        "architectures/plovrant_swa2_mean.toml",
+    ))
+    .unwrap();
     let analysis = concord::analysis::analyze(
         &arch.model,
         &concord::analysis::AnalysisOptions::default(),

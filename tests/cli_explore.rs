@@ -47,7 +47,10 @@ fn csv_data_lines(text: &str) -> Vec<&str> {
     let comments: Vec<&str> = text.lines().take_while(|l| l.starts_with('#')).collect();
     let block = comments.join("\n");
     for words in ["analyst remains responsible", "assessor", "estimates"] {
-        assert!(block.contains(words), "the CSV comment block lacks '{words}':\n{block}");
+        assert!(
+            block.contains(words),
+            "the CSV comment block lacks '{words}':\n{block}"
+        );
     }
     let data: Vec<&str> = text.lines().skip(comments.len()).collect();
     assert!(
@@ -270,7 +273,11 @@ fn compare_prints_the_numbers_of_analyze() {
             .map(Vec::len)
             .or_else(|| of.as_table().map(toml::Table::len))
             .unwrap_or(1);
-        assert_eq!(row["output_channels"].as_u64(), Some(named as u64), "{path}");
+        assert_eq!(
+            row["output_channels"].as_u64(),
+            Some(named as u64),
+            "{path}"
+        );
         let declared = file["channels"].as_table().unwrap().len();
         assert_eq!(row["channels"].as_u64(), Some(declared as u64), "{path}");
         assert!(row["cells"].as_u64().is_some(), "cells stays in the JSON");

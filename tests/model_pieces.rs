@@ -129,10 +129,7 @@ fn random_spec(seed: u64, n: usize) -> Spec {
                 let v = g.distinct(pool, 2);
                 ("difference".into(), Def::Difference(v[0], v[1]))
             }
-            1 => (
-                "range".into(),
-                Def::Order(Stat::Range, g.some(pool, 2, 2)),
-            ),
+            1 => ("range".into(), Def::Order(Stat::Range, g.some(pool, 2, 2))),
             2 => ("from_output".into(), Def::FromOutput(g.below(pool))),
             _ => {
                 let terms = g.terms(pool);

@@ -269,7 +269,11 @@ fn report_is_well_formed_complete_and_agrees_with_the_json() {
                 let met = value - error >= *target;
                 let mark = cells[1 + i].trim_start();
                 assert_eq!(mark.starts_with('✓'), met, "{name}: {row} {target}: {mark}");
-                assert_eq!(mark.starts_with('✗'), !met, "{name}: {row} {target}: {mark}");
+                assert_eq!(
+                    mark.starts_with('✗'),
+                    !met,
+                    "{name}: {row} {target}: {mark}"
+                );
             }
         }
         assert!(text.contains("value minus its error bound"));

@@ -98,8 +98,7 @@ fn output_channels(arch: &Architecture) -> usize {
         .filter(|&j| {
             m.output.pieces.iter().any(|p| {
                 p.value.coeffs.get(j).is_some_and(|c| *c != 0.0)
-                    || p
-                        .guards
+                    || p.guards
                         .iter()
                         .any(|g| g.form.coeffs.get(j).is_some_and(|c| *c != 0.0))
             })

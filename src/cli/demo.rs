@@ -251,7 +251,12 @@ pub fn run(args: &super::args::DemoArgs) -> Result<String, Failure> {
         .max()
         .unwrap_or(0);
     for e in &list {
-        let _ = writeln!(out, "  {:<width$}  {}", e.path.display().to_string(), e.what);
+        let _ = writeln!(
+            out,
+            "  {:<width$}  {}",
+            e.path.display().to_string(),
+            e.what
+        );
     }
     // The trade in one screen: the first table of compare.txt and the tuned bands.
     let table = compared
@@ -259,7 +264,10 @@ pub fn run(args: &super::args::DemoArgs) -> Result<String, Failure> {
         .next()
         .unwrap_or(&compared)
         .trim_end();
-    let _ = writeln!(out, "\nThe trade in one screen (from compare.txt and tune-*.txt)\n");
+    let _ = writeln!(
+        out,
+        "\nThe trade in one screen (from compare.txt and tune-*.txt)\n"
+    );
     let _ = writeln!(out, "{table}\n");
     let _ = writeln!(
         out,

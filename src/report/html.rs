@@ -17,8 +17,8 @@
 use std::fmt::Write as _;
 
 use crate::analysis::metrics::{self, Asil, LFM_TARGETS, PMHF_TARGETS_FIT, SPFM_TARGETS};
-use crate::prob::Estimate;
 use crate::model::{Amplitude, Detection, FaultMode};
+use crate::prob::Estimate;
 
 use super::ReportInput;
 use super::cautions::CAUTIONS;
@@ -871,18 +871,19 @@ fn metrics(o: &mut String, doc: &AnalysisJson) {
     section_start(o, "metrics", 8, "Hardware metrics against the ASIL targets");
     o.push_str("<p>Targets of ISO 26262-5:2018 Tables 4 to 6, recalled, not checked against the published text: check them against the standard in force. The residual rate is the single-point part of the PMHF only. A target counts as met only when the value minus its error bound meets it (for the residual rate: the value plus its bound stays below it), so that numerical error never lifts a design a level; every mark, the column “reached”, the summary of section 1, the terminal output and the JSON use this one rule.</p>\n");
     o.push_str(r#"<table class="wide metrics"><thead><tr><th>metric</th><th class="num">value</th><th>ASIL B</th><th>ASIL C</th><th>ASIL D</th><th>reached</th></tr></thead><tbody>"#);
-    let target_cells = |value: f64, error: f64, targets: &[(Asil, f64)], minimum: bool, unit: &str| {
-        let mut s = String::new();
-        for (_, t, met) in targets_met(value, error, targets, minimum) {
-            let text = if minimum {
-                format!("≥ {} {unit}", percent_floor(t))
-            } else {
-                format!("< {} {unit}", number(t))
-            };
-            let _ = write!(s, "<td>{}</td>", verdict_html(met, &text));
-        }
-        s
-    };
+    let target_cells =
+        |value: f64, error: f64, targets: &[(Asil, f64)], minimum: bool, unit: &str| {
+            let mut s = String::new();
+            for (_, t, met) in targets_met(value, error, targets, minimum) {
+                let text = if minimum {
+                    format!("≥ {} {unit}", percent_floor(t))
+                } else {
+                    format!("< {} {unit}", number(t))
+                };
+                let _ = write!(s, "<td>{}</td>", verdict_html(met, &text));
+            }
+            s
+        };
     let _ = writeln!(
         o,
         "<tr><th scope=\"row\">SPFM</th>{}{}<td>{}</td></tr>",

@@ -55,7 +55,15 @@ pub fn render(input: &ReportInput<'_>) -> String {
     let _ = writeln!(
         out,
         "{:<16} {:>8} {:>7} {:>8} {:>13} {:>10} {:>7} {:>11} {:>11}",
-        "site", "FIT", "mode", "DC %", "DC all-dang %", "p_vu", "bound", "worst sigma", "resid. FIT"
+        "site",
+        "FIT",
+        "mode",
+        "DC %",
+        "DC all-dang %",
+        "p_vu",
+        "bound",
+        "worst sigma",
+        "resid. FIT"
     );
     for s in &a.sites {
         let o = &s.outcome;
