@@ -1,6 +1,6 @@
 //! Architectures side by side: the same exact analysis run on several files, reduced to the
 //! figures a design choice turns on (coverage per fault site, residual rate, metrics, the
-//! false-alarm price) and the cost of computing them.
+//! false-alarm price) and the time it took to compute them.
 
 use std::time::Instant;
 

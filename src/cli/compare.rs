@@ -30,8 +30,8 @@ pub fn run(args: &CompareArgs) -> Result<String, Failure> {
     }
 }
 
-/// Sorts best first (highest coverage and metrics, lowest rates and costs); ties keep the
-/// order of the files.
+/// Sorts best first (highest coverage and metrics, lowest rates, probabilities and times);
+/// ties keep the order of the files.
 fn sort(rows: &mut [ArchitectureSummary], column: CompareColumn, all_dangerous: bool) {
     let low = |r: &ArchitectureSummary| r.lowest_coverage(all_dangerous).map_or(1.0, |e| e.value);
     match column {

@@ -1,10 +1,10 @@
 //! Output of `concord compare`: the architectures side by side as a table, JSON or CSV.
 //!
 //! Columns: architecture, channels (those the output uses; the JSON and CSV give
-//! `output_channels` and `channels`, every channel of the file), checks, the coverage per fault site (a site of the same
-//! name in several files shares a column; `-` where a file has no such site), the residual
-//! rate, SPFM, LFM, the ASIL whose SPFM and LFM targets are both met, the false-alarm
-//! probability and the computation time. The JSON and CSV also carry `cells`, the number of
+//! `output_channels` and `channels`, every channel of the file), checks, the coverage per
+//! fault site (a site of the same name in several files shares a column; `-` where a file
+//! has no such site), the residual rate, SPFM, LFM, the ASIL whose SPFM and LFM targets are
+//! both met, the false-alarm probability and the computation time. The JSON and CSV also carry `cells`, the number of
 //! linear cells the evaluation split the functions into (an internal count, not in the table).
 
 use serde::Serialize;
@@ -71,9 +71,9 @@ fn columns(head: &[String], body: &[Vec<String>]) -> String {
     out
 }
 
-/// The tables for a terminal: one line per architecture with the metrics and costs, then
-/// the coverage of every fault site (a row per site name, a column per architecture, `-`
-/// where the architecture has no such site).
+/// The tables for a terminal: one line per architecture with the metrics and the computation
+/// time, then the coverage of every fault site (a row per site name, a column per
+/// architecture, `-` where the architecture has no such site).
 pub fn table(rows: &[ArchitectureSummary], all_dangerous: bool) -> String {
     let sites = site_columns(rows);
     let figure = if all_dangerous {
