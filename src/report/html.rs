@@ -677,7 +677,7 @@ fn results(o: &mut String, doc: &AnalysisJson) {
     o.push_str("</tbody></table>\n");
     let _ = writeln!(
         o,
-        r#"<p>Without a fault, a check fires with probability <span class="inline-num" data-key="baseline/false_alarm" data-value="{}">{}</span> (the false-alarm price of the thresholds) and the output leaves its band with probability <span class="inline-num" data-key="baseline/fault_free_violation" data-value="{}">{}</span>.</p>"#,
+        r#"<p>Without a fault, a check fires with probability <span class="inline-num" data-key="baseline/false_alarm" data-value="{}">{}</span> (the false alarm, the price of the thresholds) and the output leaves its band with probability <span class="inline-num" data-key="baseline/fault_free_violation" data-value="{}">{}</span> (the fault-free violation).</p>"#,
         json_number(b.false_alarm),
         sci_html(&probability(b.false_alarm)),
         json_number(b.fault_free_violation),
