@@ -746,6 +746,24 @@ mod tests {
     }
 
     #[test]
+    fn a_caption_is_wrapped_under_the_legend_and_every_word_is_kept() {
+        let mut chart = curve_chart();
+        let words: Vec<String> = (0..60).map(|i| format!("zq{i}")).collect();
+        chart.caption = vec![words.join(" ")];
+        let svg = render_svg(&chart, 400, 420).expect("renders");
+        let lines: Vec<String> = texts(&svg)
+            .into_iter()
+            .filter(|t| t.starts_with("zq"))
+            .collect();
+        assert!(lines.len() >= 2, "wrapped: {lines:?}");
+        let kept: Vec<&str> = lines.iter().flat_map(|l| l.split_whitespace()).collect();
+        assert_eq!(kept, words.iter().map(String::as_str).collect::<Vec<_>>());
+        // The smallest size still renders or says why, never panics.
+        let small = std::panic::catch_unwind(|| render_svg(&chart, MIN_WIDTH, MIN_HEIGHT));
+        assert!(small.is_ok());
+    }
+
+    #[test]
     fn every_scale_combination_renders() {
         for xs in [Scale::Linear, Scale::Log] {
             for ys in [Scale::Linear, Scale::Log] {
