@@ -133,7 +133,7 @@ fn report(r: Result<Pw, PieceError>, sink: &mut Sink<'_>, loc: &Loc, what: &str)
                      statistics are multiplied out",
                     limits::MAX_PIECES
                 ),
-                "use fewer arguments in medians, minima, maxima and spreads, or fewer nested \
+                "use fewer arguments in medians, minima, maxima and ranges, or fewer nested \
                  order statistics",
             );
             None
