@@ -226,6 +226,24 @@ fn plots_are_well_formed_svg_with_their_series_and_levels() {
 }
 
 #[test]
+fn every_csv_output_opens_with_the_cautions() {
+    let analyze = ok(&concord(&["analyze", MEAN, "--format", "csv"]));
+    let rows = csv_data_lines(&analyze);
+    assert!(rows[0].starts_with("scenario,fit,mode,"), "{}", rows[0]);
+    assert!(rows[1].starts_with("baseline,"));
+    let compared = ok(&concord(&[
+        "compare",
+        MEAN,
+        PLAUSIBILITY,
+        "--format",
+        "csv",
+    ]));
+    let rows = csv_data_lines(&compared);
+    assert!(rows[0].starts_with("architecture,file,channels,output_channels,checks,"));
+    assert_eq!(rows.len(), 3, "header and two architectures");
+}
+
+#[test]
 fn the_spread_worst_case_equals_analyze_over_the_same_range() {
     // a_drift has an unknown sigma over the default range; the spread sweep over that same
     // range must find the same worst case as analyze (the same search).

@@ -12,8 +12,8 @@ pub const CAUTIONS: [&str; 3] = [
      checked against the published text, and must be checked against the standard in force.",
 ];
 
-/// The cautions in short, for the caption of a picture and the comment block of a CSV file,
-/// which travel without the rest of the output.
+/// The cautions in short, for the caption of a picture, which travels without the rest of
+/// the output.
 pub const CAUTION_SHORT: &str = "Caution: estimates under the file's assumptions (gaussian \
      noise, independent fault sites, its fault models); error bounds cover the numerical method \
      only. The analyst remains responsible; the applicable standards, the assessor and local \
@@ -25,9 +25,9 @@ pub fn plot_caption() -> Vec<String> {
     vec![CAUTION_SHORT.to_string()]
 }
 
-/// The comment block that opens every CSV file of `sweep` and `tune`: the tool and the
-/// cautions, each line starting with `#` (spreadsheets and most CSV readers skip such lines
-/// when told that `#` starts a comment).
+/// The comment block that opens every CSV output (analyze, compare, sweep, tune): the tool
+/// and the cautions, each line starting with `#` (skip those lines, or tell the CSV reader
+/// that `#` starts a comment).
 pub fn csv_comment_block() -> String {
     let mut out = format!("# concord {}\n", super::TOOL_VERSION);
     for c in CAUTIONS {

@@ -13,7 +13,7 @@ use crate::analysis::compare::{ArchitectureSummary, site_columns};
 use crate::analysis::metrics::Asil;
 
 use super::TOOL_VERSION;
-use super::cautions::CAUTIONS;
+use super::cautions::{CAUTIONS, csv_comment_block};
 use super::csv::field as csv_field;
 use super::format::{fit, percent_floor, probability};
 
@@ -196,7 +196,7 @@ pub fn json(rows: &[ArchitectureSummary], all_dangerous: bool) -> Result<String,
         .map_err(|e| e.to_string())
 }
 
-/// The comparison as CSV, one row per architecture.
+/// The comparison as CSV, one row per architecture, after the comment block of the cautions.
 pub fn csv(rows: &[ArchitectureSummary], all_dangerous: bool) -> String {
     let sites = site_columns(rows);
     let mut head: Vec<String> = vec!["architecture".into(), "file".into(), "channels".into()];
@@ -218,7 +218,8 @@ pub fn csv(rows: &[ArchitectureSummary], all_dangerous: bool) -> String {
     ] {
         head.push(k.into());
     }
-    let mut out = head.join(",");
+    let mut out = csv_comment_block();
+    out.push_str(&head.join(","));
     out.push('\n');
     for r in rows {
         let mut line = vec![
