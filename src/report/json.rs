@@ -20,10 +20,10 @@
 //! Fields may be added in later versions; none is dropped, and none is renamed except as
 //! listed here.
 //!
-//! Renamed in version 0.1.0 (one word for each idea in every output): `baseline.nuisance_alarm`
-//! is now `baseline.false_alarm`, and `baseline.intrinsic_violation` is now
-//! `baseline.fault_free_violation`; the values are unchanged. Scripts that read the old keys
-//! must read the new ones.
+//! Renamed once, before the first release (one word for each idea in every output):
+//! `baseline.nuisance_alarm` is now `baseline.false_alarm`, and `baseline.intrinsic_violation`
+//! is now `baseline.fault_free_violation`; the values are unchanged. Scripts that read the old
+//! keys must read the new ones.
 
 use serde::{Deserialize, Serialize};
 
