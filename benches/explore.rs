@@ -1,5 +1,5 @@
 //! Benchmarks of the design-exploration commands on a two-channel architecture (the bundled
-//! `kestrel_swa2_mean.toml`). Issue targets, for the notes (never asserted in tests):
+//! `plovrant_swa2_mean.toml`). Issue targets, for the notes (never asserted in tests):
 //! a 200-point DC-versus-spread curve under 50 ms; tuning to a DC target under 200 ms; a
 //! 100 x 100 grid of (safety limit, threshold) under 5 s on two cores.
 
@@ -10,10 +10,10 @@ use concord::analysis::sweep::{Axis, SweepPlan, spread_curve, sweep};
 use concord::analysis::tune::{CoverageFigure, TuneRequest, tune};
 use concord::model::load_str;
 
-const FILE: &str = include_str!("../architectures/kestrel_swa2_mean.toml");
+const FILE: &str = include_str!("../architectures/plovrant_swa2_mean.toml");
 
 fn spread(c: &mut Criterion) {
-    let arch = load_str(FILE, "kestrel_swa2_mean.toml").unwrap();
+    let arch = load_str(FILE, "plovrant_swa2_mean.toml").unwrap();
     let sigmas = Axis::log("sigma", 0.002, 5400.0, 200).unwrap().values;
     let options = AnalysisOptions::default();
     c.bench_function("spread curve, 200 points, two channels", |b| {
@@ -25,7 +25,7 @@ fn tuning(c: &mut Criterion) {
     let options = AnalysisOptions::default();
     let request = TuneRequest::new(Some("ab".into()), CoverageFigure::DcAllDangerous, 0.95);
     c.bench_function("tune to dc_all_dangerous 95 %, two channels", |b| {
-        b.iter(|| tune(FILE, "kestrel_swa2_mean.toml", &request, &options, &|| {}).unwrap())
+        b.iter(|| tune(FILE, "plovrant_swa2_mean.toml", &request, &options, &|| {}).unwrap())
     });
 }
 

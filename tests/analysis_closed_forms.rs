@@ -152,7 +152,7 @@ fn fixed_offset_on_one_channel_factorises() {
 fn common_cause_gaussian_fault_is_invisible_to_the_difference_check() {
     // A gaussian fault N(0, 1.2^2) on the shared source moves a and b equally: y gains the
     // full fault variance, d is untouched and stays independent of y. The check's chance to
-    // fire is the same with and without the fault, so dc = P(|d| > T) = the nuisance rate:
+    // fire is the same with and without the fault, so dc = P(|d| > T) = the false-alarm rate:
     // near zero by construction, whatever the fault.
     let sf = 1.2;
     let faults = format!(
@@ -243,9 +243,9 @@ fn stuck_channel_at_a_point_factorises() {
     );
 }
 
-/// One noisy channel and two equal constant ones (spread check, mean output) under a fault
+/// One noisy channel and two equal constant ones (range check, mean output) under a fault
 /// uniform over the full scale `[-50, 50]`: at amplitude `F` the noisy channel reads
-/// `x = F + n`, the mean is `x / 3` and the spread `|x|`. Averaged over `F`, `x` is uniform
+/// `x = F + n`, the mean is `x / 3` and the range `|x|`. Averaged over `F`, `x` is uniform
 /// convolved with a unit gaussian, whose density is `1/100` to within `Phi(-49)` everywhere
 /// near 0, so `P(|x| <= w) = 2 w / 100` (derived by hand). The figures: quiet and safe
 /// `|x| <= 0.01`, detected and safe `0.01 < |x| <= 0.03`, detected and violating the rest.
@@ -275,7 +275,7 @@ kind = "mean"
 of = ["c0", "c1", "c2"]
 
 [checks.k]
-kind = "spread"
+kind = "range"
 of = ["c0", "c1", "c2"]
 limit = 0.01
 

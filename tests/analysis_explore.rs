@@ -124,9 +124,9 @@ fn every_sweep_row_matches_the_closed_form() {
         let l = row.series.unwrap();
         let alarm = outside(sd_d(), t);
         assert_within(
-            &format!("nuisance alarm at T={t}, L={l}"),
-            row.nuisance_alarm.value,
-            row.nuisance_alarm.error,
+            &format!("false alarm at T={t}, L={l}"),
+            row.false_alarm.value,
+            row.false_alarm.error,
             alarm,
         );
         let p_vu = outside(sd_y(SF), l) * (1.0 - alarm);

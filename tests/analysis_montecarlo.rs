@@ -1,7 +1,7 @@
 //! The exact analysis against the independent Monte Carlo engine (`analysis::montecarlo`) on
 //! every example architecture, with a fixed seed.
 //!
-//! `tests/cli_analyze.rs` checks one example (`kestrel_swa2_mean.toml`) through the command
+//! `tests/cli_analyze.rs` checks one example (`plovrant_swa2_mean.toml`) through the command
 //! line; this file covers every example through the library, the baseline and every site.
 //! The sampler shares no numerical code with the exact engine (its own factorisation,
 //! Box-Muller normals, direct evaluation of output and checks); its intervals are Wilson
@@ -146,35 +146,35 @@ fn agrees_with_sampling(name: &str) {
 
 #[test]
 fn swa2_mean() {
-    agrees_with_sampling("kestrel_swa2_mean.toml");
+    agrees_with_sampling("plovrant_swa2_mean.toml");
 }
 
 #[test]
 fn swa2_plausibility() {
-    agrees_with_sampling("kestrel_swa2_plausibility.toml");
+    agrees_with_sampling("plovrant_swa2_plausibility.toml");
 }
 
 #[test]
 fn swa2_shared_ref() {
-    agrees_with_sampling("kestrel_swa2_shared_ref.toml");
+    agrees_with_sampling("plovrant_swa2_shared_ref.toml");
 }
 
 #[test]
 fn swa3_median() {
-    agrees_with_sampling("kestrel_swa3_median.toml");
+    agrees_with_sampling("plovrant_swa3_median.toml");
 }
 
 #[test]
 fn swa4_dual_pair() {
-    agrees_with_sampling("kestrel_swa4_dual_pair.toml");
+    agrees_with_sampling("plovrant_swa4_dual_pair.toml");
 }
 
-/// The cross-check can fail: the exact figures of `kestrel_swa2_mean.toml` against samples
+/// The cross-check can fail: the exact figures of `plovrant_swa2_mean.toml` against samples
 /// of the same file with the safety limit 10 % tighter (2.0 -> 1.8 deg) must disagree
 /// somewhere; if they did not, agreement above would say little.
 #[test]
 fn a_changed_model_is_caught() {
-    let name = "kestrel_swa2_mean.toml";
+    let name = "plovrant_swa2_mean.toml";
     let path = Path::new(env!("CARGO_MANIFEST_DIR"))
         .join("architectures")
         .join(name);
@@ -210,11 +210,11 @@ fn every_example_file_is_covered() {
     assert_eq!(
         found,
         [
-            "kestrel_swa2_mean.toml",
-            "kestrel_swa2_plausibility.toml",
-            "kestrel_swa2_shared_ref.toml",
-            "kestrel_swa3_median.toml",
-            "kestrel_swa4_dual_pair.toml",
+            "plovrant_swa2_mean.toml",
+            "plovrant_swa2_plausibility.toml",
+            "plovrant_swa2_shared_ref.toml",
+            "plovrant_swa3_median.toml",
+            "plovrant_swa4_dual_pair.toml",
         ],
         "add a test for the new example"
     );

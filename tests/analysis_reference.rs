@@ -204,23 +204,23 @@ fn common_cause_fault_is_not_covered_by_the_difference_check() {
     let arch = load_str(&case.toml, "common_cause.toml").unwrap();
     let a = analyze(&arch.model, &AnalysisOptions::default(), false).unwrap();
     let b = &a.baseline;
-    let nuisance = b.p_vd.value + b.p_sd.value;
+    let false_alarm = b.p_vd.value + b.p_sd.value;
     for site in &a.sites {
         let o = &site.outcome;
         let detected = o.p_vd.value + o.p_sd.value;
         assert!(
-            (detected - nuisance).abs()
+            (detected - false_alarm).abs()
                 <= o.p_vd.error + o.p_sd.error + b.p_vd.error + b.p_sd.error + 1e-12,
-            "{}: P(Det) {detected} differs from the baseline's {nuisance}",
+            "{}: P(Det) {detected} differs from the baseline's {false_alarm}",
             site.name
         );
         // dc = P(Det | V): with the check blind to the fault it stays at the order of the
-        // check's nuisance rate (baseline P(Det) = 1.85 % here, from the table), far from
+        // check's false-alarm rate (baseline P(Det) = 1.85 % here, from the table), far from
         // the coverage a difference check gives against a single-channel fault.
         let dc = o.dc().unwrap();
         assert!(
-            dc.value < 3.0 * nuisance,
-            "{}: dc {} not at the nuisance level {nuisance}",
+            dc.value < 3.0 * false_alarm,
+            "{}: dc {} not at the false-alarm level {false_alarm}",
             site.name,
             dc.value
         );
@@ -230,10 +230,12 @@ fn common_cause_fault_is_not_covered_by_the_difference_check() {
 #[test]
 fn a_frozen_channel_of_two_matches_mpmath_within_its_bound() {
     // tests/reference/frozen_channel_mpmath.py (mpmath 1.3.0, 30 digits): site b_frozen of
-    // kestrel_swa2_mean.toml, channel b frozen at F uniform on [-540, 540]. The closed form
+    // plovrant_swa2_mean.toml, channel b frozen at F uniform on [-540, 540]. The closed form
     // over the uniform shift (prob::shift_average) must sit within its bound of these.
-    let arch =
-        concord::model::load(std::path::Path::new("architectures/kestrel_swa2_mean.toml")).unwrap();
+    let arch = concord::model::load(std::path::Path::new(
+        "architectures/plovrant_swa2_mean.toml",
+    ))
+    .unwrap();
     let analysis = concord::analysis::analyze(
         &arch.model,
         &concord::analysis::AnalysisOptions::default(),

@@ -31,11 +31,11 @@ use concord::model::{Amplitude, Architecture, load_str_with_overrides};
 
 /// The example files; `every_example_file_is_listed` keeps this list complete.
 const EXAMPLES: [&str; 5] = [
-    "kestrel_swa2_mean.toml",
-    "kestrel_swa2_plausibility.toml",
-    "kestrel_swa2_shared_ref.toml",
-    "kestrel_swa3_median.toml",
-    "kestrel_swa4_dual_pair.toml",
+    "plovrant_swa2_mean.toml",
+    "plovrant_swa2_plausibility.toml",
+    "plovrant_swa2_shared_ref.toml",
+    "plovrant_swa3_median.toml",
+    "plovrant_swa4_dual_pair.toml",
 ];
 
 /// Scale of a tightened band (a 20 % tighter threshold).
@@ -287,7 +287,7 @@ fn unknown_spread_peaks_in_between(name: &str) {
             tiny.p_vu.value,
             baseline.p_vu.value
         );
-        // Both ends near 100 % (a design whose nuisance-free residual is below 1 %), and
+        // Both ends near 100 % (a design whose fault-free residual is below 1 %), and
         // the worst case lower than both by more than the bounds.
         for (end, o) in [(sigma_lo, &low), (sigma_hi, &high)] {
             let dc = o.dc_all_dangerous();
@@ -473,23 +473,23 @@ macro_rules! on_every_example {
         mod $fact {
             #[test]
             fn swa2_mean() {
-                super::$fact("kestrel_swa2_mean.toml");
+                super::$fact("plovrant_swa2_mean.toml");
             }
             #[test]
             fn swa2_plausibility() {
-                super::$fact("kestrel_swa2_plausibility.toml");
+                super::$fact("plovrant_swa2_plausibility.toml");
             }
             #[test]
             fn swa2_shared_ref() {
-                super::$fact("kestrel_swa2_shared_ref.toml");
+                super::$fact("plovrant_swa2_shared_ref.toml");
             }
             #[test]
             fn swa3_median() {
-                super::$fact("kestrel_swa3_median.toml");
+                super::$fact("plovrant_swa3_median.toml");
             }
             #[test]
             fn swa4_dual_pair() {
-                super::$fact("kestrel_swa4_dual_pair.toml");
+                super::$fact("plovrant_swa4_dual_pair.toml");
             }
         }
     };

@@ -7,7 +7,7 @@ use concord::analysis::{AnalysisOptions, analyze};
 use concord::model::load;
 use concord::report::json::AnalysisJson;
 
-const EXAMPLE: &str = "architectures/kestrel_swa2_mean.toml";
+const EXAMPLE: &str = "architectures/plovrant_swa2_mean.toml";
 
 fn concord(args: &[&str], threads: &str) -> std::process::Output {
     Command::new(env!("CARGO_BIN_EXE_concord"))

@@ -35,8 +35,12 @@ fn demo_writes_every_file_it_lists() {
     }
     for name in [
         "compare.txt",
-        "tune.txt",
-        "report-wren_dual_plausibility.html",
+        "tune-trubelka_2oo3_median.txt",
+        "tune-trubelka_2oo3_median.csv",
+        "tune-trubelka_2oo3_median.svg",
+        "report-trubelka_1oo2_difference.html",
+        "report-trubelka_1oo2_plausibility.html",
+        "report-trubelka_2oo3_median.html",
     ] {
         assert!(
             listed.iter().any(|p| p.ends_with(name)),

@@ -20,16 +20,16 @@ fn concord(args: &[&str], threads: &str) -> Vec<u8> {
 }
 
 const EXAMPLES: [&str; 4] = [
-    "architectures/kestrel_swa2_mean.toml",
-    "architectures/kestrel_swa2_plausibility.toml",
-    "architectures/kestrel_swa2_shared_ref.toml",
-    "architectures/kestrel_swa3_median.toml",
+    "architectures/plovrant_swa2_mean.toml",
+    "architectures/plovrant_swa2_plausibility.toml",
+    "architectures/plovrant_swa2_shared_ref.toml",
+    "architectures/plovrant_swa3_median.toml",
 ];
 
 #[test]
 fn exact_json_is_identical_for_one_and_two_threads() {
     for file in EXAMPLES {
-        let args = ["analyze", file, "--format", "json", "--curve"];
+        let args = ["analyze", file, "--format", "json", "--with-curves"];
         let one = concord(&args, "1");
         let two = concord(&args, "2");
         assert!(one == two, "{file}: output differs between 1 and 2 threads");
@@ -64,7 +64,7 @@ fn four_channel_json_is_identical_for_one_and_two_threads() {
     use concord::analysis::{AnalysisOptions, analyze};
     use concord::report::{ReportInput, json};
     let path = std::path::Path::new(env!("CARGO_MANIFEST_DIR"))
-        .join("architectures/kestrel_swa4_dual_pair.toml");
+        .join("architectures/plovrant_swa4_dual_pair.toml");
     let arch = concord::model::load(&path).expect("the example loads");
     let options = AnalysisOptions {
         polytope_abs: 1e-6,

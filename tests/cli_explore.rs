@@ -9,9 +9,9 @@ use std::process::Command;
 use concord::report::json::AnalysisJson;
 use serde_json::Value;
 
-const MEAN: &str = "architectures/kestrel_swa2_mean.toml";
-const PLAUSIBILITY: &str = "architectures/kestrel_swa2_plausibility.toml";
-const SHARED_REF: &str = "architectures/kestrel_swa2_shared_ref.toml";
+const MEAN: &str = "architectures/plovrant_swa2_mean.toml";
+const PLAUSIBILITY: &str = "architectures/plovrant_swa2_plausibility.toml";
+const SHARED_REF: &str = "architectures/plovrant_swa2_shared_ref.toml";
 
 fn concord(args: &[&str]) -> std::process::Output {
     Command::new(env!("CARGO_BIN_EXE_concord"))
@@ -41,6 +41,37 @@ fn analyze_json(path: &Path) -> AnalysisJson {
     serde_json::from_str(&ok(&out)).expect("the analyze JSON contract")
 }
 
+/// The data lines of a CSV text of sweep or tune, after checking that it opens with the
+/// comment block of the cautions (lines starting with `#`, the rule README.md states).
+fn csv_data_lines(text: &str) -> Vec<&str> {
+    let comments: Vec<&str> = text.lines().take_while(|l| l.starts_with('#')).collect();
+    let block = comments.join("\n");
+    for words in ["analyst remains responsible", "assessor", "estimates"] {
+        assert!(
+            block.contains(words),
+            "the CSV comment block lacks '{words}':\n{block}"
+        );
+    }
+    let data: Vec<&str> = text.lines().skip(comments.len()).collect();
+    assert!(
+        data.iter().all(|l| !l.starts_with('#')),
+        "comments only at the top"
+    );
+    data
+}
+
+/// The cautions of a JSON document of sweep, with the same three as `analyze`.
+fn assert_cautions(doc: &Value) {
+    let single = analyze_json(Path::new(MEAN));
+    let cautions: Vec<&str> = doc["cautions"]
+        .as_array()
+        .expect("a cautions field")
+        .iter()
+        .filter_map(Value::as_str)
+        .collect();
+    assert_eq!(cautions, single.cautions, "the same cautions as analyze");
+}
+
 fn value(v: &Value, key: &str) -> f64 {
     v[key]["value"].as_f64().unwrap_or(f64::NAN)
 }
@@ -57,6 +88,7 @@ fn sweep_rows_equal_analyze_on_files_edited_by_hand() {
         "json",
     ]);
     let doc: Value = serde_json::from_str(&ok(&out)).expect("the sweep JSON");
+    assert_cautions(&doc);
     let rows = doc["rows"].as_array().unwrap();
     assert_eq!(rows.len(), 3);
     let original = std::fs::read_to_string(MEAN).unwrap();
@@ -69,9 +101,9 @@ fn sweep_rows_equal_analyze_on_files_edited_by_hand() {
         let single = analyze_json(&path);
         assert_eq!(row["x"].as_f64().unwrap(), limit.parse::<f64>().unwrap());
         assert_eq!(
-            value(row, "nuisance_alarm"),
-            single.baseline.nuisance_alarm,
-            "nuisance alarm at {limit}"
+            value(row, "false_alarm"),
+            single.baseline.false_alarm,
+            "false alarm at {limit}"
         );
         assert_eq!(value(row, "residual_fit"), single.metrics.residual_fit);
         assert_eq!(value(row, "spfm"), single.metrics.spfm);
@@ -101,9 +133,9 @@ fn a_long_sweep_streams_every_row_as_csv_in_order() {
         "checks.ab.limit=2,3",
     ]);
     let text = ok(&out);
-    let lines: Vec<&str> = text.lines().collect();
+    let lines = csv_data_lines(&text);
     assert_eq!(lines.len(), 801, "header and 800 rows");
-    assert!(lines[0].starts_with("safety.limit,checks.ab.limit,nuisance_alarm,"));
+    assert!(lines[0].starts_with("safety.limit,checks.ab.limit,false_alarm,"));
     assert!(lines[1].starts_with("1e0,2e0,"));
     assert!(lines[400].starts_with("4e0,2e0,"));
     assert!(lines[401].starts_with("1e0,3e0,"));
@@ -158,9 +190,14 @@ fn plots_are_well_formed_svg_with_their_series_and_levels() {
         spread.to_str().unwrap(),
     ]);
     let csv = ok(&out);
-    assert_eq!(csv.lines().count(), 41);
+    assert_eq!(csv_data_lines(&csv).len(), 41);
     let svg = parse_svg(&spread);
-    for label in ["dc_all_dangerous = 1 - p_vu", "worst case", "high DC 99 %"] {
+    for label in [
+        "dc_all_dangerous = 1 - p_vu",
+        "worst case",
+        "high DC 99 %",
+        "analyst remains responsible",
+    ] {
         assert!(svg.contains(label), "spread plot lacks {label}");
     }
 
@@ -173,14 +210,37 @@ fn plots_are_well_formed_svg_with_their_series_and_levels() {
         "95%",
         "--plot",
         tune.to_str().unwrap(),
-        "--curve",
+        "--curve-csv",
         curve.to_str().unwrap(),
     ]));
     let svg = parse_svg(&tune);
     assert!(svg.contains("chosen: checks.ab.limit"));
     assert!(svg.contains("target 95 %"));
+    assert!(svg.contains("analyst remains responsible"));
     let rows = std::fs::read_to_string(&curve).unwrap();
-    assert_eq!(rows.lines().count(), 42, "header and 41 curve points");
+    assert_eq!(
+        csv_data_lines(&rows).len(),
+        42,
+        "header and 41 curve points"
+    );
+}
+
+#[test]
+fn every_csv_output_opens_with_the_cautions() {
+    let analyze = ok(&concord(&["analyze", MEAN, "--format", "csv"]));
+    let rows = csv_data_lines(&analyze);
+    assert!(rows[0].starts_with("scenario,fit,mode,"), "{}", rows[0]);
+    assert!(rows[1].starts_with("baseline,"));
+    let compared = ok(&concord(&[
+        "compare",
+        MEAN,
+        PLAUSIBILITY,
+        "--format",
+        "csv",
+    ]));
+    let rows = csv_data_lines(&compared);
+    assert!(rows[0].starts_with("architecture,file,channels,output_channels,checks,"));
+    assert_eq!(rows.len(), 3, "header and two architectures");
 }
 
 #[test]
@@ -191,6 +251,7 @@ fn the_spread_worst_case_equals_analyze_over_the_same_range() {
     let site = single.sites.iter().find(|s| s.name == "a_drift").unwrap();
     let out = concord(&["sweep", MEAN, "--spread", "a_drift", "--format", "json"]);
     let doc: Value = serde_json::from_str(&ok(&out)).unwrap();
+    assert_cautions(&doc);
     assert_eq!(doc["worst"]["sigma"].as_f64(), site.worst_sigma);
     assert_eq!(value(&doc["worst"], "p_vu"), site.p_vu);
 }
@@ -220,7 +281,24 @@ fn compare_prints_the_numbers_of_analyze() {
         last = residual;
         assert_eq!(value(&row["metrics"], "spfm"), single.metrics.spfm);
         assert_eq!(value(&row["metrics"], "lfm"), single.metrics.lfm);
-        assert_eq!(value(row, "nuisance_alarm"), single.baseline.nuisance_alarm);
+        assert_eq!(value(row, "false_alarm"), single.baseline.false_alarm);
+        // The channels the output uses, counted from the file's [output] `of` as written
+        // (these outputs read channels directly, no derived signals), and every channel.
+        let file: toml::Table = std::fs::read_to_string(path).unwrap().parse().unwrap();
+        let of = &file["output"]["of"];
+        let named = of
+            .as_array()
+            .map(Vec::len)
+            .or_else(|| of.as_table().map(toml::Table::len))
+            .unwrap_or(1);
+        assert_eq!(
+            row["output_channels"].as_u64(),
+            Some(named as u64),
+            "{path}"
+        );
+        let declared = file["channels"].as_table().unwrap().len();
+        assert_eq!(row["channels"].as_u64(), Some(declared as u64), "{path}");
+        assert!(row["cells"].as_u64().is_some(), "cells stays in the JSON");
         for (s, j) in row["sites"].as_array().unwrap().iter().zip(&single.sites) {
             assert_eq!(s["name"].as_str().unwrap(), j.name);
             assert_eq!(s["dc"]["value"].as_f64(), j.dc, "{path} {}", j.name);
@@ -240,7 +318,17 @@ fn compare_prints_the_numbers_of_analyze() {
         "one figure per file: {}",
         rows[0]
     );
-    assert!(table.contains("Kestrel SWA-2P"));
+    assert!(table.contains("Plovrant SWA-2P"));
+    // The internal count of cells is in the JSON only; the words are the README's.
+    let head = table
+        .lines()
+        .find(|l| l.contains("architecture"))
+        .expect("a header line");
+    assert!(!head.contains("cells"), "{head}");
+    for word in ["channels", "false alarm", "time s"] {
+        assert!(head.contains(word), "{word} missing: {head}");
+    }
+    assert!(!table.contains("nuisance"));
 }
 
 #[test]

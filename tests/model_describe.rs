@@ -51,7 +51,7 @@ fn summary_fits_in_100_columns_and_names_everything() {
 fn summary_shows_total_sigma_and_induced_correlation() {
     let a = examples()
         .into_iter()
-        .find(|a| a.path.ends_with("kestrel_swa2_shared_ref.toml"))
+        .find(|a| a.path.ends_with("plovrant_swa2_shared_ref.toml"))
         .expect("example present");
     let s = model::describe(&a);
     // total sigma of ch_a: sqrt(0.2425) = 0.49244...; correlation 0.036 / sqrt(0.2425 * 0.2349)

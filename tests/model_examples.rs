@@ -62,7 +62,7 @@ fn every_example_file_loads_without_warnings() {
 
 #[test]
 fn swa2_mean_two_channels_averaged() {
-    let a = load("kestrel_swa2_mean.toml");
+    let a = load("plovrant_swa2_mean.toml");
     // No sources: mean = own means.
     // cov = D R D: 0.50^2 = 0.25; 0.55^2 = 0.3025; 0.1 * 0.50 * 0.55 = 0.0275.
     assert_model(&a, &[0.15, -0.10], &[&[0.25, 0.0275], &[0.0275, 0.3025]]);
@@ -117,7 +117,7 @@ fn swa2_mean_two_channels_averaged() {
 
 #[test]
 fn swa3_median_with_shared_temperature() {
-    let a = load("kestrel_swa3_median.toml");
+    let a = load("plovrant_swa3_median.toml");
     // Source die_temp: mean 0, sigma 0.2 (variance 0.04), gains G = (1, 1, -0.5).
     // mean = own means + G * 0 = (0.10, -0.05, 0.0).
     // aa = 0.5^2 + 1 * 1 * 0.04 = 0.29;            bb likewise 0.29
@@ -177,7 +177,7 @@ fn swa3_median_with_shared_temperature() {
 
 #[test]
 fn swa2_plausibility_with_model_estimate() {
-    let a = load("kestrel_swa2_plausibility.toml");
+    let a = load("plovrant_swa2_plausibility.toml");
     // No sources. aa = bb = 0.6^2 = 0.36; ab = 0.2 * 0.6 * 0.6 = 0.072; est: 3^2 = 9.
     assert_model(
         &a,
@@ -203,7 +203,7 @@ fn swa2_plausibility_with_model_estimate() {
 
 #[test]
 fn swa2_shared_reference_common_cause() {
-    let a = load("kestrel_swa2_shared_ref.toml");
+    let a = load("plovrant_swa2_shared_ref.toml");
     // Source vref: mean 0.05, sigma 0.2 (variance 0.04); gains G = (1.0, 0.9).
     // mean = (0.1 + 1.0 * 0.05, 0.0 + 0.9 * 0.05) = (0.15, 0.045)
     // aa = 0.45^2 + 1.0^2 * 0.04 = 0.2025 + 0.04 = 0.2425
@@ -230,7 +230,7 @@ fn swa2_shared_reference_common_cause() {
 
 #[test]
 fn swa4_dual_pair_median_of_four() {
-    let a = load("kestrel_swa4_dual_pair.toml");
+    let a = load("plovrant_swa4_dual_pair.toml");
     // Sources temp_p1, temp_p2: sigma 0.15 (variance 0.0225), each feeding its package.
     // diagonal: 0.4^2 + 0.0225 = 0.16 + 0.0225 = 0.1825
     // same package: 0.5 * 0.4 * 0.4 + 0.0225 = 0.08 + 0.0225 = 0.1025; across: 0.

@@ -492,7 +492,7 @@ prop_compose! {
             _ => t.push_str(&format!("of = [{}]\n", quoted.join(", "))),
         }
         t.push('\n');
-        let check_kinds = ["difference", "spread", "from_output", "linear"];
+        let check_kinds = ["difference", "range", "from_output", "linear"];
         let ck = check_kinds[check_kind];
         t.push_str(&format!("[checks.k]\nkind = \"{ck}\"\n"));
         match ck {

@@ -17,7 +17,7 @@ fn ov(list: &[(&str, f64)]) -> Vec<(String, f64)> {
 
 #[test]
 fn overrides_change_the_compiled_model() {
-    let t = text("kestrel_swa2_mean.toml");
+    let t = text("plovrant_swa2_mean.toml");
     let a = model::load_str_with_overrides(
         &t,
         "swa2.toml",
@@ -51,7 +51,7 @@ fn overrides_change_the_compiled_model() {
 
 #[test]
 fn an_integer_key_takes_an_integral_override() {
-    let t = text("kestrel_swa3_median.toml");
+    let t = text("plovrant_swa3_median.toml");
     let a =
         model::load_str_with_overrides(&t, "swa3.toml", &ov(&[("detection.fires.at_least", 1.0)]))
             .unwrap_or_else(|e| panic!("{e}"));
@@ -60,7 +60,7 @@ fn an_integer_key_takes_an_integral_override() {
 
 #[test]
 fn unknown_paths_are_errors_naming_them() {
-    let t = text("kestrel_swa2_mean.toml");
+    let t = text("plovrant_swa2_mean.toml");
     let err = model::load_str_with_overrides(
         &t,
         "swa2.toml",
@@ -89,7 +89,7 @@ fn unknown_paths_are_errors_naming_them() {
 
 #[test]
 fn an_invalid_override_is_reported_as_one() {
-    let t = text("kestrel_swa2_mean.toml");
+    let t = text("plovrant_swa2_mean.toml");
     let err = model::load_str_with_overrides(&t, "swa2.toml", &ov(&[("safety.limit", -1.0)]))
         .expect_err("a negative limit is rejected");
     let d = &err.diagnostics()[0];

@@ -1,7 +1,7 @@
 //! Property tests of the compiled piecewise-linear functions: on random architectures
 //! (random channels, derived signals over channels and other signals, every output kind and
 //! every check kind), the compiled output, checks and signals agree with a direct evaluation
-//! of the definitions written here independently (sorting for median, min, max and spread),
+//! of the definitions written here independently (sorting for median, min, max and range),
 //! and every point, including points with exact ties, lies in exactly one piece.
 
 use concord::model::{self, Guard, PiecewiseLinear};
@@ -51,7 +51,7 @@ enum Stat {
     Median,
     Min,
     Max,
-    Spread,
+    Range,
 }
 
 /// A function of readings; reading r < n is channel r, r >= n is signal r - n.
@@ -129,10 +129,7 @@ fn random_spec(seed: u64, n: usize) -> Spec {
                 let v = g.distinct(pool, 2);
                 ("difference".into(), Def::Difference(v[0], v[1]))
             }
-            1 => (
-                "spread".into(),
-                Def::Order(Stat::Spread, g.some(pool, 2, 2)),
-            ),
+            1 => ("range".into(), Def::Order(Stat::Range, g.some(pool, 2, 2))),
             2 => ("from_output".into(), Def::FromOutput(g.below(pool))),
             _ => {
                 let terms = g.terms(pool);
@@ -181,7 +178,7 @@ fn def_toml(n: usize, kind: &str, d: &Def) -> String {
                 Stat::Median => "median",
                 Stat::Min => "min",
                 Stat::Max => "max",
-                Stat::Spread => "spread",
+                Stat::Range => "range",
             };
             format!("kind = \"{k}\"\nof = [{}]\n", names(n, rs))
         }
@@ -244,7 +241,7 @@ impl Direct<'_> {
                 match s {
                     Stat::Min => v[0],
                     Stat::Max => v[k - 1],
-                    Stat::Spread => v[k - 1] - v[0],
+                    Stat::Range => v[k - 1] - v[0],
                     Stat::Median if k % 2 == 1 => v[k / 2],
                     Stat::Median => 0.5 * (v[k / 2 - 1] + v[k / 2]),
                 }
@@ -338,8 +335,8 @@ proptest! {
 
 #[test]
 fn order_statistics_over_the_same_channels_share_guards_whatever_the_order_written() {
-    // median over [a, b, c] and spread over [c, a, b]: each median piece is compatible with
-    // exactly one spread piece (same guards); every other pair holds a guard and its negation.
+    // median over [a, b, c] and range over [c, a, b]: each median piece is compatible with
+    // exactly one range piece (same guards); every other pair holds a guard and its negation.
     let text = r#"
 name = "tie-break"
 unit = "u"
@@ -353,7 +350,7 @@ sigma = 1.0
 kind = "median"
 of = ["a", "b", "c"]
 [checks.s]
-kind = "spread"
+kind = "range"
 of = ["c", "a", "b"]
 limit = 1.0
 [safety]
@@ -361,12 +358,12 @@ limit = 1.0
 "#;
     let a = model::load_str(text, "t.toml").unwrap_or_else(|e| panic!("{e}"));
     let out = &a.model.output;
-    let spread = &a.model.checks[0].function;
+    let range = &a.model.checks[0].function;
     assert_eq!(out.pieces.len(), 6);
-    assert_eq!(spread.pieces.len(), 6);
+    assert_eq!(range.pieces.len(), 6);
     for p in &out.pieces {
         let mut same = 0;
-        for q in &spread.pieces {
+        for q in &range.pieces {
             let contradict = p
                 .guards
                 .iter()

@@ -8,7 +8,7 @@ use std::process::Command;
 use concord::report::html::SECTIONS;
 use serde_json::Value;
 
-const EXAMPLES: [&str; 2] = ["kestrel_swa2_mean", "kestrel_swa2_shared_ref"];
+const EXAMPLES: [&str; 2] = ["plovrant_swa2_mean", "plovrant_swa2_shared_ref"];
 const SAMPLES: &str = "20000";
 const SEED: &str = "7";
 
@@ -60,7 +60,7 @@ fn analysis_json(name: &str) -> Value {
         file.to_str().expect("utf-8 path"),
         "--format",
         "json",
-        "--curve",
+        "--with-curves",
         "--verify",
         SAMPLES,
         "--seed",
@@ -237,16 +237,56 @@ fn report_is_well_formed_complete_and_agrees_with_the_json() {
             .count();
         assert_eq!(charts, 2 * unknown, "{name}");
         assert!(text.contains("DC, all dangerous = 1 − p_vu"));
+
+        // The marks of section 8 judge value minus error bound, as the JSON does. Targets of
+        // ISO 26262-5:2018 Tables 4 and 5, recalled, not checked against the published text:
+        // SPFM >= 90 / 97 / 99 %, LFM >= 60 / 80 / 90 % for ASIL B / C / D.
+        let table = doc
+            .descendants()
+            .find(|n| n.has_tag_name("table") && n.attribute("class") == Some("wide metrics"))
+            .unwrap_or_else(|| panic!("{name}: no metrics table"));
+        for (row, key, targets) in [
+            ("SPFM", "spfm", [0.90, 0.97, 0.99]),
+            ("LFM", "lfm", [0.60, 0.80, 0.90]),
+        ] {
+            let tr = table
+                .descendants()
+                .filter(|n| n.has_tag_name("tr"))
+                .find(|n| {
+                    n.children()
+                        .find(|c| c.has_tag_name("th"))
+                        .is_some_and(|th| all_text(th) == row)
+                })
+                .unwrap_or_else(|| panic!("{name}: no {row} row"));
+            let cells: Vec<String> = tr
+                .children()
+                .filter(|c| c.has_tag_name("td"))
+                .map(all_text)
+                .collect();
+            let value = json["metrics"][key].as_f64().expect("metric");
+            let error = json["metrics"]["error"][key].as_f64().expect("bound");
+            for (i, target) in targets.iter().enumerate() {
+                let met = value - error >= *target;
+                let mark = cells[1 + i].trim_start();
+                assert_eq!(mark.starts_with('✓'), met, "{name}: {row} {target}: {mark}");
+                assert_eq!(
+                    mark.starts_with('✗'),
+                    !met,
+                    "{name}: {row} {target}: {mark}"
+                );
+            }
+        }
+        assert!(text.contains("value minus its error bound"));
     }
 }
 
 #[test]
 fn same_input_and_date_give_the_same_bytes() {
-    let a = report("kestrel_swa2_mean", "2026-01-02");
-    let b = report("kestrel_swa2_mean", "2026-01-02");
+    let a = report("plovrant_swa2_mean", "2026-01-02");
+    let b = report("plovrant_swa2_mean", "2026-01-02");
     assert_eq!(a, b);
     assert!(a.contains("2026-01-02"));
-    let c = report("kestrel_swa2_mean", "2026-01-03");
+    let c = report("plovrant_swa2_mean", "2026-01-03");
     assert_ne!(a, c);
 }
 
@@ -255,7 +295,7 @@ fn source_date_epoch_sets_the_date_and_bad_dates_are_input_errors() {
     let dir = std::env::temp_dir().join(format!("concord-report-epoch-{}", std::process::id()));
     std::fs::create_dir_all(&dir).expect("temp dir");
     let out = dir.join("r.html");
-    let file = example("kestrel_swa2_mean");
+    let file = example("plovrant_swa2_mean");
     let run = Command::new(env!("CARGO_BIN_EXE_concord"))
         .args([
             "report",

@@ -1,6 +1,6 @@
 //! Architectures side by side: the same exact analysis run on several files, reduced to the
 //! figures a design choice turns on (coverage per fault site, residual rate, metrics, the
-//! false-alarm price) and the cost of computing them.
+//! false-alarm price) and the time it took to compute them.
 
 use std::time::Instant;
 
@@ -22,8 +22,12 @@ pub struct ArchitectureSummary {
     pub name: String,
     /// The file as given.
     pub path: String,
-    /// Number of channels.
+    /// Number of channels of the file (those the output uses and those only checks read, such
+    /// as a model estimate).
     pub channels: usize,
+    /// Number of channels the output uses: the measuring hardware the architecture votes or
+    /// averages over.
+    pub output_channels: usize,
     /// Number of checks.
     pub checks: usize,
     /// Every fault site, in file order.
@@ -31,7 +35,7 @@ pub struct ArchitectureSummary {
     /// The hardware metrics.
     pub metrics: Metrics,
     /// Fault-free alarm probability (`p_vd + p_sd` of the baseline).
-    pub nuisance_alarm: Estimate,
+    pub false_alarm: Estimate,
     /// Linear cells of the decomposition (a measure of the work, independent of the machine).
     pub cells: usize,
     /// Wall-clock seconds of the analysis on this machine (not reproducible bit for bit).
@@ -76,13 +80,30 @@ pub fn summarise(
         name: arch.model.name.clone(),
         path: arch.path.clone(),
         channels: arch.model.channels.len(),
+        output_channels: output_channels(arch),
         checks: arch.model.checks.len(),
         sites: analysis.sites.iter().map(SiteSummary::of).collect(),
         metrics: analysis.metrics,
-        nuisance_alarm: analysis.baseline.alarm(),
+        false_alarm: analysis.baseline.alarm(),
         cells: analysis.cells,
         seconds,
     })
+}
+
+/// The channels with a nonzero coefficient in some piece of the output (its values or its
+/// guards): for a median of three, all three, though each piece takes one.
+fn output_channels(arch: &Architecture) -> usize {
+    let m = &arch.model;
+    (0..m.channels.len())
+        .filter(|&j| {
+            m.output.pieces.iter().any(|p| {
+                p.value.coeffs.get(j).is_some_and(|c| *c != 0.0)
+                    || p.guards
+                        .iter()
+                        .any(|g| g.form.coeffs.get(j).is_some_and(|c| *c != 0.0))
+            })
+        })
+        .count()
 }
 
 /// The fault-site names of a comparison: every name in the order first met, so that sites

@@ -32,6 +32,20 @@ pub enum AnalysisError {
         /// What the input needs.
         found: usize,
     },
+    /// A sweep asks for more points than it may run.
+    #[error(
+        "{what} has {found} points, more than the limit of {limit}; use fewer points \
+         (a smaller --points, fewer values in --vary or --series, or split the range into \
+         several sweeps)"
+    )]
+    TooManyPoints {
+        /// Which sweep, e.g. `the sweep grid`.
+        what: String,
+        /// The limit.
+        limit: usize,
+        /// The points asked for.
+        found: usize,
+    },
     /// The architecture, with the values a sweep or a tuning set in it, is not valid.
     #[error("{context}:\n{source}")]
     Model {

@@ -1,7 +1,8 @@
 //! Hardware metrics from per-site figures: residual and latent rates, SPFM, LFM, SFF and the
 //! ASIL targets they meet (ISO 26262-5:2018 clauses 8 and 9, Tables 4 to 6; IEC 61508-2
-//! Annex C for the SFF). The targets below are from memory and must be checked against the
-//! standard in force; the analyst remains responsible for the classification.
+//! Annex C for the SFF). The targets below are recalled, not checked against the published
+//! text: check them against the standard in force; the analyst remains responsible for the
+//! classification.
 
 use serde::Serialize;
 
@@ -52,32 +53,44 @@ impl Asil {
     }
 }
 
-/// SPFM targets for ASIL B, C, D: ISO 26262-5:2018 Table 4 (from memory): >= 90 / 97 / 99 %.
+/// SPFM targets for ASIL B, C, D: ISO 26262-5:2018 Table 4 (recalled, not checked
+/// against the published text): >= 90 / 97 / 99 %.
 pub const SPFM_TARGETS: [(Asil, f64); 3] = [(Asil::D, 0.99), (Asil::C, 0.97), (Asil::B, 0.90)];
-/// LFM targets for ASIL B, C, D: ISO 26262-5:2018 Table 5 (from memory): >= 60 / 80 / 90 %.
+/// LFM targets for ASIL B, C, D: ISO 26262-5:2018 Table 5 (recalled, not checked
+/// against the published text): >= 60 / 80 / 90 %.
 pub const LFM_TARGETS: [(Asil, f64); 3] = [(Asil::D, 0.90), (Asil::C, 0.80), (Asil::B, 0.60)];
-/// Residual-rate targets (the PMHF budget) for ASIL B, C, D: ISO 26262-5:2018 Table 6 (from
-/// memory): < 100 FIT for B and C, < 10 FIT for D.
+/// Residual-rate targets (the PMHF budget) for ASIL B, C, D: ISO 26262-5:2018 Table 6
+/// (recalled, not checked against the published text): < 100 FIT for B and C, < 10 FIT for D.
 pub const PMHF_TARGETS_FIT: [(Asil, f64); 3] =
     [(Asil::D, 10.0), (Asil::C, 100.0), (Asil::B, 100.0)];
 
-/// The highest ASIL whose lower-bound target `value` meets, judged on the pessimistic end of
-/// its bound (value minus error), so that numerical error never lifts a design a level.
+/// The one pass rule of every output (tables, JSON, compare, the report's marks and tiles): a
+/// lower-bound target (SPFM, LFM) is met when the value minus its error bound reaches it; an
+/// upper limit (the residual rate in FIT) when the value plus its error bound stays below it.
+/// So numerical error never lifts a design a level.
+pub fn meets_minimum(value: Estimate, target: f64) -> bool {
+    value.value - value.error >= target
+}
+
+/// The upper-limit side of the pass rule of [`meets_minimum`]: value plus error below `target`.
+pub fn meets_maximum(value: Estimate, target: f64) -> bool {
+    value.value + value.error < target
+}
+
+/// The highest ASIL whose lower-bound target `value` meets by [`meets_minimum`].
 pub fn asil_for_minimum(value: Estimate, targets: &[(Asil, f64)]) -> Asil {
-    let pessimistic = value.value - value.error;
     targets
         .iter()
-        .find(|(_, t)| pessimistic >= *t)
+        .find(|(_, t)| meets_minimum(value, *t))
         .map_or(Asil::Qm, |(a, _)| *a)
 }
 
-/// The highest ASIL whose upper-limit target (in FIT) `value` stays below, judged on the
-/// pessimistic end (value plus error).
+/// The highest ASIL whose upper-limit target (in FIT) `value` stays below by
+/// [`meets_maximum`].
 pub fn asil_for_maximum(value: Estimate, targets: &[(Asil, f64)]) -> Asil {
-    let pessimistic = value.value + value.error;
     targets
         .iter()
-        .find(|(_, t)| pessimistic < *t)
+        .find(|(_, t)| meets_maximum(value, *t))
         .map_or(Asil::Qm, |(a, _)| *a)
 }
 

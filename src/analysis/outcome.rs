@@ -93,7 +93,7 @@ impl Outcome {
     }
 
     /// Probability that the checks detect, `p_vd + p_sd` (for the baseline: the
-    /// nuisance-alarm probability).
+    /// false-alarm probability).
     pub fn alarm(&self) -> Estimate {
         self.p_vd.add(self.p_sd)
     }

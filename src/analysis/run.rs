@@ -16,8 +16,8 @@ use super::site::{SiteResult, analyze_site};
 /// The result of analysing one architecture.
 #[derive(Debug, Clone, PartialEq)]
 pub struct Analysis {
-    /// Fault-free figures: `p_sd + p_vd` is the nuisance-alarm probability, `p_vd + p_vu` the
-    /// intrinsic violation probability.
+    /// Fault-free figures: `p_sd + p_vd` is the false-alarm probability, `p_vd + p_vu` the
+    /// fault-free violation probability.
     pub baseline: Outcome,
     /// One result per fault site, in file order.
     pub sites: Vec<SiteResult>,

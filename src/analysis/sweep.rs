@@ -147,9 +147,8 @@ fn check_ends(key: &str, from: f64, to: f64, points: usize) -> Result<(), Analys
 
 fn check_count(key: &str, points: usize) -> Result<(), AnalysisError> {
     if points > MAX_SWEEP_POINTS {
-        return Err(AnalysisError::TooLarge {
+        return Err(AnalysisError::TooManyPoints {
             what: format!("the sweep of {key}"),
-            unit: "points",
             limit: MAX_SWEEP_POINTS,
             found: points,
         });
@@ -172,7 +171,7 @@ impl SweepPlan {
     /// the same key.
     ///
     /// # Errors
-    /// [`AnalysisError::TooLarge`] or [`AnalysisError::InvalidOption`].
+    /// [`AnalysisError::TooManyPoints`] or [`AnalysisError::InvalidOption`].
     pub fn new(vary: Axis, series: Option<Axis>) -> Result<Self, AnalysisError> {
         let plan = Self { vary, series };
         if let Some(s) = plan.series.as_ref().filter(|s| s.key == plan.vary.key) {
@@ -187,9 +186,8 @@ impl SweepPlan {
             .len()
             .saturating_mul(plan.series.as_ref().map_or(1, |s| s.values.len()));
         if total > MAX_SWEEP_POINTS {
-            return Err(AnalysisError::TooLarge {
+            return Err(AnalysisError::TooManyPoints {
                 what: "the sweep grid".into(),
-                unit: "points",
                 limit: MAX_SWEEP_POINTS,
                 found: total,
             });
@@ -268,7 +266,7 @@ pub struct SweepRow {
     /// The series value, if the plan has series.
     pub series: Option<f64>,
     /// Fault-free alarm probability `p_vd + p_sd` of the baseline (the false-alarm price).
-    pub nuisance_alarm: Estimate,
+    pub false_alarm: Estimate,
     /// Residual rate, FIT.
     pub residual_fit: Estimate,
     /// Single-point fault metric.
@@ -290,7 +288,7 @@ impl SweepRow {
             index,
             x,
             series,
-            nuisance_alarm: analysis.baseline.alarm(),
+            false_alarm: analysis.baseline.alarm(),
             residual_fit: analysis.metrics.residual_fit,
             spfm: analysis.metrics.spfm,
             lfm: analysis.metrics.lfm,
@@ -580,8 +578,11 @@ mod tests {
         let other = Axis::linear("b", 0.0, 1.0, 1000).unwrap();
         let e = SweepPlan::new(big, Some(other)).unwrap_err();
         assert!(e.to_string().contains("1000000"), "{e}");
+        assert!(e.to_string().contains("use fewer points"), "{e}");
+        assert!(!e.to_string().contains("simplify"), "{e}");
         let e = Axis::linear("a", 0.0, 1.0, MAX_SWEEP_POINTS + 1).unwrap_err();
         assert!(e.to_string().contains("limit"), "{e}");
+        assert!(e.to_string().contains("use fewer points"), "{e}");
     }
 
     #[test]

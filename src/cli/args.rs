@@ -21,7 +21,7 @@ pub enum Command {
     /// Compute the coverage figures of every fault site, the baseline and the metrics.
     Analyze(AnalyzeArgs),
     /// Run the built-in validation suite against outside references and print the
-    /// qualification summary (exit code 1 when any case fails).
+    /// validation summary (exit code 1 when any case fails).
     Selftest(SelftestArgs),
     /// Repeat the analysis over a range of one key of the file (and series of a second), or
     /// follow one fault site over the spread of its amplitude.
@@ -88,7 +88,7 @@ pub struct AnalyzeArgs {
     #[arg(long, value_name = "N")]
     pub verify: Option<u64>,
     /// Include the whole curve over sigma of every site with unknown spread (JSON).
-    #[arg(long)]
+    #[arg(long = "with-curves")]
     pub curve: bool,
 }
 
@@ -242,7 +242,7 @@ pub struct TuneArgs {
     #[arg(long, value_enum, default_value = "text")]
     pub format: TuneFormat,
     /// Write the trade-off curve (coverage against false alarm) as CSV to FILE.
-    #[arg(long, value_name = "FILE")]
+    #[arg(long = "curve-csv", value_name = "FILE")]
     pub curve: Option<PathBuf>,
     /// Draw the trade-off curve as an SVG picture in FILE.
     #[arg(long, value_name = "FILE")]
@@ -254,7 +254,7 @@ pub struct TuneArgs {
 pub enum CompareColumn {
     /// Architecture name.
     Name,
-    /// Number of channels.
+    /// Number of channels the output uses (fewest first).
     Channels,
     /// Lowest coverage over the sites (highest first).
     Coverage,
@@ -264,7 +264,7 @@ pub enum CompareColumn {
     Spfm,
     /// LFM (highest first).
     Lfm,
-    /// Nuisance-alarm probability (lowest first).
+    /// False-alarm probability (lowest first).
     Alarm,
     /// Wall-clock seconds of the analysis (lowest first).
     Seconds,

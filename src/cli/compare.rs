@@ -30,13 +30,13 @@ pub fn run(args: &CompareArgs) -> Result<String, Failure> {
     }
 }
 
-/// Sorts best first (highest coverage and metrics, lowest rates and costs); ties keep the
-/// order of the files.
+/// Sorts best first (highest coverage and metrics, lowest rates, probabilities and times);
+/// ties keep the order of the files.
 fn sort(rows: &mut [ArchitectureSummary], column: CompareColumn, all_dangerous: bool) {
     let low = |r: &ArchitectureSummary| r.lowest_coverage(all_dangerous).map_or(1.0, |e| e.value);
     match column {
         CompareColumn::Name => rows.sort_by(|a, b| a.name.cmp(&b.name)),
-        CompareColumn::Channels => rows.sort_by_key(|r| r.channels),
+        CompareColumn::Channels => rows.sort_by_key(|r| r.output_channels),
         CompareColumn::Coverage => rows.sort_by(|a, b| low(b).total_cmp(&low(a))),
         CompareColumn::ResidualFit => rows.sort_by(|a, b| {
             a.metrics
@@ -51,7 +51,7 @@ fn sort(rows: &mut [ArchitectureSummary], column: CompareColumn, all_dangerous: 
             rows.sort_by(|a, b| b.metrics.lfm.value.total_cmp(&a.metrics.lfm.value))
         }
         CompareColumn::Alarm => {
-            rows.sort_by(|a, b| a.nuisance_alarm.value.total_cmp(&b.nuisance_alarm.value))
+            rows.sort_by(|a, b| a.false_alarm.value.total_cmp(&b.false_alarm.value))
         }
         CompareColumn::Seconds => rows.sort_by(|a, b| a.seconds.total_cmp(&b.seconds)),
     }

@@ -1,27 +1,55 @@
-//! `concord demo [--out DIR]`: the bundled invented scenario (demo/, the Wren brake-pedal
-//! travel sensor) run end to end into a folder: each candidate architecture analysed, the
-//! candidates compared, the comparator bands tuned to a coverage target, and one HTML report
-//! per candidate. Prints what it wrote. demo/README.md walks a new user through the output.
+//! `concord demo [--out DIR]`: the bundled invented scenario (demo/, the Trubelka brake-pedal
+//! travel sensor) run end to end into a folder: three candidate architectures (1oo2 with a
+//! difference check, 1oo2 with a plausibility check against a model estimate, 2oo3 with a
+//! median vote) analysed, compared, their comparator bands tuned to a coverage target on the
+//! common-cause fault, and one HTML report per candidate. Prints what it wrote and the trade
+//! in one screen. demo/README.md walks a new user through the output.
 //!
 //! Each step is one call of a command's `run` (or of [`super::report::build`]) with the
-//! arguments a user would type, so that the demo shows exactly what the commands do.
+//! arguments a user would type, so that the demo shows exactly what the commands do; the
+//! tuning calls the functions behind `concord tune` itself, so that its result also feeds
+//! the summary.
 
+use std::fmt::Write as _;
 use std::path::{Path, PathBuf};
 
-use super::args::{AnalyzeArgs, CompareArgs, CoverageArg, Format, Method, TuneArgs, TuneFormat};
-use super::{Failure, analyze, compare, report, tune};
+use crate::analysis::AnalysisOptions;
+use crate::analysis::tune::{CoverageFigure, TuneRequest, TuneResult, tune};
+use crate::report::format::probability;
+use crate::report::tune::{curve_csv, summary, trade_off_svg};
+
+use super::args::{AnalyzeArgs, CompareArgs, CoverageArg, Format, Method};
+use super::sweep::write_svg;
+use super::{Failure, analyze, compare, load, report};
 
 /// The scenario's architecture files, bundled into the binary: (file name, text).
-pub const FILES: [(&str, &str); 2] = [
+pub const FILES: [(&str, &str); 3] = [
     (
-        "wren_dual_mean.toml",
-        include_str!("../../demo/wren_dual_mean.toml"),
+        "trubelka_1oo2_difference.toml",
+        include_str!("../../demo/trubelka_1oo2_difference.toml"),
     ),
     (
-        "wren_dual_plausibility.toml",
-        include_str!("../../demo/wren_dual_plausibility.toml"),
+        "trubelka_1oo2_plausibility.toml",
+        include_str!("../../demo/trubelka_1oo2_plausibility.toml"),
+    ),
+    (
+        "trubelka_2oo3_median.toml",
+        include_str!("../../demo/trubelka_2oo3_median.toml"),
     ),
 ];
+
+/// The tuning of every candidate: the fault site whose worst case must meet the target (the
+/// drift of the excitation shared by the two inductive channels, the common-cause fault),
+/// the target on `dc_all_dangerous`, the range of the scale on the file's bands and the
+/// points of the trade-off curve (few, to keep the three-channel tuning to seconds).
+/// The target is on the common-cause site because the single-channel faults meet it in
+/// every candidate; the difference between the candidates is there.
+const TUNE_SITE: &str = "excitation_drift";
+const TUNE_TARGET: f64 = 0.95;
+const TUNE_SCALE: (f64, f64) = (0.1, 2.0);
+const TUNE_POINTS: usize = 9;
+/// The bisection stops when the band is known to 1 % (`concord tune` goes to 1e-4).
+const TUNE_SCALE_TOL: f64 = 1e-2;
 
 /// Monte Carlo samples per scenario of the reports' cross-check.
 const REPORT_SAMPLES: u64 = 200_000;
@@ -52,6 +80,46 @@ fn write(
 
 fn stem(name: &str) -> &str {
     name.strip_suffix(".toml").unwrap_or(name)
+}
+
+/// Tunes the bands of every check of one candidate to the demo's target on [`TUNE_SITE`].
+fn tune_candidate(file: &Path) -> Result<(TuneResult, String), Failure> {
+    let arch = load(file)?;
+    let mut request = TuneRequest::new(None, CoverageFigure::DcAllDangerous, TUNE_TARGET);
+    request.sites = vec![TUNE_SITE.to_string()];
+    request.scale_range = TUNE_SCALE;
+    request.curve_points = TUNE_POINTS;
+    request.scale_rel_tol = TUNE_SCALE_TOL;
+    let result = tune(
+        &arch.source,
+        &arch.path,
+        &request,
+        &AnalysisOptions::default(),
+        &|| {},
+    )
+    .map_err(|e| Failure::computation(format!("concord demo: tuning {}: {e}", arch.path)))?;
+    Ok((result, arch.path))
+}
+
+/// One line of the summary for a tuning: the widest bands that meet the target and their
+/// false-alarm price, or what is reachable at best.
+fn tuned_line(name: &str, result: &TuneResult) -> String {
+    match &result.chosen {
+        Some(p) => format!(
+            "  {name}: bands at {:.2} times the file's, false alarm {}",
+            p.scale,
+            probability(p.false_alarm.value)
+        ),
+        None => format!(
+            "  {name}: no band from {} to {} times the file's meets it; at best {:.2} % (at {:.2} \
+             times, false alarm {})",
+            TUNE_SCALE.0,
+            TUNE_SCALE.1,
+            100.0 * result.best_reachable.coverage.value,
+            result.best_reachable.scale,
+            probability(result.best_reachable.false_alarm.value)
+        ),
+    }
 }
 
 /// Runs the demo.
@@ -87,7 +155,7 @@ pub fn run(args: &super::args::DemoArgs) -> Result<String, Failure> {
             (
                 Format::Json,
                 "json",
-                "concord analyze --format json --curve: the same as JSON",
+                "concord analyze --format json --with-curves: the same as JSON",
             ),
         ] {
             let text = analyze::run(&AnalyzeArgs {
@@ -110,50 +178,50 @@ pub fn run(args: &super::args::DemoArgs) -> Result<String, Failure> {
     }
 
     // 2. Compare the candidates side by side.
-    let text = compare::run(&CompareArgs {
+    let compared = compare::run(&CompareArgs {
         files: files.clone(),
-        figure: CoverageArg::Dc,
+        figure: CoverageArg::DcAllDangerous,
         sort: None,
         format: Format::Table,
     })?;
     write(
         dir,
         "compare.txt",
-        &text,
-        "concord compare: the candidates side by side",
+        &compared,
+        "concord compare --figure dc-all-dangerous: the candidates side by side",
         &mut list,
     )?;
 
-    // 3. Tune the comparator bands of the plausibility candidate to a coverage target.
-    let curve = dir.join("tune-curve.csv");
-    let plot = dir.join("tune-trade-off.svg");
-    let text = tune::run(&TuneArgs {
-        file: files[1].clone(),
-        target_dc: "95%".to_string(),
-        figure: CoverageArg::DcAllDangerous,
-        check: None,
-        site: vec!["a_drift".to_string()],
-        scale: "0.1:10".to_string(),
-        points: 41,
-        format: TuneFormat::Text,
-        curve: Some(curve.clone()),
-        plot: Some(plot.clone()),
-    })?;
-    write(
-        dir,
-        "tune.txt",
-        &text,
-        "concord tune: the widest bands that meet 95 % on a_drift",
-        &mut list,
-    )?;
-    list.push(Entry {
-        path: curve,
-        what: "the tuning's trade-off curve (coverage against false alarm), CSV".into(),
-    });
-    list.push(Entry {
-        path: plot,
-        what: "the same curve drawn (SVG)".into(),
-    });
+    // 3. Tune the bands of each candidate to the target on the common-cause fault.
+    let mut tuned = Vec::new();
+    for (file, (name, _)) in files.iter().zip(FILES) {
+        let (result, path) = tune_candidate(file)?;
+        let s = stem(name);
+        write(
+            dir,
+            &format!("tune-{s}.txt"),
+            &summary(&result, &path),
+            &format!(
+                "concord tune (--target-dc 95% --site {TUNE_SITE} --scale 0.1:2 --points 9, \
+                 bands to 1 %): the widest bands that meet the target, their false alarms"
+            ),
+            &mut list,
+        )?;
+        write(
+            dir,
+            &format!("tune-{s}.csv"),
+            &curve_csv(&result),
+            "the tuning's trade-off curve (coverage against false alarm), CSV (--curve-csv)",
+            &mut list,
+        )?;
+        let plot = dir.join(format!("tune-{s}.svg"));
+        write_svg(&plot, trade_off_svg(&result))?;
+        list.push(Entry {
+            path: plot,
+            what: "the same curve drawn, SVG (--plot)".into(),
+        });
+        tuned.push(tuned_line(s, &result));
+    }
 
     // 4. One report per candidate, for the safety case.
     let mut reports = Vec::new();
@@ -172,7 +240,8 @@ pub fn run(args: &super::args::DemoArgs) -> Result<String, Failure> {
     }
 
     let mut out = format!(
-        "concord demo: the Wren brake-pedal travel sensor (an invented scenario), {} candidates, written to {}\n\n",
+        "concord demo: the Trubelka brake-pedal travel sensor (an invented scenario), {} \
+         candidates, written to {}\n\n",
         FILES.len(),
         dir.display()
     );
@@ -182,20 +251,47 @@ pub fn run(args: &super::args::DemoArgs) -> Result<String, Failure> {
         .max()
         .unwrap_or(0);
     for e in &list {
-        out.push_str(&format!(
-            "  {:<width$}  {}\n",
+        let _ = writeln!(
+            out,
+            "  {:<width$}  {}",
             e.path.display().to_string(),
             e.what
-        ));
+        );
     }
+    // The trade in one screen: the first table of compare.txt and the tuned bands.
+    let table = compared
+        .split("\nWorst-case")
+        .next()
+        .unwrap_or(&compared)
+        .trim_end();
+    let _ = writeln!(
+        out,
+        "\nThe trade in one screen (from compare.txt and tune-*.txt)\n"
+    );
+    let _ = writeln!(out, "{table}\n");
+    let _ = writeln!(
+        out,
+        "Widest bands (all checks scaled together) whose worst case meets dc_all_dangerous >= 95 % \
+         on {TUNE_SITE}, the common-cause fault:"
+    );
+    for line in &tuned {
+        let _ = writeln!(out, "{line}");
+    }
+    let _ = writeln!(
+        out,
+        "\nFigures are estimates under the files' assumptions; the analyst remains responsible, \
+         and the standards, the assessor and local practice decide (see the cautions in every \
+         output)."
+    );
     let disagree = reports
         .iter()
         .filter_map(|w| w.agreement)
         .any(|(a, n)| a < n);
-    out.push_str(&format!(
-        "\nNext: open {} in a browser, then read demo/README.md (or `concord help`).\n",
-        dir.join("report-wren_dual_plausibility.html").display()
-    ));
+    let _ = writeln!(
+        out,
+        "\nNext: open {} in a browser, then read demo/README.md (or `concord help`).",
+        dir.join("report-trubelka_2oo3_median.html").display()
+    );
     if disagree {
         return Err(Failure::computation(format!(
             "{out}concord demo: the Monte Carlo cross-check of a report disagrees (see its section 9)"

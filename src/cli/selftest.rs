@@ -1,5 +1,5 @@
 //! `concord selftest [--format table|json]`: runs the built-in validation suite and prints
-//! the qualification summary; exits with 1 when any case fails.
+//! the validation summary; exits with 1 when any case fails.
 
 use crate::analysis::selftest;
 use crate::report::selftest::{render_json, render_table};

@@ -85,8 +85,13 @@ fn parameter_sweep(args: &SweepArgs, vary: &str) -> Result<String, Failure> {
         SweepFormatArg::Csv => SweepFormat::Csv,
         SweepFormatArg::Json => SweepFormat::Json,
     };
-    let write_failure =
-        |e: io::Error| Failure::computation(format!("concord: writing the rows failed: {e}"));
+    let write_failure = |e: io::Error| {
+        Failure::computation(format!(
+            "concord: writing the rows failed: {e}; check that the output (a file, a pipe or \
+                 the terminal) can take them: free disk space, permissions, a reader at the \
+                 other end"
+        ))
+    };
     let mut writer = SweepWriter::start(
         output_writer(args)?,
         format,
@@ -167,7 +172,10 @@ fn spread_sweep(args: &SweepArgs, site: &str) -> Result<String, Failure> {
     match &args.output {
         Some(path) => {
             std::fs::write(path, text).map_err(|e| {
-                Failure::input(format!("concord: cannot write {}: {e}", path.display()))
+                Failure::input(format!(
+                    "concord: cannot write {}: {e}; check the folder exists and is writable",
+                    path.display()
+                ))
             })?;
             Ok(String::new())
         }

@@ -46,7 +46,10 @@ pub fn run(args: &TuneArgs) -> Result<String, Failure> {
     })?;
     if let Some(path) = &args.curve {
         std::fs::write(path, curve_csv(&result)).map_err(|e| {
-            Failure::input(format!("concord: cannot write {}: {e}", path.display()))
+            Failure::input(format!(
+                "concord: cannot write {}: {e}; check the folder exists and is writable",
+                path.display()
+            ))
         })?;
     }
     if let Some(path) = &args.plot {

@@ -210,7 +210,7 @@ fn formula(def: &FnDef, signals: &[Option<Formula>], output: Option<&Formula>) -
             },
             args: sorted(rs),
         },
-        FnDef::Spread(rs) => Formula::Range(sorted(rs)),
+        FnDef::Range(rs) => Formula::Range(sorted(rs)),
         FnDef::Difference(a, c) => Formula::Sum {
             terms: vec![(1.0, reading(a)), (-1.0, reading(c))],
             constant: 0.0,
@@ -302,10 +302,10 @@ fn build(
             };
             b.order(&args, kind)
         }
-        FnDef::Spread(rs) => {
+        FnDef::Range(rs) => {
             let rs = sorted(rs);
             let args: Vec<&Pw> = rs.iter().map(pw).collect();
-            b.order(&args, OrderKind::Spread)
+            b.order(&args, OrderKind::Range)
         }
         FnDef::Difference(a, c) => b.combine(&[(1.0, pw(a)), (-1.0, pw(c))], 0.0),
         FnDef::FromOutput(r) => b.combine(&[(1.0, pw(r)), (-1.0, output.unwrap_or(&empty))], 0.0),
@@ -346,7 +346,7 @@ impl Names<'_> {
             FnDef::Select(r) => self.name(r),
             FnDef::Order(stat, rs) => format!("{}({})", stat.word(), self.list(rs)),
             FnDef::Difference(a, b) => format!("{} - {}", self.name(a), self.name(b)),
-            FnDef::Spread(rs) => {
+            FnDef::Range(rs) => {
                 let l = self.list(rs);
                 format!("max({l}) - min({l})")
             }

@@ -303,7 +303,7 @@ pub(crate) fn check_fn(c: &RawCheck, ns: &Namespace, sink: &mut Sink<'_>) -> Opt
     let (kind, of) = (c.kind.as_ref()?, c.of.as_ref()?);
     let word = match kind.v {
         CheckKind::Difference => "difference",
-        CheckKind::Spread => "spread",
+        CheckKind::Range => "range",
         CheckKind::FromOutput => "from_output",
         CheckKind::Linear => "linear",
     };
@@ -320,14 +320,14 @@ pub(crate) fn check_fn(c: &RawCheck, ns: &Namespace, sink: &mut Sink<'_>) -> Opt
                     sink,
                     format!("{what} takes exactly two names, found {}", names.len()),
                     "write of = [\"a\", \"b\"] (the check value is a - b); use kind = \
-                         \"spread\" for more than two",
+                         \"range\" for more than two",
                 );
                 return None;
             }
             let a = list(ns, sink, of, &what, 2, 2)?;
             FnDef::Difference(*a.first()?, *a.get(1)?)
         }
-        CheckKind::Spread => FnDef::Spread(list(ns, sink, of, &what, 2, max_order_args())?),
+        CheckKind::Range => FnDef::Range(list(ns, sink, of, &what, 2, max_order_args())?),
         CheckKind::FromOutput => FnDef::FromOutput(one(ns, sink, of, &what)?),
         CheckKind::Linear => FnDef::Linear {
             terms: weights(ns, sink, of, &what)?,

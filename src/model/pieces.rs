@@ -1,5 +1,5 @@
 //! Building piecewise-linear functions: linear forms, order statistics (median, min, max,
-//! spread) and linear combinations of piecewise functions.
+//! range) and linear combinations of piecewise functions.
 //!
 //! An order statistic of k arguments has one piece per total ordering of the arguments (k!
 //! pieces), each carrying all k(k-1)/2 pairwise guards. For arguments p < q (by position in
@@ -36,7 +36,7 @@ pub(crate) enum OrderKind {
     Min,
     Max,
     /// max - min
-    Spread,
+    Range,
 }
 
 /// A piece with interned guards (sorted ids).
@@ -332,7 +332,7 @@ impl Builder {
                 let value = match kind {
                     OrderKind::Min => v(0).clone(),
                     OrderKind::Max => v(k - 1).clone(),
-                    OrderKind::Spread => {
+                    OrderKind::Range => {
                         combine_forms(&[(1.0, v(k - 1)), (-1.0, v(0))], 0.0, self.n)
                     }
                     OrderKind::Median if k % 2 == 1 => v(k / 2).clone(),
@@ -412,9 +412,9 @@ mod tests {
             .order(&refs, OrderKind::Median)
             .unwrap_or(Pw { pieces: vec![] });
         let s = b
-            .order(&refs, OrderKind::Spread)
+            .order(&refs, OrderKind::Range)
             .unwrap_or(Pw { pieces: vec![] });
-        // median + spread over the same arguments: 6 x 6 pairs, only the 6 matching survive
+        // median + range over the same arguments: 6 x 6 pairs, only the 6 matching survive
         let c = b
             .combine(&[(1.0, &m), (1.0, &s)], 0.0)
             .unwrap_or(Pw { pieces: vec![] });

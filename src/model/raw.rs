@@ -86,7 +86,7 @@ pub(crate) enum OutputKind {
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub(crate) enum CheckKind {
     Difference,
-    Spread,
+    Range,
     FromOutput,
     Linear,
 }

@@ -549,7 +549,16 @@ fn args(sink: &mut Sink<'_>, node: &Node, key: &str) -> Option<Sp<Args>> {
 }
 
 /// A kind keyword out of `allowed`.
-fn kind<T: Copy>(sink: &mut Sink<'_>, t: &mut Tbl<'_>, allowed: &[(&str, T)]) -> Option<Sp<T>> {
+/// Kinds that an earlier version of the file format spelled otherwise: (old word, new word,
+/// what the kind computes). A file with the old word gets an error that names the new one.
+const RENAMED_CHECK_KINDS: [(&str, &str, &str); 1] = [("spread", "range", "max minus min")];
+
+fn kind<T: Copy>(
+    sink: &mut Sink<'_>,
+    t: &mut Tbl<'_>,
+    allowed: &[(&str, T)],
+    renamed: &[(&str, &str, &str)],
+) -> Option<Sp<T>> {
     let key = t.path("kind");
     let names: Vec<&str> = allowed.iter().map(|(n, _)| *n).collect();
     let example = format!("kind = \"{}\"", names.first().copied().unwrap_or(""));
@@ -571,6 +580,14 @@ fn kind<T: Copy>(sink: &mut Sink<'_>, t: &mut Tbl<'_>, allowed: &[(&str, T)]) ->
             overridden: false,
         }),
         None => {
+            if let Some((old, new, what)) = renamed.iter().find(|(o, _, _)| *o == s.v) {
+                s.error(
+                    sink,
+                    format!("the kind \"{old}\" was renamed to \"{new}\" ({what})"),
+                    format!("write kind = \"{new}\""),
+                );
+                return None;
+            }
             let mut fix = format!("use one of {}", quoted(&names));
             if let Some(g) = suggest(&s.v, &names) {
                 fix = format!("did you mean \"{g}\"? Kinds: {}", quoted(&names));
@@ -710,6 +727,7 @@ fn read_signal(sink: &mut Sink<'_>, name: Sp<String>, mut t: Tbl<'_>) -> RawSign
             ("min", SignalKind::Min),
             ("max", SignalKind::Max),
         ],
+        &[],
     );
     let of = read_of(sink, &mut t);
     let constant = t.opt_num(sink, "constant", "constant = 0.0");
@@ -752,6 +770,7 @@ fn read_output(sink: &mut Sink<'_>, node: &Node) -> Option<RawOutput> {
             ("max", OutputKind::Max),
             ("linear", OutputKind::Linear),
         ],
+        &[],
     );
     let of = read_of(sink, &mut t);
     let constant = t.opt_num(sink, "constant", "constant = 0.0");
@@ -788,10 +807,11 @@ fn read_check(sink: &mut Sink<'_>, name: Sp<String>, mut t: Tbl<'_>) -> RawCheck
         &mut t,
         &[
             ("difference", CheckKind::Difference),
-            ("spread", CheckKind::Spread),
+            ("range", CheckKind::Range),
             ("from_output", CheckKind::FromOutput),
             ("linear", CheckKind::Linear),
         ],
+        &RENAMED_CHECK_KINDS,
     );
     let of = read_of(sink, &mut t);
     let constant = t.opt_num(sink, "constant", "constant = 0.0");

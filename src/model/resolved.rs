@@ -48,7 +48,7 @@ pub(crate) enum FnDef {
     Order(Stat, Vec<Reading>),
     Difference(Reading, Reading),
     /// `max - min`
-    Spread(Vec<Reading>),
+    Range(Vec<Reading>),
     /// `reading - output`
     FromOutput(Reading),
 }
@@ -63,7 +63,7 @@ impl FnDef {
                 r.iter().map(|x| (*x, w)).collect()
             }
             FnDef::Select(r) | FnDef::FromOutput(r) => vec![(*r, 1.0)],
-            FnDef::Order(_, r) | FnDef::Spread(r) => r.iter().map(|x| (*x, 1.0)).collect(),
+            FnDef::Order(_, r) | FnDef::Range(r) => r.iter().map(|x| (*x, 1.0)).collect(),
             FnDef::Difference(a, b) => vec![(*a, 1.0), (*b, -1.0)],
         }
     }

@@ -1,9 +1,11 @@
 //! Output of `concord compare`: the architectures side by side as a table, JSON or CSV.
 //!
-//! Columns: architecture, channels, checks, the coverage per fault site (a site of the same
-//! name in several files shares a column; `-` where a file has no such site), the residual
-//! rate, SPFM, LFM, the ASIL whose SPFM and LFM targets are both met, the nuisance-alarm
-//! probability and the cost of the evaluation (linear cells and seconds).
+//! Columns: architecture, channels (those the output uses; the JSON and CSV give
+//! `output_channels` and `channels`, every channel of the file), checks, the coverage per
+//! fault site (a site of the same name in several files shares a column; `-` where a file
+//! has no such site), the residual rate, SPFM, LFM, the ASIL whose SPFM and LFM targets are
+//! both met, the false-alarm probability and the computation time. The JSON and CSV also carry `cells`, the number of
+//! linear cells the evaluation split the functions into (an internal count, not in the table).
 
 use serde::Serialize;
 
@@ -11,7 +13,7 @@ use crate::analysis::compare::{ArchitectureSummary, site_columns};
 use crate::analysis::metrics::Asil;
 
 use super::TOOL_VERSION;
-use super::cautions::CAUTIONS;
+use super::cautions::{CAUTIONS, csv_comment_block};
 use super::csv::field as csv_field;
 use super::format::{fit, percent_floor, probability};
 
@@ -69,9 +71,9 @@ fn columns(head: &[String], body: &[Vec<String>]) -> String {
     out
 }
 
-/// The tables for a terminal: one line per architecture with the metrics and costs, then
-/// the coverage of every fault site (a row per site name, a column per architecture, `-`
-/// where the architecture has no such site).
+/// The tables for a terminal: one line per architecture with the metrics and the computation
+/// time, then the coverage of every fault site (a row per site name, a column per
+/// architecture, `-` where the architecture has no such site).
 pub fn table(rows: &[ArchitectureSummary], all_dangerous: bool) -> String {
     let sites = site_columns(rows);
     let figure = if all_dangerous {
@@ -82,16 +84,15 @@ pub fn table(rows: &[ArchitectureSummary], all_dangerous: bool) -> String {
     let head: Vec<String> = [
         "#",
         "architecture",
-        "ch",
+        "channels",
         "checks",
         "lowest %",
         "residual FIT",
         "SPFM %",
         "LFM %",
         "ASIL",
-        "nuisance alarm",
-        "cells",
-        "seconds",
+        "false alarm",
+        "time s",
     ]
     .map(String::from)
     .to_vec();
@@ -102,7 +103,7 @@ pub fn table(rows: &[ArchitectureSummary], all_dangerous: bool) -> String {
             vec![
                 (i + 1).to_string(),
                 r.name.clone(),
-                r.channels.to_string(),
+                r.output_channels.to_string(),
                 r.checks.to_string(),
                 r.lowest_coverage(all_dangerous)
                     .map_or("-".into(), |e| percent_floor(e.value)),
@@ -110,8 +111,7 @@ pub fn table(rows: &[ArchitectureSummary], all_dangerous: bool) -> String {
                 percent_floor(r.metrics.spfm.value),
                 percent_floor(r.metrics.lfm.value),
                 asil_reached(r).label().to_string(),
-                probability(r.nuisance_alarm.value),
-                r.cells.to_string(),
+                probability(r.false_alarm.value),
                 format!("{:.3}", r.seconds),
             ]
         })
@@ -137,9 +137,12 @@ pub fn table(rows: &[ArchitectureSummary], all_dangerous: bool) -> String {
     ));
     out.push_str(&columns(&head, &body));
     out.push_str(
-        "\nlowest: the lowest coverage over the sites; ASIL: the highest level whose SPFM and LFM \
-         targets are both met (ISO 26262-5:2018 Tables 4 and 5, from memory); nuisance alarm: a \
-         check fires without a fault; cells and seconds: the cost of the evaluation.\n\n",
+        "\nchannels: the channels the output uses (the measuring hardware; a channel only a \
+         check reads, such as a model estimate, is not counted); lowest: the lowest coverage \
+         over the sites; ASIL: the highest level whose SPFM and LFM targets are both met, each \
+         judged on its value minus its error bound (targets of ISO 26262-5:2018 Tables 4 and 5, \
+         recalled, not checked against the published text); false alarm: the probability that \
+         a check fires without a fault; time s: computation time of the analysis in seconds.\n\n",
     );
     for c in CAUTIONS {
         out.push_str(&format!("- {c}\n"));
@@ -193,10 +196,11 @@ pub fn json(rows: &[ArchitectureSummary], all_dangerous: bool) -> Result<String,
         .map_err(|e| e.to_string())
 }
 
-/// The comparison as CSV, one row per architecture.
+/// The comparison as CSV, one row per architecture, after the comment block of the cautions.
 pub fn csv(rows: &[ArchitectureSummary], all_dangerous: bool) -> String {
     let sites = site_columns(rows);
     let mut head: Vec<String> = vec!["architecture".into(), "file".into(), "channels".into()];
+    head.push("output_channels".into());
     head.push("checks".into());
     head.extend(sites.iter().map(|s| csv_field(s)));
     for k in [
@@ -207,20 +211,22 @@ pub fn csv(rows: &[ArchitectureSummary], all_dangerous: bool) -> String {
         "lfm",
         "lfm_error",
         "asil_reached",
-        "nuisance_alarm",
-        "nuisance_alarm_error",
+        "false_alarm",
+        "false_alarm_error",
         "cells",
         "seconds",
     ] {
         head.push(k.into());
     }
-    let mut out = head.join(",");
+    let mut out = csv_comment_block();
+    out.push_str(&head.join(","));
     out.push('\n');
     for r in rows {
         let mut line = vec![
             csv_field(&r.name),
             csv_field(&r.path),
             r.channels.to_string(),
+            r.output_channels.to_string(),
             r.checks.to_string(),
         ];
         for s in &sites {
@@ -231,8 +237,8 @@ pub fn csv(rows: &[ArchitectureSummary], all_dangerous: bool) -> String {
             line.push(format!("{:e}", e.error));
         }
         line.push(csv_field(asil_reached(r).label()));
-        line.push(format!("{:e}", r.nuisance_alarm.value));
-        line.push(format!("{:e}", r.nuisance_alarm.error));
+        line.push(format!("{:e}", r.false_alarm.value));
+        line.push(format!("{:e}", r.false_alarm.error));
         line.push(r.cells.to_string());
         line.push(format!("{:e}", r.seconds));
         out.push_str(&line.join(","));

@@ -1,6 +1,8 @@
-//! CSV output: one row for the baseline and one per fault site, columns named as in JSON.
+//! CSV output: one row for the baseline and one per fault site, columns named as in JSON,
+//! after the comment block of the cautions (lines starting with `#`).
 
 use super::ReportInput;
+use super::cautions::csv_comment_block;
 
 /// The CSV header.
 pub const HEADER: &str = "scenario,fit,mode,amplitude,dc,dc_error,dc_all_dangerous,p_vd,p_vd_error,\
@@ -23,7 +25,8 @@ fn opt(v: Option<f64>) -> String {
 /// The CSV text.
 pub fn render(input: &ReportInput<'_>) -> String {
     let a = input.analysis;
-    let mut out = String::from(HEADER);
+    let mut out = csv_comment_block();
+    out.push_str(HEADER);
     out.push('\n');
     let b = &a.baseline;
     out.push_str(&format!(

@@ -417,7 +417,7 @@ mod tests {
     fn every_node_of_the_example_is_drawn_once_in_well_formed_svg() {
         let path = concat!(
             env!("CARGO_MANIFEST_DIR"),
-            "/architectures/kestrel_swa2_shared_ref.toml"
+            "/architectures/plovrant_swa2_shared_ref.toml"
         );
         let arch = crate::model::load(std::path::Path::new(path)).expect("example loads");
         let svg = render_svg(&arch);
@@ -446,11 +446,11 @@ mod tests {
     #[test]
     fn edges_run_left_to_right() {
         for file in [
-            "kestrel_swa2_mean",
-            "kestrel_swa2_plausibility",
-            "kestrel_swa2_shared_ref",
-            "kestrel_swa3_median",
-            "kestrel_swa4_dual_pair",
+            "plovrant_swa2_mean",
+            "plovrant_swa2_plausibility",
+            "plovrant_swa2_shared_ref",
+            "plovrant_swa3_median",
+            "plovrant_swa4_dual_pair",
         ] {
             let path = format!("{}/architectures/{file}.toml", env!("CARGO_MANIFEST_DIR"));
             let arch = crate::model::load(std::path::Path::new(&path)).expect("loads");

@@ -16,8 +16,9 @@
 
 use std::fmt::Write as _;
 
-use crate::analysis::metrics::{Asil, LFM_TARGETS, PMHF_TARGETS_FIT, SPFM_TARGETS};
+use crate::analysis::metrics::{self, Asil, LFM_TARGETS, PMHF_TARGETS_FIT, SPFM_TARGETS};
 use crate::model::{Amplitude, Detection, FaultMode};
+use crate::prob::Estimate;
 
 use super::ReportInput;
 use super::cautions::CAUTIONS;
@@ -242,6 +243,7 @@ fn summary(o: &mut String, doc: &AnalysisJson) {
         format!("{} fault sites", doc.sites.len()),
     );
     o.push_str("</div>\n");
+    o.push_str("<p>A target counts as met only when the value minus its error bound meets it (for the residual rate: the value plus its bound stays below it); section 8 lists the targets.</p>\n");
     if let Some(w) = worst {
         let _ = writeln!(
             o,
@@ -675,11 +677,11 @@ fn results(o: &mut String, doc: &AnalysisJson) {
     o.push_str("</tbody></table>\n");
     let _ = writeln!(
         o,
-        r#"<p>Without a fault, a check fires with probability <span class="inline-num" data-key="baseline/nuisance_alarm" data-value="{}">{}</span> (the nuisance-alarm price of the thresholds) and the output leaves its band with probability <span class="inline-num" data-key="baseline/intrinsic_violation" data-value="{}">{}</span>.</p>"#,
-        json_number(b.nuisance_alarm),
-        sci_html(&probability(b.nuisance_alarm)),
-        json_number(b.intrinsic_violation),
-        sci_html(&probability(b.intrinsic_violation))
+        r#"<p>Without a fault, a check fires with probability <span class="inline-num" data-key="baseline/false_alarm" data-value="{}">{}</span> (the false alarm, the price of the thresholds) and the output leaves its band with probability <span class="inline-num" data-key="baseline/fault_free_violation" data-value="{}">{}</span> (the fault-free violation).</p>"#,
+        json_number(b.false_alarm),
+        sci_html(&probability(b.false_alarm)),
+        json_number(b.fault_free_violation),
+        sci_html(&probability(b.fault_free_violation))
     );
 
     let mut warnings: Vec<String> = doc.warnings.clone();
@@ -708,7 +710,7 @@ pub fn coverage_chart(site: &SiteJson, unit: &str) -> Option<Chart> {
         .iter()
         .filter_map(|p| p.dc.map(|d| (p.sigma, 100.0 * d)))
         .collect();
-    let dcad: Vec<(f64, f64)> = curve
+    let dc_all: Vec<(f64, f64)> = curve
         .iter()
         .map(|p| (p.sigma, 100.0 * p.dc_all_dangerous))
         .collect();
@@ -734,7 +736,7 @@ pub fn coverage_chart(site: &SiteJson, unit: &str) -> Option<Chart> {
             },
             Series {
                 label: "DC, all dangerous = 1 − p_vu".to_string(),
-                points: dcad,
+                points: dc_all,
             },
         ],
         reference_lines: [
@@ -749,6 +751,7 @@ pub fn coverage_chart(site: &SiteJson, unit: &str) -> Option<Chart> {
         })
         .collect(),
         markers,
+        caption: Vec::new(),
     })
 }
 
@@ -775,6 +778,7 @@ pub fn residual_chart(site: &SiteJson, unit: &str) -> Option<Chart> {
             })
             .into_iter()
             .collect(),
+        caption: Vec::new(),
     })
 }
 
@@ -808,7 +812,7 @@ fn curves(o: &mut String, doc: &AnalysisJson) {
         o.push_str("<p>The curves were not computed for this report.</p>\n</section>\n");
         return;
     }
-    o.push_str("<p>For a fault whose spread σ is not known, the figures change with σ: tiny spreads rarely violate, huge ones are almost always caught, and the residual peaks in between. The report takes every figure of the site at that peak (the marked worst case). Horizontal lines: the DC levels low, medium and high of ISO 26262-5 Annex D (60 / 90 / 99 %, from memory).</p>\n");
+    o.push_str("<p>For a fault whose spread σ is not known, the figures change with σ: tiny spreads rarely violate, huge ones are almost always caught, and the residual peaks in between. The report takes every figure of the site at that peak (the marked worst case). Horizontal lines: the DC levels low, medium and high of ISO 26262-5 Annex D (60 / 90 / 99 %, recalled, not checked against the published text).</p>\n");
     let mut figure = 2;
     for s in with_curve {
         let _ = writeln!(o, r#"<div class="site-curves"><h3>{}</h3>"#, esc(&s.name));
@@ -838,11 +842,23 @@ fn curves(o: &mut String, doc: &AnalysisJson) {
     o.push_str("</section>\n");
 }
 
-fn targets_met(value: f64, targets: &[(Asil, f64)], minimum: bool) -> Vec<(Asil, f64, bool)> {
+/// Each target with whether it is met, by the pass rule of every output
+/// ([`metrics::meets_minimum`], [`metrics::meets_maximum`]: value minus, or plus, its bound).
+fn targets_met(
+    value: f64,
+    error: f64,
+    targets: &[(Asil, f64)],
+    minimum: bool,
+) -> Vec<(Asil, f64, bool)> {
+    let estimate = Estimate::new(value, error);
     let mut list: Vec<(Asil, f64, bool)> = targets
         .iter()
         .map(|(a, t)| {
-            let met = if minimum { value >= *t } else { value < *t };
+            let met = if minimum {
+                metrics::meets_minimum(estimate, *t)
+            } else {
+                metrics::meets_maximum(estimate, *t)
+            };
             (*a, *t, met)
         })
         .collect();
@@ -853,32 +869,33 @@ fn targets_met(value: f64, targets: &[(Asil, f64)], minimum: bool) -> Vec<(Asil,
 fn metrics(o: &mut String, doc: &AnalysisJson) {
     let m = &doc.metrics;
     section_start(o, "metrics", 8, "Hardware metrics against the ASIL targets");
-    o.push_str("<p>Targets of ISO 26262-5:2018 Tables 4 to 6, recalled from memory: check them against the standard in force. The residual rate is the single-point part of the PMHF only. A target counts as met when the value itself meets it; the error bound is shown beside.</p>\n");
+    o.push_str("<p>Targets of ISO 26262-5:2018 Tables 4 to 6, recalled, not checked against the published text: check them against the standard in force. The residual rate is the single-point part of the PMHF only. A target counts as met only when the value minus its error bound meets it (for the residual rate: the value plus its bound stays below it), so that numerical error never lifts a design a level; every mark, the column “reached”, the summary of section 1, the terminal output and the JSON use this one rule.</p>\n");
     o.push_str(r#"<table class="wide metrics"><thead><tr><th>metric</th><th class="num">value</th><th>ASIL B</th><th>ASIL C</th><th>ASIL D</th><th>reached</th></tr></thead><tbody>"#);
-    let target_cells = |value: f64, targets: &[(Asil, f64)], minimum: bool, unit: &str| {
-        let mut s = String::new();
-        for (_, t, met) in targets_met(value, targets, minimum) {
-            let text = if minimum {
-                format!("≥ {} {unit}", percent_floor(t))
-            } else {
-                format!("< {} {unit}", number(t))
-            };
-            let _ = write!(s, "<td>{}</td>", verdict_html(met, &text));
-        }
-        s
-    };
+    let target_cells =
+        |value: f64, error: f64, targets: &[(Asil, f64)], minimum: bool, unit: &str| {
+            let mut s = String::new();
+            for (_, t, met) in targets_met(value, error, targets, minimum) {
+                let text = if minimum {
+                    format!("≥ {} {unit}", percent_floor(t))
+                } else {
+                    format!("< {} {unit}", number(t))
+                };
+                let _ = write!(s, "<td>{}</td>", verdict_html(met, &text));
+            }
+            s
+        };
     let _ = writeln!(
         o,
         "<tr><th scope=\"row\">SPFM</th>{}{}<td>{}</td></tr>",
         percent_cell("metrics/spfm", m.spfm, Some(m.error.spfm), " %"),
-        target_cells(m.spfm, &SPFM_TARGETS, true, "%"),
+        target_cells(m.spfm, m.error.spfm, &SPFM_TARGETS, true, "%"),
         esc(&m.asil_spfm)
     );
     let _ = writeln!(
         o,
         "<tr><th scope=\"row\">LFM</th>{}{}<td>{}</td></tr>",
         percent_cell("metrics/lfm", m.lfm, Some(m.error.lfm), " %"),
-        target_cells(m.lfm, &LFM_TARGETS, true, "%"),
+        target_cells(m.lfm, m.error.lfm, &LFM_TARGETS, true, "%"),
         esc(&m.asil_lfm)
     );
     let _ = writeln!(
@@ -891,7 +908,13 @@ fn metrics(o: &mut String, doc: &AnalysisJson) {
             Some(m.error.residual_fit),
             &sci_html(&bound(m.error.residual_fit))
         ),
-        target_cells(m.residual_fit, &PMHF_TARGETS_FIT, false, "FIT"),
+        target_cells(
+            m.residual_fit,
+            m.error.residual_fit,
+            &PMHF_TARGETS_FIT,
+            false,
+            "FIT"
+        ),
         esc(&m.asil_residual_budget)
     );
     o.push_str("</tbody></table>\n");
@@ -1011,7 +1034,7 @@ const OPTION_MEANINGS: [(&str, &str); 11] = [
 
 fn method(o: &mut String, input: &ReportInput<'_>, options: &HtmlOptions) {
     section_start(o, "method", 10, "Numerical method and tolerances");
-    o.push_str("<p>Every outcome is a union of disjoint polytopes in the space of the channel deviations. Each polytope probability is integrated with its own error bound: closed forms for one and two random directions (the normal distribution; the bivariate normal by Genz 2004); exact planar slices for two conditioning variables; one adaptive Gauss–Kronrod integral over exact slices for three (deterministic); Genz's sequential conditioning with a randomised lattice rule and a fixed seed for four or more (Genz 1992; Genz and Bretz 2009), its bound the spread of the random shifts. A uniform amplitude is integrated by adaptive Gauss–Kronrod (QUADPACK, Piessens et al. 1983) with breakpoints where the integrand steps; an unknown σ is scanned on a log grid and every local maximum of the residual refined by Brent's method (Brent 1973) in log σ. The residual is integrated directly, never as a difference of large probabilities. The bounds cover the numerical method only, not the model.</p>\n");
+    o.push_str("<p>Every outcome is a union of disjoint polytopes in the space of the channel deviations. Each polytope probability is integrated with its own error bound: closed forms for one and two random directions (the normal distribution; the bivariate normal by Genz 2004); exact planar slices for two conditioning variables; one adaptive Gauss–Kronrod integral over exact slices for three (deterministic); Genz's sequential conditioning with a randomised lattice rule and a fixed seed for four or more (Genz 1992; Genz and Bretz 2009), its bound the scatter of the random shifts. A uniform amplitude is integrated by adaptive Gauss–Kronrod (QUADPACK, Piessens et al. 1983) with breakpoints where the integrand steps; an unknown σ is scanned on a log grid and every local maximum of the residual refined by Brent's method (Brent 1973) in log σ. The residual is integrated directly, never as a difference of large probabilities. The bounds cover the numerical method only, not the model.</p>\n");
     let _ = writeln!(
         o,
         "<p>Method of this report: <strong>{}</strong>. Cross-check: {}.</p>",
@@ -1044,7 +1067,7 @@ fn method(o: &mut String, input: &ReportInput<'_>, options: &HtmlOptions) {
 
 fn reproduce(o: &mut String, doc: &AnalysisJson, options: &HtmlOptions) {
     section_start(o, "reproduce", 11, "Reproducing this report");
-    o.push_str("<p>concord is deterministic: the same input file, tool version and options give the same figures, bit for bit, whatever the number of threads. To reproduce this report, check that the file's SHA-256 matches and run the command below; <code>concord analyze FILE --format json --curve</code> prints the same numbers as JSON (each number cell of this page carries its exact JSON value in <code>data-value</code>).</p>\n");
+    o.push_str("<p>concord is deterministic: the same input file, tool version and options give the same figures, bit for bit, whatever the number of threads. To reproduce this report, check that the file's SHA-256 matches and run the command below; <code>concord analyze FILE --format json --with-curves</code> prints the same numbers as JSON (each number cell of this page carries its exact JSON value in <code>data-value</code>).</p>\n");
     o.push_str(r#"<table class="kv"><tbody>"#);
     let rows = [
         ("tool", format!("concord {}", doc.tool_version)),

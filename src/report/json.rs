@@ -4,8 +4,8 @@
 //!
 //! - `name`, `unit`, `tool_version`, `input_sha256`, `input_file` (the file's name as it was
 //!   given), `method` (`exact` or `montecarlo`);
-//! - `baseline`: `p_vd`, `p_vu`, `p_sd`, `p_sq`, `error` (bound of each), `nuisance_alarm`,
-//!   `intrinsic_violation`;
+//! - `baseline`: `p_vd`, `p_vu`, `p_sd`, `p_sq`, `error` (bound of each), `false_alarm`
+//!   (`p_vd + p_sd`: a check fires without a fault), `fault_free_violation` (`p_vd + p_vu`);
 //! - `sites`: one object per fault site with `name`, `fit`, `mode`, `amplitude`, `dc` (null
 //!   when no outcome is dangerous), `dc_all_dangerous`, `p_vd`, `p_vu`, `p_sd`, `p_sq`,
 //!   `error` (the bound of each probability and of both coverage figures), `worst_sigma`
@@ -17,7 +17,13 @@
 //!   failure rate at all), `error`;
 //! - `verification`: the Monte Carlo cross-check or null; `warnings`; `cautions`.
 //!
-//! Fields may be added in later versions; none is renamed or dropped.
+//! Fields may be added in later versions; none is dropped, and none is renamed except as
+//! listed here.
+//!
+//! Renamed once, before the first release (one word for each idea in every output):
+//! `baseline.nuisance_alarm` is now `baseline.false_alarm`, and `baseline.intrinsic_violation`
+//! is now `baseline.fault_free_violation`; the values are unchanged. Scripts that read the old
+//! keys must read the new ones.
 
 use serde::{Deserialize, Serialize};
 
@@ -49,9 +55,9 @@ pub struct BaselineJson {
     pub p_sq: f64,
     pub error: Bounds,
     /// `p_vd + p_sd`: a check fires without a fault.
-    pub nuisance_alarm: f64,
+    pub false_alarm: f64,
     /// `p_vd + p_vu`: the output leaves its band without a fault.
-    pub intrinsic_violation: f64,
+    pub fault_free_violation: f64,
 }
 
 /// One local maximum of the residual over sigma.
@@ -238,8 +244,8 @@ pub fn document(input: &ReportInput<'_>) -> AnalysisJson {
             p_sd: b.p_sd.value,
             p_sq: b.p_sq.value,
             error: bounds(b),
-            nuisance_alarm: b.alarm().value,
-            intrinsic_violation: b.violation().value,
+            false_alarm: b.alarm().value,
+            fault_free_violation: b.violation().value,
         },
         sites: a.sites.iter().map(site_json).collect(),
         metrics: MetricsJson {

@@ -5,7 +5,7 @@
 //! - [`json`]: the JSON object that scripts rely on (the contract of README.md "JSON output").
 //! - [`table`]: the table for a terminal, 100 columns wide.
 //! - [`csv`]: one row per scenario, for spreadsheets.
-//! - [`selftest`]: the qualification summary of `concord selftest` (table and JSON).
+//! - [`selftest`]: the validation summary of `concord selftest` (table and JSON).
 //! - [`format`]: number formatting shared by the text formats.
 //! - [`plot`]: line charts as SVG (curves over sigma, sweeps, tuning).
 //! - [`diagram`]: the architecture drawn from the model graph, as SVG.

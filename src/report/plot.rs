@@ -19,6 +19,8 @@ use plotters::coord::types::RangedCoordf64;
 use plotters::prelude::*;
 use plotters::style::text_anchor::{HPos, Pos, VPos};
 
+use super::format::wrap;
+
 /// One named line of points.
 #[derive(Debug, Clone, PartialEq)]
 pub struct Series {
@@ -76,6 +78,9 @@ pub struct Chart {
     pub reference_lines: Vec<ReferenceLine>,
     /// Marked points, e.g. the worst case.
     pub markers: Vec<Marker>,
+    /// Paragraphs of small text under the legend, e.g. the cautions (wrapped to the width;
+    /// empty for none).
+    pub caption: Vec<String>,
 }
 
 /// Why a chart could not be drawn.
@@ -172,6 +177,10 @@ const INK: RGBColor = RGBColor(0x22, 0x22, 0x22);
 const REFERENCE_INK: RGBColor = RGBColor(0x6b, 0x6b, 0x6b);
 const GRID: RGBColor = RGBColor(0xdd, 0xdd, 0xdd);
 const LEGEND_ROW: u32 = 18;
+/// Height of one caption line, and the average width of a caption character (font size 13,
+/// which plotters writes as about 10.5 px), both in pixels.
+const CAPTION_ROW: u32 = 14;
+const CAPTION_CHAR: u32 = 6;
 const TITLE_BAND: u32 = 30;
 
 /// The drawable data of a chart after skipping what cannot be drawn.
@@ -354,7 +363,15 @@ pub fn render_svg(chart: &Chart, width: u32, height: u32) -> Result<String, Plot
         let per_row = legend_columns(width);
         let rows = data.series.len().div_ceil(per_row).max(1) as u32;
         let legend_height = rows * LEGEND_ROW + 10;
-        let (upper, legend) = root.split_vertically(height.saturating_sub(legend_height));
+        let caption = caption_lines(&chart.caption, width);
+        let caption_height = if caption.is_empty() {
+            0
+        } else {
+            caption.len() as u32 * CAPTION_ROW + 8
+        };
+        let (main, caption_area) = root.split_vertically(height.saturating_sub(caption_height));
+        let (upper, legend) =
+            main.split_vertically(height.saturating_sub(caption_height + legend_height));
         let (title_area, plot_area) = upper.split_vertically(TITLE_BAND);
         title_area
             .draw(&Text::new(
@@ -397,12 +414,29 @@ pub fn render_svg(chart: &Chart, width: u32, height: u32) -> Result<String, Plot
         }
         .map_err(|e| fail(&e))?;
         draw_legend(&legend, &data, per_row).map_err(|e| fail(&e))?;
+        for (i, line) in caption.iter().enumerate() {
+            caption_area
+                .draw(&Text::new(
+                    line.clone(),
+                    (12, (i as u32 * CAPTION_ROW) as i32),
+                    TextStyle::from((FONT, 13).into_font())
+                        .color(&REFERENCE_INK)
+                        .pos(Pos::new(HPos::Left, VPos::Top)),
+                ))
+                .map_err(|e| fail(&e))?;
+        }
         root.present().map_err(|e| fail(&e))?;
     }
     Ok(svg)
 }
 
 type DrawResult = Result<(), DrawingAreaErrorKind<std::io::Error>>;
+
+/// The caption's paragraphs wrapped to the picture's width (continuation lines indented).
+fn caption_lines(paragraphs: &[String], width: u32) -> Vec<String> {
+    let chars = (width.saturating_sub(24) / CAPTION_CHAR).max(20) as usize;
+    paragraphs.iter().flat_map(|p| wrap(p, chars)).collect()
+}
 
 /// Right margin: room for the longest reference-line label (about 7 px per character at
 /// the label size).
@@ -674,6 +708,7 @@ mod tests {
                 y: 96.0,
                 label: "worst case".into(),
             }],
+            caption: Vec::new(),
         }
     }
 
@@ -708,6 +743,24 @@ mod tests {
                 "missing label {label:?} in {t:?}"
             );
         }
+    }
+
+    #[test]
+    fn a_caption_is_wrapped_under_the_legend_and_every_word_is_kept() {
+        let mut chart = curve_chart();
+        let words: Vec<String> = (0..60).map(|i| format!("zq{i}")).collect();
+        chart.caption = vec![words.join(" ")];
+        let svg = render_svg(&chart, 400, 420).expect("renders");
+        let lines: Vec<String> = texts(&svg)
+            .into_iter()
+            .filter(|t| t.starts_with("zq"))
+            .collect();
+        assert!(lines.len() >= 2, "wrapped: {lines:?}");
+        let kept: Vec<&str> = lines.iter().flat_map(|l| l.split_whitespace()).collect();
+        assert_eq!(kept, words.iter().map(String::as_str).collect::<Vec<_>>());
+        // The smallest size still renders or says why, never panics.
+        let small = std::panic::catch_unwind(|| render_svg(&chart, MIN_WIDTH, MIN_HEIGHT));
+        assert!(small.is_ok());
     }
 
     #[test]
@@ -771,6 +824,7 @@ mod tests {
                 y: 1.0,
                 label: "skipped too".into(),
             }],
+            caption: Vec::new(),
         };
         let svg = render_svg(&chart, 400, 300).expect("renders the two usable points");
         let t = texts(&svg);
@@ -816,6 +870,7 @@ mod tests {
             }],
             reference_lines: vec![],
             markers: vec![],
+            caption: Vec::new(),
         };
         assert!(render_svg(&single(vec![(1.0, 1.0)], Scale::Linear), 400, 300).is_ok());
         assert!(render_svg(&single(vec![(0.0, 0.0)], Scale::Linear), 400, 300).is_ok());

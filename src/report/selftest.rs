@@ -1,4 +1,4 @@
-//! The qualification summary of `concord selftest`: a table for the terminal and a JSON
+//! The validation summary of `concord selftest`: a table for the terminal and a JSON
 //! document for archiving with a tool assessment (ISO 26262-8:2018 clause 11).
 //!
 //! JSON fields (kept stable; fields may be added, never renamed or dropped):
@@ -153,7 +153,7 @@ fn short(v: f64) -> String {
 /// The table: per group its sources, then one line per case, then the summary.
 pub fn render_table(suite: &SelfTest) -> String {
     let mut out = String::new();
-    let _ = writeln!(out, "{SUITE} {TOOL_VERSION}: qualification summary");
+    let _ = writeln!(out, "{SUITE} {TOOL_VERSION}: validation summary");
     let _ = writeln!(
         out,
         "reference data sha256 {}",
@@ -230,8 +230,8 @@ pub fn render_table(suite: &SelfTest) -> String {
     );
     for line in wrap(
         "These cases show that this build computes its reference cases within the stated \
-         bounds; they are evidence for a tool qualification, not a qualification by \
-         themselves.",
+         bounds; they are evidence for a tool assessment (ISO 26262-8:2018 clause 11), not a \
+         qualification by themselves.",
         98,
     ) {
         let _ = writeln!(out, "{line}");

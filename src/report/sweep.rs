@@ -1,14 +1,18 @@
 //! Output of `concord sweep`: rows written as they arrive (CSV or JSON), and the spread curve
 //! of one fault site.
 //!
+//! Every CSV file opens with a comment block (lines starting with `#`: the tool version and
+//! the cautions; tell a CSV reader that `#` starts a comment), every JSON object carries
+//! `cautions`, and every picture a caption with the cautions in short.
+//!
 //! CSV columns of a parameter sweep: the swept key, the series key (when there is one),
-//! `nuisance_alarm`, `residual_fit`, `spfm`, `lfm` (each followed by `_error`, its bound),
+//! `false_alarm`, `residual_fit`, `spfm`, `lfm` (each followed by `_error`, its bound),
 //! `asil_spfm`, `asil_lfm`, then per fault site `SITE.dc`, `SITE.dc_error`,
 //! `SITE.dc_all_dangerous`, `SITE.p_vu`, `SITE.p_vu_error`, `SITE.worst_sigma`.
 //!
 //! JSON of a parameter sweep: one object `{"tool_version", "file", "input_sha256", "vary",
-//! "series", "sites", "rows": [...]}` whose rows are written one per line as they arrive, so
-//! that a sweep of any length is never held in memory.
+//! "series", "sites", "cautions", "rows": [...]}` whose rows are written one per line as they
+//! arrive, so that a sweep of any length is never held in memory.
 
 use std::io::{self, Write};
 
@@ -17,6 +21,7 @@ use serde::Serialize;
 use crate::analysis::sweep::{SpreadCurve, SweepPlan, SweepRow};
 use crate::prob::Estimate;
 
+use super::cautions::{CAUTIONS, csv_comment_block, plot_caption};
 use super::csv::field as csv_field;
 use super::plot::{Chart, Marker, PlotError, ReferenceLine, Scale, Series, render_svg};
 use super::{TOOL_VERSION, input_sha256};
@@ -53,6 +58,7 @@ struct SweepHead<'a> {
     vary: &'a str,
     series: Option<&'a str>,
     sites: &'a [String],
+    cautions: &'a [&'a str],
 }
 
 impl<W: Write> SweepWriter<W> {
@@ -70,11 +76,12 @@ impl<W: Write> SweepWriter<W> {
     ) -> io::Result<Self> {
         match format {
             SweepFormat::Csv => {
+                write!(out, "{}", csv_comment_block())?;
                 let mut head = vec![csv_field(&plan.vary.key)];
                 if let Some(s) = &plan.series {
                     head.push(csv_field(&s.key));
                 }
-                for k in ["nuisance_alarm", "residual_fit", "spfm", "lfm"] {
+                for k in ["false_alarm", "residual_fit", "spfm", "lfm"] {
                     head.push(k.to_string());
                     head.push(format!("{k}_error"));
                 }
@@ -102,6 +109,7 @@ impl<W: Write> SweepWriter<W> {
                     vary: &plan.vary.key,
                     series: plan.series.as_ref().map(|s| s.key.as_str()),
                     sites,
+                    cautions: &CAUTIONS,
                 };
                 let text = serde_json::to_string(&headline).map_err(io::Error::other)?;
                 // Reopen the object to append the rows.
@@ -127,7 +135,7 @@ impl<W: Write> SweepWriter<W> {
                 if let Some(s) = row.series {
                     cells.push(format!("{s:e}"));
                 }
-                for e in [row.nuisance_alarm, row.residual_fit, row.spfm, row.lfm] {
+                for e in [row.false_alarm, row.residual_fit, row.spfm, row.lfm] {
                     cells.push(est(e));
                 }
                 cells.push(csv_field(row.asil_spfm.label()));
@@ -197,6 +205,7 @@ struct SpreadJson<'a> {
     amplitude_mean: f64,
     worst: Option<SpreadWorstJson>,
     points: Vec<SpreadRowJson>,
+    cautions: &'a [&'a str],
 }
 
 /// The CSV columns of a spread curve.
@@ -205,7 +214,8 @@ p_vu_error,p_sd,p_sd_error,p_sq,p_sq_error";
 
 /// The spread curve as CSV (one row per sigma, in the order computed).
 pub fn spread_csv(curve: &SpreadCurve) -> String {
-    let mut out = String::from(SPREAD_HEADER);
+    let mut out = csv_comment_block();
+    out.push_str(SPREAD_HEADER);
     out.push('\n');
     for p in &curve.points {
         let o = &p.outcome;
@@ -259,6 +269,7 @@ pub fn spread_json(curve: &SpreadCurve, file: &str, text: &str) -> Result<String
                 p_sq: p.outcome.p_sq,
             })
             .collect(),
+        cautions: &CAUTIONS,
     };
     serde_json::to_string_pretty(&json)
         .map(|mut s| {
@@ -294,7 +305,7 @@ pub fn spread_summary(curve: &SpreadCurve, unit: &str) -> String {
 }
 
 /// The low, medium and high diagnostic-coverage levels of ISO 26262-5:2018 Annex D (60, 90
-/// and 99 %, from memory), drawn as reference lines on every coverage plot.
+/// and 99 %, recalled, not checked against the published text), drawn as reference lines on every coverage plot.
 pub fn dc_levels() -> Vec<ReferenceLine> {
     [
         (60.0, "low DC 60 %"),
@@ -435,6 +446,7 @@ impl SweepPicture {
                 })
                 .into_iter()
                 .collect(),
+            caption: plot_caption(),
         }
     }
 
@@ -505,6 +517,7 @@ pub fn spread_chart(curve: &SpreadCurve, unit: &str) -> Chart {
         ],
         reference_lines: dc_levels(),
         markers,
+        caption: plot_caption(),
     }
 }
 

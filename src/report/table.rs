@@ -34,19 +34,19 @@ pub fn render(input: &ReportInput<'_>) -> String {
     let _ = writeln!(out, "Fault-free baseline");
     let _ = writeln!(
         out,
-        "  nuisance alarm (a check fires)       {:>11}  ± {}",
+        "  false alarm (a check fires)           {:>11}  ± {}",
         probability(b.alarm().value),
         bound(b.alarm().error)
     );
     let _ = writeln!(
         out,
-        "  intrinsic violation (output outside) {:>11}  ± {}",
+        "  fault-free violation (output outside) {:>11}  ± {}",
         probability(b.violation().value),
         bound(b.violation().error)
     );
     let _ = writeln!(
         out,
-        "  of which undetected, p_vu            {:>11}  ± {}",
+        "  of which undetected, p_vu             {:>11}  ± {}",
         probability(b.p_vu.value),
         bound(b.p_vu.error)
     );
@@ -54,8 +54,16 @@ pub fn render(input: &ReportInput<'_>) -> String {
     let _ = writeln!(out, "Fault sites: coverage and residual");
     let _ = writeln!(
         out,
-        "{:<16} {:>8} {:>7} {:>8} {:>8} {:>10} {:>7} {:>11} {:>11}",
-        "site", "FIT", "mode", "DC %", "DCad %", "p_vu", "bound", "worst sigma", "resid. FIT"
+        "{:<16} {:>8} {:>7} {:>8} {:>13} {:>10} {:>7} {:>11} {:>11}",
+        "site",
+        "FIT",
+        "mode",
+        "DC %",
+        "DC all-dang %",
+        "p_vu",
+        "bound",
+        "worst sigma",
+        "resid. FIT"
     );
     for s in &a.sites {
         let o = &s.outcome;
@@ -66,7 +74,7 @@ pub fn render(input: &ReportInput<'_>) -> String {
             .map_or("-".to_string(), |w| number(w.sigma));
         let _ = writeln!(
             out,
-            "{:<16} {:>8} {:>7} {:>8} {:>8} {:>10} {:>7} {:>11} {:>11}",
+            "{:<16} {:>8} {:>7} {:>8} {:>13} {:>10} {:>7} {:>11} {:>11}",
             clip(&s.name, 16),
             number(s.fit),
             s.mode,
@@ -115,7 +123,9 @@ pub fn render(input: &ReportInput<'_>) -> String {
     let m = &a.metrics;
     let _ = writeln!(
         out,
-        "Hardware metrics (targets: ISO 26262-5:2018 Tables 4 and 5, from memory)"
+        "Hardware metrics (targets: ISO 26262-5:2018 Tables 4 and 5, recalled, not checked \
+         against\nthe published text; a target is met when the value minus its error bound \
+         meets it)"
     );
     let _ = writeln!(out, "  total rate          {} FIT", fit(m.total_fit));
     let _ = writeln!(
@@ -191,7 +201,8 @@ pub fn render(input: &ReportInput<'_>) -> String {
     let _ = writeln!(out);
     let _ = writeln!(
         out,
-        "DC = p_vd / (p_vd + p_vu); DCad = 1 - p_vu (every fault counted dangerous)."
+        "DC = p_vd / (p_vd + p_vu); DC all-dang = 1 - p_vu, the coverage when every fault of \
+         the site\ncounts as dangerous (dc_all_dangerous in JSON)."
     );
     let _ = writeln!(
         out,

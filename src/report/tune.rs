@@ -5,7 +5,7 @@ use serde::Serialize;
 
 use crate::analysis::tune::{TradeOffPoint, TuneResult};
 
-use super::cautions::CAUTIONS;
+use super::cautions::{CAUTIONS, csv_comment_block, plot_caption};
 use super::csv::field as csv_field;
 use super::format::{percent_with_bound, probability};
 use super::plot::{Chart, Marker, PlotError, ReferenceLine, Scale, Series, render_svg};
@@ -90,7 +90,7 @@ pub fn summary(result: &TuneResult, file: &str) -> String {
             if result.at_range_end {
                 out.push_str(
                     "  the widest band of the range meets the target: a wider range may allow a \
-                     cheaper band (give --scale LO:HI)\n",
+                     wider band with fewer false alarms (give --scale LO:HI)\n",
                 );
             }
         }
@@ -148,7 +148,8 @@ pub fn json(result: &TuneResult, file: &str, text: &str) -> Result<String, Strin
         .map_err(|e| e.to_string())
 }
 
-/// The trade-off curve as CSV: `scale`, the keys set, `false_alarm`, `false_alarm_error`,
+/// The trade-off curve as CSV, after the comment block of the cautions (lines starting with
+/// `#`): `scale`, the keys set, `false_alarm`, `false_alarm_error`,
 /// `coverage`, `coverage_error`, `weakest_site`, `meets`.
 pub fn curve_csv(result: &TuneResult) -> String {
     let keys: Vec<String> = result
@@ -156,7 +157,8 @@ pub fn curve_csv(result: &TuneResult) -> String {
         .first()
         .map(|p| p.limits.iter().map(|(k, _)| k.clone()).collect())
         .unwrap_or_default();
-    let mut out = String::from("scale");
+    let mut out = csv_comment_block();
+    out.push_str("scale");
     for k in &keys {
         out.push(',');
         out.push_str(&csv_field(k));
@@ -227,6 +229,7 @@ pub fn trade_off_chart(result: &TuneResult) -> Chart {
         }],
         reference_lines,
         markers,
+        caption: plot_caption(),
     }
 }
 

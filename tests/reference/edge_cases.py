@@ -18,7 +18,7 @@ Reductions (derived by hand, stated per case):
   one standard normal z; the event is an interval of z, found exactly;
 - a uniform amplitude: the figure at a fixed amplitude, integrated over the amplitude with
   breakpoints where it changes fast (mpmath tanh-sinh quadrature);
-- median of three independent equal channels with a spread check: the joint density of the
+- median of three independent equal channels with a range check: the joint density of the
   order statistics, 6 phi(x1) phi(x2) phi(x3) on x1 < x2 < x3 (David and Nagaraja, Order
   Statistics, 2.2), integrated over the median and the minimum.
 
@@ -130,11 +130,11 @@ def rank_one(y0, y1, d0, d1, L, T):
     return four(prob)
 
 
-def median_spread(sigma, L, T):
-    """Median of three iid N(0, sigma^2), spread check max - min > T, safety |median| > L.
+def median_range(sigma, L, T):
+    """Median of three iid N(0, sigma^2), range check max - min > T, safety |median| > L.
 
-    Only the baseline residual p_vu = P(|median| > L, spread <= T) is computed:
-    by symmetry 2 P(median > L, spread <= T) = 2 * 6 * integral over m > L of phi(m)
+    Only the baseline residual p_vu = P(|median| > L, range <= T) is computed:
+    by symmetry 2 P(median > L, range <= T) = 2 * 6 * integral over m > L of phi(m)
     integral over x1 in [m - T, m] of phi(x1) (Phi(x1 + T) - Phi(m)) (standardised).
     """
     l, t = L / sigma, T / sigma
@@ -245,19 +245,19 @@ def cases():
                 "independent channels; product of normal probabilities",
                 two_channel_file("residual near 1e-12", s, s, None, T, L), tiny2))
 
-    # 3. Residual near 1e-12 with three channels, median output, spread check.
+    # 3. Residual near 1e-12 with three channels, median output, range check.
     s3, T3, L3 = 1.0, 3.0, 4.6
     three = (f'name = "median of three, residual near 1e-12"\nunit = "mm"\n\n'
              + "".join(f"[channels.{c}]\nmean = 0.0\nsigma = {s3!r}\n\n" for c in "abc")
              + '[output]\nkind = "median"\nof = ["a", "b", "c"]\n\n'
-             + f'[checks.spread]\nkind = "spread"\nof = ["a", "b", "c"]\nlimit = {T3!r}\n\n'
+             + f'[checks.range]\nkind = "range"\nof = ["a", "b", "c"]\nlimit = {T3!r}\n\n'
              + f"[safety]\nlimit = {L3!r}\n")
 
     def tiny3(s3=s3, T3=T3, L3=L3):
-        return {"baseline": {"p_vu": median_spread(mpf(s3), mpf(L3), mpf(T3))}}
+        return {"baseline": {"p_vu": median_range(mpf(s3), mpf(L3), mpf(T3))}}
 
     out.append(("residual_1e-12_median_of_three", "baseline residual about 1e-12 of a "
-                "median of three with a spread check; order-statistics density",
+                "median of three with a range check; order-statistics density",
                 three, tiny3))
 
     # 4. Sigmas from 1e-6 to 1e6 in one file: the output is channel a (sigma 1e-6), the

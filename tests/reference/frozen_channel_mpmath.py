@@ -1,5 +1,5 @@
 """Reference for a channel frozen at an arbitrary value (uniform amplitude, replace mode) in
-the two-channel example architectures/kestrel_swa2_mean.toml, fault site b_frozen.
+the two-channel example architectures/plovrant_swa2_mean.toml, fault site b_frozen.
 
 Channel a = 0.15 + 0.5 z (z standard normal); channel b reads F, F uniform on [-540, 540].
 Output y = (a + F) / 2, safety |y| <= 2; check |a - F| <= 2.5 (fires outside). For a fixed F
