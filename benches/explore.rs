@@ -22,14 +22,16 @@ fn spread(c: &mut Criterion) {
 }
 
 fn tuning(c: &mut Criterion) {
+    let arch = load_str(FILE, "kestrel_swa2_mean.toml").unwrap();
     let options = AnalysisOptions::default();
     let request = TuneRequest::new(Some("ab".into()), CoverageFigure::DcAllDangerous, 0.95);
     c.bench_function("tune to dc_all_dangerous 95 %, two channels", |b| {
-        b.iter(|| tune(FILE, "kestrel_swa2_mean.toml", &request, &options, &|| {}).unwrap())
+        b.iter(|| tune(&arch, &request, &options, &|| {}).unwrap())
     });
 }
 
 fn grid(c: &mut Criterion) {
+    let arch = load_str(FILE, "kestrel_swa2_mean.toml").unwrap();
     let options = AnalysisOptions::default();
     let plan = SweepPlan::new(
         Axis::linear("safety.limit", 1.0, 4.0, 100).unwrap(),
@@ -41,7 +43,7 @@ fn grid(c: &mut Criterion) {
     group.bench_function("100 x 100 (safety limit, threshold), two channels", |b| {
         b.iter(|| {
             let mut rows = 0usize;
-            sweep::<concord::analysis::AnalysisError>(FILE, "f.toml", &plan, &options, |_| {
+            sweep::<concord::analysis::AnalysisError>(&arch, &plan, &options, |_| {
                 rows += 1;
                 Ok(())
             })

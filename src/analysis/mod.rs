@@ -32,7 +32,7 @@ pub mod site;
 pub mod sweep;
 pub mod tune;
 
-pub use error::AnalysisError;
+pub use error::{AnalysisError, RequestField};
 pub use options::AnalysisOptions;
 pub use outcome::{Figure, Outcome};
 pub use run::{Analysis, analyze};

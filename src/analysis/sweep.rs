@@ -2,8 +2,8 @@
 //! file (optionally in several series of a second key), and the figures of one fault site
 //! over the spread of its gaussian amplitude.
 //!
-//! A parameter sweep reloads the file with the swept values set by dotted key path
-//! ([`crate::model::load_str_with_overrides`]) and runs [`analyze`] at every point, so each
+//! A parameter sweep has the model set the swept values by dotted key path
+//! ([`Architecture::with_overrides`]) and runs [`analyze`] at every point, so each
 //! row is, bit for bit, what `concord analyze` prints for the file edited by hand. Points
 //! run in parallel in chunks of four per thread (`CHUNK_PER_THREAD`) and are handed on in
 //! order, one chunk at a time: a sweep of any length holds one chunk in memory. The chunk
@@ -13,10 +13,10 @@
 use rayon::prelude::*;
 use serde::Serialize;
 
-use crate::model::{Amplitude, CompiledModel, load_str_with_overrides};
+use crate::model::{Amplitude, Architecture, CompiledModel};
 use crate::prob::Estimate;
 
-use super::error::AnalysisError;
+use super::error::{AnalysisError, RequestField};
 use super::metrics::Asil;
 use super::options::AnalysisOptions;
 use super::outcome::Outcome;
@@ -45,7 +45,7 @@ impl Axis {
     /// `points` values evenly spaced from `from` to `to` (both included).
     ///
     /// # Errors
-    /// [`AnalysisError::InvalidOption`] for non-finite ends or fewer than one point.
+    /// [`AnalysisError::InvalidRequest`] for non-finite ends or fewer than one point.
     pub fn linear(key: &str, from: f64, to: f64, points: usize) -> Result<Self, AnalysisError> {
         check_ends(key, from, to, points)?;
         let values = if points == 1 {
@@ -71,15 +71,15 @@ impl Axis {
     /// `points` values evenly spaced in the logarithm from `from` to `to` (both positive).
     ///
     /// # Errors
-    /// [`AnalysisError::InvalidOption`] for non-positive or non-finite ends.
+    /// [`AnalysisError::InvalidRequest`] for non-positive or non-finite ends.
     pub fn log(key: &str, from: f64, to: f64, points: usize) -> Result<Self, AnalysisError> {
         check_ends(key, from, to, points)?;
         if from <= 0.0 || to <= 0.0 {
             return Err(invalid(
                 key,
                 format!(
-                    "a logarithmic range needs positive ends, got {from} to {to}; \
-                     drop --log or give positive values"
+                    "a logarithmic range needs positive ends, got {from} to {to}; give \
+                     positive ends, or space the values linearly"
                 ),
             ));
         }
@@ -108,7 +108,7 @@ impl Axis {
     /// The values as given.
     ///
     /// # Errors
-    /// [`AnalysisError::InvalidOption`] for an empty list or a non-finite value.
+    /// [`AnalysisError::InvalidRequest`] for an empty list or a non-finite value.
     pub fn list(key: &str, values: Vec<f64>) -> Result<Self, AnalysisError> {
         if values.is_empty() {
             return Err(invalid(key, "give at least one value".into()));
@@ -124,11 +124,9 @@ impl Axis {
     }
 }
 
-fn invalid(option: &str, message: String) -> AnalysisError {
-    AnalysisError::InvalidOption {
-        option: option.to_string(),
-        message,
-    }
+/// An invalid request about the values of the axis of `key`.
+fn invalid(key: &str, message: String) -> AnalysisError {
+    AnalysisError::invalid(RequestField::AxisValues(key.to_string()), message)
 }
 
 fn check_ends(key: &str, from: f64, to: f64, points: usize) -> Result<(), AnalysisError> {
@@ -171,13 +169,16 @@ impl SweepPlan {
     /// the same key.
     ///
     /// # Errors
-    /// [`AnalysisError::TooLarge`] or [`AnalysisError::InvalidOption`].
+    /// [`AnalysisError::TooLarge`] or [`AnalysisError::InvalidRequest`].
     pub fn new(vary: Axis, series: Option<Axis>) -> Result<Self, AnalysisError> {
         let plan = Self { vary, series };
         if let Some(s) = plan.series.as_ref().filter(|s| s.key == plan.vary.key) {
-            return Err(invalid(
-                &s.key,
-                "the series key is the swept key; give two different keys".into(),
+            return Err(AnalysisError::invalid(
+                RequestField::SweepSeries,
+                format!(
+                    "the series key {} is the swept key; give two different keys",
+                    s.key
+                ),
             ));
         }
         let total = plan
@@ -300,24 +301,24 @@ impl SweepRow {
     }
 }
 
-/// Loads the file's text with `overrides` set and analyses it: exactly what `analyze` does
-/// on a copy of the file with those values written in.
+/// Analyses `arch` with `overrides` set: exactly what `analyze` does on a copy of the file
+/// with those values written in.
 ///
 /// # Errors
 /// [`AnalysisError::Model`] when the values make the file invalid (naming them), or the
 /// analysis's own errors.
 pub fn analyze_with_overrides(
-    text: &str,
-    path: &str,
+    arch: &Architecture,
     overrides: &[(String, f64)],
     options: &AnalysisOptions,
 ) -> Result<Analysis, AnalysisError> {
-    let arch =
-        load_str_with_overrides(text, path, overrides).map_err(|source| AnalysisError::Model {
+    let edited = arch
+        .with_overrides(overrides)
+        .map_err(|source| AnalysisError::Model {
             context: format!("with {}", describe_overrides(overrides)),
             source: Box::new(source),
         })?;
-    analyze(&arch.model, options, false).map_err(|e| match e {
+    analyze(&edited.model, options, false).map_err(|e| match e {
         AnalysisError::Engine { context, source } => AnalysisError::Engine {
             context: format!("with {}, {context}", describe_overrides(overrides)),
             source,
@@ -335,27 +336,23 @@ pub fn describe_overrides(overrides: &[(String, f64)]) -> String {
         .join(", ")
 }
 
-/// The names of the fault sites of the file, in file order, checked at the first and the
+/// The names of the fault sites of `arch`, in file order, checked at the first and the
 /// last point of the plan so that a bad key or value is reported before the sweep starts.
 ///
 /// # Errors
 /// [`AnalysisError::Model`] naming the point whose values make the file invalid.
-pub fn prepare_sweep(
-    text: &str,
-    path: &str,
-    plan: &SweepPlan,
-) -> Result<Vec<String>, AnalysisError> {
+pub fn prepare_sweep(arch: &Architecture, plan: &SweepPlan) -> Result<Vec<String>, AnalysisError> {
     let mut names = Vec::new();
     let last = plan.len().saturating_sub(1);
     for index in [0, last] {
         let overrides = plan.overrides(index);
-        let arch = load_str_with_overrides(text, path, &overrides).map_err(|source| {
-            AnalysisError::Model {
+        let edited = arch
+            .with_overrides(&overrides)
+            .map_err(|source| AnalysisError::Model {
                 context: format!("sweep point {index} ({})", describe_overrides(&overrides)),
                 source: Box::new(source),
-            }
-        })?;
-        names = arch.model.faults.iter().map(|f| f.name.clone()).collect();
+            })?;
+        names = edited.model.faults.iter().map(|f| f.name.clone()).collect();
     }
     Ok(names)
 }
@@ -366,8 +363,7 @@ pub fn prepare_sweep(
 /// # Errors
 /// The first point's error, naming its values, or the error `emit` returns.
 pub fn sweep<E>(
-    text: &str,
-    path: &str,
+    arch: &Architecture,
     plan: &SweepPlan,
     options: &AnalysisOptions,
     mut emit: impl FnMut(SweepRow) -> Result<(), E>,
@@ -384,7 +380,7 @@ where
             .into_par_iter()
             .map(|index| {
                 let (x, s) = plan.point(index);
-                let analysis = analyze_with_overrides(text, path, &plan.overrides(index), options)?;
+                let analysis = analyze_with_overrides(arch, &plan.overrides(index), options)?;
                 Ok(SweepRow::of(index, x, s, &analysis))
             })
             .collect();
@@ -425,7 +421,7 @@ pub struct SpreadCurve {
 /// ([`crate::model::default_sigma_range`]).
 ///
 /// # Errors
-/// [`AnalysisError::InvalidOption`] when the site does not exist or its amplitude is not
+/// [`AnalysisError::InvalidRequest`] when the site does not exist or its amplitude is not
 /// gaussian.
 pub fn default_spread_range(
     model: &CompiledModel,
@@ -442,8 +438,8 @@ fn gaussian_site(
 ) -> Result<(usize, f64, (f64, f64)), AnalysisError> {
     let Some(index) = model.faults.iter().position(|f| f.name == site) else {
         let names: Vec<&str> = model.faults.iter().map(|f| f.name.as_str()).collect();
-        return Err(invalid(
-            "--site",
+        return Err(AnalysisError::invalid(
+            RequestField::SpreadSite,
             format!(
                 "no fault site '{site}' in the file; the sites are: {}",
                 names.join(", ")
@@ -466,8 +462,8 @@ fn gaussian_site(
             sigma_hi,
             ..
         } => Ok((index, *mean, (*sigma_lo, *sigma_hi))),
-        _ => Err(invalid(
-            "--site",
+        _ => Err(AnalysisError::invalid(
+            RequestField::SpreadSite,
             format!(
                 "fault site '{site}' has a {} amplitude; a spread sweep needs a gaussian one \
                  (amplitude = {{ gaussian = {{ mean = .., sigma = .. }} }})",
@@ -485,7 +481,7 @@ fn gaussian_site(
 /// depend on the thread count.
 ///
 /// # Errors
-/// [`AnalysisError::InvalidOption`] for an unknown or non-gaussian site or a sigma that is
+/// [`AnalysisError::InvalidRequest`] for an unknown or non-gaussian site or a sigma that is
 /// not positive; engine errors naming the site and sigma.
 pub fn spread_curve(
     model: &CompiledModel,
@@ -495,15 +491,15 @@ pub fn spread_curve(
 ) -> Result<SpreadCurve, AnalysisError> {
     let (index, mean, _) = gaussian_site(model, site)?;
     if sigmas.is_empty() {
-        return Err(invalid(
-            "--points",
-            "a spread sweep needs at least one sigma".into(),
+        return Err(AnalysisError::invalid(
+            RequestField::SpreadSigmas,
+            "a spread sweep needs at least one sigma",
         ));
     }
     check_count("sigma", sigmas.len())?;
     if let Some(s) = sigmas.iter().find(|s| !(s.is_finite() && **s > 0.0)) {
-        return Err(invalid(
-            "sigma",
+        return Err(AnalysisError::invalid(
+            RequestField::SpreadSigmas,
             format!("{s} is not a positive finite sigma; give a range of positive values"),
         ));
     }

@@ -9,7 +9,7 @@
 use std::path::{Path, PathBuf};
 
 use super::args::{AnalyzeArgs, CompareArgs, CoverageArg, Format, Method, TuneArgs, TuneFormat};
-use super::{Failure, analyze, compare, report, tune};
+use super::{CliError, analyze, compare, report, tune, write_output};
 
 /// The scenario's architecture files, bundled into the binary: (file name, text).
 pub const FILES: [(&str, &str); 2] = [
@@ -40,9 +40,9 @@ fn write(
     text: &str,
     what: &str,
     list: &mut Vec<Entry>,
-) -> Result<(), Failure> {
+) -> Result<(), CliError> {
     let path = dir.join(name);
-    report::write_file(&path, text)?;
+    write_output(&path, text)?;
     list.push(Entry {
         path,
         what: what.to_string(),
@@ -55,14 +55,9 @@ fn stem(name: &str) -> &str {
 }
 
 /// Runs the demo.
-pub fn run(args: &super::args::DemoArgs) -> Result<String, Failure> {
+pub fn run(args: &super::args::DemoArgs) -> Result<String, CliError> {
     let dir = &args.out;
-    std::fs::create_dir_all(dir).map_err(|e| {
-        Failure::input(format!(
-            "concord demo: cannot create the folder {}: {e}; give another with --out",
-            dir.display()
-        ))
-    })?;
+    std::fs::create_dir_all(dir).map_err(|e| CliError::write(dir, e))?;
     let mut list = Vec::new();
     let mut files = Vec::new();
     for (name, text) in FILES {
@@ -197,9 +192,10 @@ pub fn run(args: &super::args::DemoArgs) -> Result<String, Failure> {
         dir.join("report-wren_dual_plausibility.html").display()
     ));
     if disagree {
-        return Err(Failure::computation(format!(
-            "{out}concord demo: the Monte Carlo cross-check of a report disagrees (see its section 9)"
-        )));
+        return Err(CliError::CrossCheckDisagrees {
+            shown_in: "section 9 of the reports",
+            output: out,
+        });
     }
     Ok(out)
 }

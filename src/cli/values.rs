@@ -3,46 +3,61 @@
 
 use crate::analysis::sweep::Axis;
 
-use super::Failure;
+use super::CliError;
+
+/// A malformed value of `option`.
+fn malformed(option: &str, message: String) -> CliError {
+    CliError::Value {
+        flag: option.to_string(),
+        message,
+    }
+}
 
 /// A number, or an input failure naming the option.
-pub fn number(text: &str, option: &str) -> Result<f64, Failure> {
+pub fn number(text: &str, option: &str) -> Result<f64, CliError> {
     let v: f64 = text.trim().parse().map_err(|_| {
-        Failure::input(format!(
-            "concord: {option}: `{text}` is not a number (write e.g. 2.5 or 1e-3)"
-        ))
+        malformed(
+            option,
+            format!("`{text}` is not a number (write e.g. 2.5 or 1e-3)"),
+        )
     })?;
     if !v.is_finite() {
-        return Err(Failure::input(format!(
-            "concord: {option}: `{text}` is not a finite number"
-        )));
+        return Err(malformed(
+            option,
+            format!("`{text}` is not a finite number"),
+        ));
     }
     Ok(v)
 }
 
 /// `FROM:TO` as two numbers.
-pub fn range(text: &str, option: &str) -> Result<(f64, f64), Failure> {
+pub fn range(text: &str, option: &str) -> Result<(f64, f64), CliError> {
     let Some((a, b)) = text.split_once(':') else {
-        return Err(Failure::input(format!(
-            "concord: {option}: `{text}` is not a range; write FROM:TO, e.g. 0.5:4"
-        )));
+        return Err(malformed(
+            option,
+            format!("`{text}` is not a range; write FROM:TO, e.g. 0.5:4"),
+        ));
     };
     Ok((number(a, option)?, number(b, option)?))
 }
 
 /// `KEY=FROM:TO` (spaced over `points`, logarithmically when `log`) or `KEY=V1,V2,...`.
-pub fn axis(spec: &str, points: usize, log: bool, option: &str) -> Result<Axis, Failure> {
+pub fn axis(spec: &str, points: usize, log: bool, option: &str) -> Result<Axis, CliError> {
     let Some((key, values)) = spec.split_once('=') else {
-        return Err(Failure::input(format!(
-            "concord: {option}: `{spec}` names no values; write KEY=FROM:TO or KEY=V1,V2, \
+        return Err(malformed(
+            option,
+            format!(
+                "`{spec}` names no values; write KEY=FROM:TO or KEY=V1,V2, \
              e.g. safety.limit=1:4"
-        )));
+            ),
+        ));
     };
     let key = key.trim();
     if key.is_empty() {
-        return Err(Failure::input(format!(
-            "concord: {option}: `{spec}` has no key before `=`; write e.g. checks.ab.limit=2:3"
-        )));
+        return Err(malformed(
+            option,
+            format!("`{spec}` has no key before `=`; write e.g. checks.ab.limit=2:3"),
+        ));
     }
     let built = if values.contains(':') {
         let (from, to) = range(values, option)?;
@@ -55,24 +70,33 @@ pub fn axis(spec: &str, points: usize, log: bool, option: &str) -> Result<Axis, 
         let list = values
             .split(',')
             .map(|v| number(v, option))
-            .collect::<Result<Vec<f64>, Failure>>()?;
+            .collect::<Result<Vec<f64>, CliError>>()?;
         Axis::list(key, list)
     };
-    built.map_err(|e| Failure::input(format!("concord: {option}: {e}")))
+    // A log axis has rules of its own (positive ends): name the option that asked for it.
+    let flag = if log {
+        format!("{option} (with --log)")
+    } else {
+        option.to_string()
+    };
+    built.map_err(|error| CliError::Request { flag, error })
 }
 
 /// A coverage target: a fraction in (0, 1] or a percentage written with `%`.
-pub fn coverage_target(text: &str, option: &str) -> Result<f64, Failure> {
+pub fn coverage_target(text: &str, option: &str) -> Result<f64, CliError> {
     let t = text.trim();
     let value = match t.strip_suffix('%') {
         Some(p) => number(p, option)? / 100.0,
         None => number(t, option)?,
     };
     if !(value > 0.0 && value <= 1.0) {
-        return Err(Failure::input(format!(
-            "concord: {option}: `{text}` is not a coverage; give a fraction in (0, 1] such as \
+        return Err(malformed(
+            option,
+            format!(
+                "`{text}` is not a coverage; give a fraction in (0, 1] such as \
              0.99, or a percentage such as 99%"
-        )));
+            ),
+        ));
     }
     Ok(value)
 }

@@ -1,4 +1,5 @@
-//! Overrides: numeric values set by dotted key path before validation (used by sweeps), e.g.
+//! Overrides: numeric values set by dotted key path before validation (used by sweeps and
+//! tuning through [`Architecture::with_overrides`]), e.g.
 //! `safety.limit`, `checks.ab.limit`, `channels.a.sigma`, `correlations.0.rho` (or
 //! `correlations[0].rho`), `faults.a_drift.amplitude.gaussian.sigma`.
 //!
@@ -7,8 +8,25 @@
 //! `latent_coverage`); anything else is an error naming the path. The overridden value is
 //! then validated like any other, and messages about it say that an override set it.
 
-use super::error::Sink;
+use super::compiled::Architecture;
+use super::error::{ModelError, Sink};
 use super::tree::{Entry, Node, Value};
+
+impl Architecture {
+    /// The architecture with `overrides` set on top of the values this one already has: the
+    /// file reloaded with its overrides and then these, validated and compiled again. The
+    /// result is what loading the file with those values written in by hand gives (a later
+    /// value for the same key wins).
+    ///
+    /// # Errors
+    /// [`ModelError::Invalid`] with every problem found, including each path that names
+    /// nothing in the file and each value that makes the file invalid.
+    pub fn with_overrides(&self, overrides: &[(String, f64)]) -> Result<Architecture, ModelError> {
+        let mut all = self.overrides.clone();
+        all.extend_from_slice(overrides);
+        super::load_str_with_overrides(&self.source, &self.path, &all)
+    }
+}
 
 /// Keys that may be added by an override when the file leaves them out.
 const OPTIONAL_NUMERIC: &[&str] = &[
