@@ -3,9 +3,9 @@
 
 use super::error::Sink;
 use super::limits;
+use super::names::{NameRef, Namespace};
 use super::raw::*;
 use super::resolved::*;
-use super::validate::{NameRef, Namespace};
 
 /// Largest k with k! <= MAX_PIECES: the most arguments of an order statistic.
 pub(crate) fn max_order_args() -> usize {

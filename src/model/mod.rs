@@ -6,8 +6,8 @@
 //! 2. `overrides`: numeric values set by key path (sweeps, tuning; `bands` says which keys
 //!    move the band of a check);
 //! 3. `read`: key names, value types, required keys -> the raw model;
-//! 4. `validate` (with `functions`, `faults`, `psd`): names, references and numbers -> the
-//!    resolved model;
+//! 4. `validate` (with `names`, `functions`, `faults`, `psd`): names, references and numbers
+//!    -> the resolved model;
 //! 5. `graph`: the petgraph graph, cycles among signals, unused nodes (warnings);
 //! 6. `compile` (with `pieces`): mean, covariance, piecewise-linear functions, fault maps.
 //!
@@ -23,6 +23,7 @@ mod faults;
 mod functions;
 mod graph;
 pub mod limits;
+mod names;
 mod overrides;
 mod pieces;
 mod psd;
