@@ -6,7 +6,8 @@
 use criterion::{Criterion, criterion_group, criterion_main};
 
 use concord::analysis::AnalysisOptions;
-use concord::analysis::sweep::{Axis, SweepPlan, spread_curve, sweep};
+use concord::analysis::spread::spread_curve;
+use concord::analysis::sweep::{Axis, SweepPlan, sweep};
 use concord::analysis::tune::{CoverageFigure, TuneRequest, tune};
 use concord::model::load_str;
 

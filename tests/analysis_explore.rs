@@ -17,7 +17,8 @@
 //! independent of concord's Cody-based CDF); its inverse is `statrs`' normal quantile.
 
 use concord::analysis::AnalysisOptions;
-use concord::analysis::sweep::{Axis, SweepPlan, SweepRow, spread_curve, sweep};
+use concord::analysis::spread::spread_curve;
+use concord::analysis::sweep::{Axis, SweepPlan, SweepRow, sweep};
 use concord::analysis::tune::{CoverageFigure, TuneRequest, tune};
 use concord::model::load_str;
 use statrs::distribution::{ContinuousCDF, Normal};

@@ -1,6 +1,6 @@
-//! Sweeps: the whole analysis repeated over the values of one numeric key of an architecture
-//! file (optionally in several series of a second key), and the figures of one fault site
-//! over the spread of its gaussian amplitude.
+//! Parameter sweeps: the whole analysis repeated over the values of one numeric key of an
+//! architecture file (optionally in several series of a second key). The figures of one fault
+//! site over the spread of its amplitude are in [`super::spread`].
 //!
 //! A parameter sweep has the model set the swept values by dotted key path
 //! ([`Architecture::with_overrides`]) and runs [`analyze`] at every point, so each
@@ -13,16 +13,18 @@
 use rayon::prelude::*;
 use serde::Serialize;
 
-use crate::model::{Amplitude, Architecture, CompiledModel};
+use crate::model::Architecture;
 use crate::prob::Estimate;
 
 use super::error::{AnalysisError, RequestField};
 use super::metrics::Asil;
 use super::options::AnalysisOptions;
-use super::outcome::Outcome;
-use super::run::{Analysis, Prepared, analyze};
-use super::scenario::FaultScenario;
-use super::site::{SiteResult, analyze_site};
+use super::run::{Analysis, analyze};
+use super::site::SiteResult;
+
+/// Re-exported where the report layer imports it from (`report/sweep.rs`); new code imports
+/// it from [`super::spread`].
+pub use super::spread::SpreadCurve;
 
 /// Most points of one sweep (the product of both axes). Past it a sweep is refused rather
 /// than left to run for hours; split it into several runs.
@@ -142,7 +144,7 @@ fn check_ends(key: &str, from: f64, to: f64, points: usize) -> Result<(), Analys
     check_count(key, points)
 }
 
-fn check_count(key: &str, points: usize) -> Result<(), AnalysisError> {
+pub(crate) fn check_count(key: &str, points: usize) -> Result<(), AnalysisError> {
     if points > MAX_SWEEP_POINTS {
         return Err(AnalysisError::TooLarge {
             what: format!("the sweep of {key}"),
@@ -209,21 +211,28 @@ impl SweepPlan {
 
     /// The swept value and the series value of point `index`.
     pub fn point(&self, index: usize) -> (f64, Option<f64>) {
-        let n = self.vary.values.len().max(1);
-        let x = self.vary.values.get(index % n).copied().unwrap_or(f64::NAN);
-        let s = self
-            .series
-            .as_ref()
-            .map(|s| s.values.get(index / n).copied().unwrap_or(f64::NAN));
-        (x, s)
+        let per_series = self.vary.values.len().max(1);
+        let swept = self
+            .vary
+            .values
+            .get(index % per_series)
+            .copied()
+            .unwrap_or(f64::NAN);
+        let series = self.series.as_ref().map(|axis| {
+            axis.values
+                .get(index / per_series)
+                .copied()
+                .unwrap_or(f64::NAN)
+        });
+        (swept, series)
     }
 
     /// The overrides of point `index`.
     pub fn overrides(&self, index: usize) -> Vec<(String, f64)> {
-        let (x, s) = self.point(index);
-        let mut list = vec![(self.vary.key.clone(), x)];
-        if let (Some(axis), Some(v)) = (&self.series, s) {
-            list.push((axis.key.clone(), v));
+        let (swept, series) = self.point(index);
+        let mut list = vec![(self.vary.key.clone(), swept)];
+        if let (Some(axis), Some(value)) = (&self.series, series) {
+            list.push((axis.key.clone(), value));
         }
         list
     }
@@ -379,9 +388,9 @@ where
         let rows: Vec<Result<SweepRow, AnalysisError>> = (start..end)
             .into_par_iter()
             .map(|index| {
-                let (x, s) = plan.point(index);
+                let (swept, series) = plan.point(index);
                 let analysis = analyze_with_overrides(arch, &plan.overrides(index), options)?;
-                Ok(SweepRow::of(index, x, s, &analysis))
+                Ok(SweepRow::of(index, swept, series, &analysis))
             })
             .collect();
         for row in rows {
@@ -390,162 +399,6 @@ where
         start = end;
     }
     Ok(())
-}
-
-/// One point of a spread curve.
-#[derive(Debug, Clone, PartialEq, Serialize)]
-pub struct SpreadPoint {
-    /// The sigma of the fault amplitude.
-    pub sigma: f64,
-    /// The four figures at that sigma.
-    #[serde(skip)]
-    pub outcome: Outcome,
-}
-
-/// The figures of one gaussian fault site over the spread of its amplitude.
-#[derive(Debug, Clone, PartialEq)]
-pub struct SpreadCurve {
-    /// The fault site.
-    pub site: String,
-    /// The mean of the amplitude (kept as in the file).
-    pub mean: f64,
-    /// The curve, in the order of the sigmas given.
-    pub points: Vec<SpreadPoint>,
-    /// The worst case over the swept range (largest residual, found by the same scan and
-    /// refinement as `analyze` uses for an unknown sigma), when the range is not one point.
-    pub worst: Option<SiteResult>,
-}
-
-/// The sigma range a spread sweep of `site` takes by default: the file's range for an
-/// unknown sigma, otherwise the range `analyze` would search had the sigma been unknown
-/// ([`crate::model::default_sigma_range`]).
-///
-/// # Errors
-/// [`AnalysisError::InvalidRequest`] when the site does not exist or its amplitude is not
-/// gaussian.
-pub fn default_spread_range(
-    model: &CompiledModel,
-    site: &str,
-) -> Result<(f64, f64), AnalysisError> {
-    let (_, _, range) = gaussian_site(model, site)?;
-    Ok(range)
-}
-
-/// `(index, mean, default range)` of a gaussian site.
-fn gaussian_site(
-    model: &CompiledModel,
-    site: &str,
-) -> Result<(usize, f64, (f64, f64)), AnalysisError> {
-    let Some(index) = model.faults.iter().position(|f| f.name == site) else {
-        let names: Vec<&str> = model.faults.iter().map(|f| f.name.as_str()).collect();
-        return Err(AnalysisError::invalid(
-            RequestField::SpreadSite,
-            format!(
-                "no fault site '{site}' in the file; the sites are: {}",
-                names.join(", ")
-            ),
-        ));
-    };
-    match &model.faults[index].amplitude {
-        Amplitude::Gaussian { mean, .. } => {
-            let bands: Vec<(f64, f64)> = model.checks.iter().map(|c| (c.lower, c.upper)).collect();
-            let range = crate::model::default_sigma_range(
-                (model.safety_lower, model.safety_upper),
-                &bands,
-                model.full_scale,
-            );
-            Ok((index, *mean, range))
-        }
-        Amplitude::GaussianUnknownSigma {
-            mean,
-            sigma_lo,
-            sigma_hi,
-            ..
-        } => Ok((index, *mean, (*sigma_lo, *sigma_hi))),
-        _ => Err(AnalysisError::invalid(
-            RequestField::SpreadSite,
-            format!(
-                "fault site '{site}' has a {} amplitude; a spread sweep needs a gaussian one \
-                 (amplitude = {{ gaussian = {{ mean = .., sigma = .. }} }})",
-                match &model.faults[index].amplitude {
-                    Amplitude::Uniform { .. } => "uniform",
-                    _ => "points",
-                }
-            ),
-        )),
-    }
-}
-
-/// The four figures of gaussian fault site `site` at every sigma of `sigmas` (each positive),
-/// and the worst case over `[min, max]` of them. Points run in parallel; the result does not
-/// depend on the thread count.
-///
-/// # Errors
-/// [`AnalysisError::InvalidRequest`] for an unknown or non-gaussian site or a sigma that is
-/// not positive; engine errors naming the site and sigma.
-pub fn spread_curve(
-    model: &CompiledModel,
-    site: &str,
-    sigmas: &[f64],
-    options: &AnalysisOptions,
-) -> Result<SpreadCurve, AnalysisError> {
-    let (index, mean, _) = gaussian_site(model, site)?;
-    if sigmas.is_empty() {
-        return Err(AnalysisError::invalid(
-            RequestField::SpreadSigmas,
-            "a spread sweep needs at least one sigma",
-        ));
-    }
-    check_count("sigma", sigmas.len())?;
-    if let Some(s) = sigmas.iter().find(|s| !(s.is_finite() && **s > 0.0)) {
-        return Err(AnalysisError::invalid(
-            RequestField::SpreadSigmas,
-            format!("{s} is not a positive finite sigma; give a range of positive values"),
-        ));
-    }
-    let prepared = Prepared::new(model, options)?;
-    let fault = &model.faults[index];
-    let scenario = FaultScenario::new(model, fault)?;
-    let points: Vec<SpreadPoint> = sigmas
-        .par_iter()
-        .map(|&sigma| {
-            let gaussian = scenario.with_gaussian_amplitude(mean, sigma)?;
-            let outcome = prepared.evaluator.outcome(&gaussian).map_err(|e| match e {
-                AnalysisError::Engine { context, source } => AnalysisError::Engine {
-                    context: format!("fault site '{site}' at sigma {sigma}, {context}"),
-                    source,
-                },
-                other => other,
-            })?;
-            Ok(SpreadPoint { sigma, outcome })
-        })
-        .collect::<Result<_, AnalysisError>>()?;
-    let lo = sigmas.iter().copied().fold(f64::INFINITY, f64::min);
-    let hi = sigmas.iter().copied().fold(f64::NEG_INFINITY, f64::max);
-    let worst = if lo < hi {
-        let mut searched = fault.clone();
-        searched.amplitude = Amplitude::GaussianUnknownSigma {
-            mean,
-            sigma_lo: lo,
-            sigma_hi: hi,
-            defaulted: false,
-        };
-        Some(analyze_site(
-            model,
-            &prepared.evaluator,
-            &searched,
-            options,
-            false,
-        )?)
-    } else {
-        None
-    };
-    Ok(SpreadCurve {
-        site: site.to_string(),
-        mean,
-        points,
-        worst,
-    })
 }
 
 #[cfg(test)]

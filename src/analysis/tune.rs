@@ -253,12 +253,12 @@ pub fn tune(
             let mut fail = curve[i + 1].clone();
             while fail.scale / good.scale > 1.0 + request.scale_rel_tol {
                 let mid = (good.scale * fail.scale).sqrt();
-                let p = point_at(mid)?;
+                let point = point_at(mid)?;
                 evaluations += 1;
-                if p.meets {
-                    good = p;
+                if point.meets {
+                    good = point;
                 } else {
-                    fail = p;
+                    fail = point;
                 }
             }
             (Some(good), Some(fail), false)
@@ -300,19 +300,19 @@ fn point_of(
         .iter()
         .filter(|s| request.sites.is_empty() || request.sites.contains(&s.name))
         .map(|s| {
-            let c = match request.figure {
+            let coverage = match request.figure {
                 CoverageFigure::Dc => s.outcome.dc(),
                 CoverageFigure::DcAllDangerous => Some(s.outcome.dc_all_dangerous()),
             };
-            (s.name.clone(), c)
+            (s.name.clone(), coverage)
         })
         .collect();
     let weakest = site_coverage
         .iter()
-        .filter_map(|(n, c)| c.map(|c| (n, c)))
+        .filter_map(|(name, coverage)| coverage.map(|coverage| (name, coverage)))
         .min_by(|a, b| (a.1.value - a.1.error).total_cmp(&(b.1.value - b.1.error)));
     let (weakest_site, coverage) = match weakest {
-        Some((n, c)) => (n.clone(), c),
+        Some((name, coverage)) => (name.clone(), coverage),
         // No chosen site has a dangerous outcome: nothing to cover.
         None => (String::new(), Estimate::exact(1.0)),
     };

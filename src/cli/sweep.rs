@@ -8,9 +8,8 @@ use indicatif::{ProgressBar, ProgressStyle};
 
 use crate::analysis::AnalysisError;
 use crate::analysis::AnalysisOptions;
-use crate::analysis::sweep::{
-    Axis, SweepPlan, default_spread_range, prepare_sweep, spread_curve, sweep,
-};
+use crate::analysis::spread::{default_spread_range, spread_curve};
+use crate::analysis::sweep::{Axis, SweepPlan, prepare_sweep, sweep};
 use crate::report::sweep::{
     SweepFormat, SweepPicture, SweepWriter, spread_csv, spread_json, spread_summary, spread_svg,
 };
