@@ -1,7 +1,7 @@
 //! The exit codes of the binary, as README.md and DEVELOPERS.md document them: 0 success;
 //! 1 a computation failed, the Monte Carlo cross-check disagreed or a selftest case failed;
 //! 2 invalid input (an unreadable or invalid file, a bad option value, a value that makes the
-//! file invalid, a request past a size limit, an output that cannot be written). Every
+//! file invalid, an input past a size limit, an output that cannot be written). Every
 //! command goes through one mapping (`cli::CliError::exit_code`), so the same kind of
 //! failure gives the same code in every command; the messages name the option and the fix.
 
@@ -104,7 +104,7 @@ fn invalid_input_exits_with_2_and_names_the_fix_in_every_command() {
             vec!["sweep", MEAN, "--vary", "checks.ab.limit=-1:2"],
             "the limit is -1, but it must be positive (the value was set by an override)",
         ),
-        // a request past a size limit
+        // an input past a size limit
         (
             vec![
                 "sweep",

@@ -3,8 +3,9 @@
 //!
 //! - 2 ([`EXIT_INPUT`]): the input is invalid — an architecture file that cannot be read or
 //!   is not valid, an option value that is malformed or out of range (also when the values a
-//!   sweep or a tuning sets make the file invalid, or a request is past a size limit), a date,
-//!   or an output file that cannot be written;
+//!   sweep or a tuning sets make the file invalid, or an input is past a size limit: too many
+//!   sweep points, an architecture too large to decompose), a date, or an output file that
+//!   cannot be written;
 //! - 1 ([`EXIT_FINDING`]): a computation failed, the Monte Carlo cross-check disagreed, or a
 //!   selftest case failed.
 //!
