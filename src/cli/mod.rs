@@ -5,7 +5,7 @@
 //!
 //! Exit codes: 0 success; 1 a computation failed, the Monte Carlo cross-check disagreed or a
 //! selftest case failed; 2 invalid input (an unreadable or invalid architecture file, a bad
-//! option value, an output file that cannot be written).
+//! option value, an output file that cannot be written; the whole rule in [`error`]).
 
 pub mod analyze;
 pub mod args;

@@ -61,14 +61,14 @@ fn parameter_sweep(args: &SweepArgs, vary: &str) -> Result<String, CliError> {
     let vary = values::axis(
         vary,
         args.points.unwrap_or(DEFAULT_POINTS),
-        args.log,
+        args.log.then_some("--log"),
         "--vary",
     )?;
     let series = match &args.series {
-        Some(s) => Some(values::axis(
-            s,
+        Some(spec) => Some(values::axis(
+            spec,
             args.series_points,
-            args.series_log,
+            args.series_log.then_some("--series-log"),
             "--series",
         )?),
         None => None,
