@@ -40,6 +40,10 @@ fn invalid_input_exits_with_2_and_names_the_fix_in_every_command() {
     let report = unwritable("r.html");
     let csv = unwritable("s.csv");
     let svg = unwritable("t.svg");
+    // A folder below a file cannot be made.
+    let file = scratch("a-file");
+    std::fs::write(&file, "not a folder").unwrap();
+    let demo = file.join("demo").display().to_string();
     // (arguments, what standard error must name)
     let cases: Vec<(Vec<&str>, &str)> = vec![
         // a file that cannot be read or is not an architecture
@@ -144,6 +148,7 @@ fn invalid_input_exits_with_2_and_names_the_fix_in_every_command() {
             ],
             "check that its folder exists and is writable",
         ),
+        (vec!["demo", "--out", &demo], "give another with --out"),
     ];
     for (args, needle) in &cases {
         let out = concord(args);

@@ -57,7 +57,10 @@ fn stem(name: &str) -> &str {
 /// Runs the demo.
 pub fn run(args: &super::args::DemoArgs) -> Result<String, CliError> {
     let dir = &args.out;
-    std::fs::create_dir_all(dir).map_err(|e| CliError::write(dir, e))?;
+    std::fs::create_dir_all(dir).map_err(|source| CliError::Folder {
+        path: dir.clone(),
+        source,
+    })?;
     let mut list = Vec::new();
     let mut files = Vec::new();
     for (name, text) in FILES {

@@ -68,6 +68,15 @@ pub enum CliError {
         #[source]
         source: std::io::Error,
     },
+    /// The output folder of `concord demo` cannot be made.
+    #[error("cannot create the folder {}: {source}; give another with --out", .path.display())]
+    Folder {
+        /// The folder.
+        path: PathBuf,
+        /// The system's error.
+        #[source]
+        source: std::io::Error,
+    },
     /// Rows streamed to standard output or a file could not be written.
     #[error("writing the rows failed: {0}")]
     Stream(#[source] std::io::Error),
@@ -113,6 +122,7 @@ impl CliError {
             | CliError::Usage(_)
             | CliError::Date(_)
             | CliError::Write { .. }
+            | CliError::Folder { .. }
             | CliError::Stream(_) => EXIT_INPUT,
             CliError::Request { error, .. } | CliError::Analysis(error) => match error {
                 AnalysisError::InvalidRequest { .. }
