@@ -77,16 +77,16 @@ pub fn build(
 }
 
 /// One line saying what was written.
-pub fn describe(path: &Path, w: &Written) -> String {
-    let check = match w.agreement {
-        Some((a, n)) => format!("; cross-check: {a} of {n} figures agree"),
+pub fn describe(path: &Path, written: &Written) -> String {
+    let check = match written.agreement {
+        Some((agree, all)) => format!("; cross-check: {agree} of {all} figures agree"),
         None => "; cross-check not run".to_string(),
     };
     format!(
         "wrote {} ({:.1} kB): {}{check}\n",
         path.display(),
-        w.bytes as f64 / 1000.0,
-        w.name
+        written.bytes as f64 / 1000.0,
+        written.name
     )
 }
 

@@ -62,14 +62,14 @@ fn segments(path: &str) -> Vec<String> {
 }
 
 fn set(root: &mut Node, path: &str, value: f64) -> Result<(), String> {
-    let segs = segments(path);
-    if segs.iter().any(|s| s.is_empty()) {
+    let steps = segments(path);
+    if steps.iter().any(|s| s.is_empty()) {
         return Err(format!("`{path}` is not a dotted key path"));
     }
     let mut node = root;
     let mut walked = String::new();
-    for (i, seg) in segs.iter().enumerate() {
-        let last = i + 1 == segs.len();
+    for (i, step) in steps.iter().enumerate() {
+        let last = i + 1 == steps.len();
         let here = if walked.is_empty() {
             "the top level".to_string()
         } else {
@@ -78,12 +78,12 @@ fn set(root: &mut Node, path: &str, value: f64) -> Result<(), String> {
         let span = node.span;
         node = match &mut node.value {
             Value::Table(entries) => {
-                let pos = entries.iter().position(|e| e.key == *seg);
-                match pos {
-                    Some(p) => &mut entries[p].value,
-                    None if last && OPTIONAL_NUMERIC.contains(&seg.as_str()) => {
+                let found = entries.iter().position(|e| e.key == *step);
+                match found {
+                    Some(at) => &mut entries[at].value,
+                    None if last && OPTIONAL_NUMERIC.contains(&step.as_str()) => {
                         entries.push(Entry {
-                            key: seg.clone(),
+                            key: step.clone(),
                             key_span: span,
                             value: Node {
                                 span,
@@ -91,24 +91,24 @@ fn set(root: &mut Node, path: &str, value: f64) -> Result<(), String> {
                                 overridden: true,
                             },
                         });
-                        let n = entries.len() - 1;
-                        &mut entries[n].value
+                        let added = entries.len() - 1;
+                        &mut entries[added].value
                     }
-                    None => return Err(format!("{here} has no key `{seg}`")),
+                    None => return Err(format!("{here} has no key `{step}`")),
                 }
             }
             Value::Array(items) => {
-                let k: usize = seg
+                let index: usize = step
                     .parse()
-                    .map_err(|_| format!("{here} is an array; `{seg}` is not an index"))?;
+                    .map_err(|_| format!("{here} is an array; `{step}` is not an index"))?;
                 let len = items.len();
                 items
-                    .get_mut(k)
-                    .ok_or_else(|| format!("{here} has {len} entries, no index {k}"))?
+                    .get_mut(index)
+                    .ok_or_else(|| format!("{here} has {len} entries, no index {index}"))?
             }
             other => {
                 return Err(format!(
-                    "{here} is {}, it has no key `{seg}`",
+                    "{here} is {}, it has no key `{step}`",
                     other.type_name()
                 ));
             }
@@ -116,7 +116,7 @@ fn set(root: &mut Node, path: &str, value: f64) -> Result<(), String> {
         if !walked.is_empty() {
             walked.push('.');
         }
-        walked.push_str(seg);
+        walked.push_str(step);
     }
     match node.value {
         Value::Table(_) | Value::Array(_) => Err(format!(
