@@ -6,7 +6,8 @@
 use criterion::{Criterion, criterion_group, criterion_main};
 
 use concord::analysis::AnalysisOptions;
-use concord::analysis::sweep::{Axis, SweepPlan, spread_curve, sweep};
+use concord::analysis::spread::spread_curve;
+use concord::analysis::sweep::{Axis, SweepPlan, sweep};
 use concord::analysis::tune::{CoverageFigure, TuneRequest, tune};
 use concord::model::load_str;
 
@@ -22,14 +23,16 @@ fn spread(c: &mut Criterion) {
 }
 
 fn tuning(c: &mut Criterion) {
+    let arch = load_str(FILE, "plovrant_swa2_mean.toml").unwrap();
     let options = AnalysisOptions::default();
     let request = TuneRequest::new(Some("ab".into()), CoverageFigure::DcAllDangerous, 0.95);
     c.bench_function("tune to dc_all_dangerous 95 %, two channels", |b| {
-        b.iter(|| tune(FILE, "plovrant_swa2_mean.toml", &request, &options, &|| {}).unwrap())
+        b.iter(|| tune(&arch, &request, &options, &|| {}).unwrap())
     });
 }
 
 fn grid(c: &mut Criterion) {
+    let arch = load_str(FILE, "plovrant_swa2_mean.toml").unwrap();
     let options = AnalysisOptions::default();
     let plan = SweepPlan::new(
         Axis::linear("safety.limit", 1.0, 4.0, 100).unwrap(),
@@ -41,7 +44,7 @@ fn grid(c: &mut Criterion) {
     group.bench_function("100 x 100 (safety limit, threshold), two channels", |b| {
         b.iter(|| {
             let mut rows = 0usize;
-            sweep::<concord::analysis::AnalysisError>(FILE, "f.toml", &plan, &options, |_| {
+            sweep::<concord::analysis::AnalysisError>(&arch, &plan, &options, |_| {
                 rows += 1;
                 Ok(())
             })

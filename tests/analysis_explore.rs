@@ -17,7 +17,8 @@
 //! independent of concord's Cody-based CDF); its inverse is `statrs`' normal quantile.
 
 use concord::analysis::AnalysisOptions;
-use concord::analysis::sweep::{Axis, SweepPlan, SweepRow, spread_curve, sweep};
+use concord::analysis::spread::spread_curve;
+use concord::analysis::sweep::{Axis, SweepPlan, SweepRow, sweep};
 use concord::analysis::tune::{CoverageFigure, TuneRequest, tune};
 use concord::model::load_str;
 use statrs::distribution::{ContinuousCDF, Normal};
@@ -105,17 +106,12 @@ fn every_sweep_row_matches_the_closed_form() {
         Some(Axis::list("safety.limit", vec![1.0, 2.0, 3.5]).unwrap()),
     )
     .unwrap();
+    let arch = load_str(&text, "closed.toml").unwrap();
     let mut rows: Vec<SweepRow> = Vec::new();
-    sweep::<concord::analysis::AnalysisError>(
-        &text,
-        "closed.toml",
-        &plan,
-        &AnalysisOptions::default(),
-        |row| {
-            rows.push(row);
-            Ok(())
-        },
-    )
+    sweep::<concord::analysis::AnalysisError>(&arch, &plan, &AnalysisOptions::default(), |row| {
+        rows.push(row);
+        Ok(())
+    })
     .unwrap();
     assert_eq!(rows.len(), 9);
     for (i, row) in rows.iter().enumerate() {
@@ -218,14 +214,8 @@ fn tuning_finds_the_closed_form_limit_and_a_slightly_wider_one_fails() {
     let text = file(1.5, 2.0);
     let target = 0.95;
     let request = TuneRequest::new(Some("ab".into()), CoverageFigure::DcAllDangerous, target);
-    let result = tune(
-        &text,
-        "closed.toml",
-        &request,
-        &AnalysisOptions::default(),
-        &|| {},
-    )
-    .unwrap();
+    let arch = load_str(&text, "closed.toml").unwrap();
+    let result = tune(&arch, &request, &AnalysisOptions::default(), &|| {}).unwrap();
     let chosen = result.chosen.as_ref().expect("a limit meets 95 %");
     let limit = chosen.limits[0].1;
     assert_eq!(chosen.limits[0].0, "checks.ab.limit");
@@ -248,8 +238,7 @@ fn tuning_finds_the_closed_form_limit_and_a_slightly_wider_one_fails() {
     assert!(failing.limits[0].1 > limit && failing.limits[0].1 <= limit * (1.0 + 2e-4));
     assert!(failing.coverage.value - failing.coverage.error < target);
     let wider = concord::analysis::sweep::analyze_with_overrides(
-        &text,
-        "closed.toml",
+        &arch,
         &[("checks.ab.limit".into(), reference * (1.0 + 1e-3))],
         &AnalysisOptions::default(),
     )
@@ -263,14 +252,8 @@ fn a_wider_band_never_raises_coverage_nor_false_alarms() {
     // scale, both the coverage and the false-alarm probability fall.
     let text = file(1.5, 2.0);
     let request = TuneRequest::new(None, CoverageFigure::DcAllDangerous, 0.9);
-    let result = tune(
-        &text,
-        "closed.toml",
-        &request,
-        &AnalysisOptions::default(),
-        &|| {},
-    )
-    .unwrap();
+    let arch = load_str(&text, "closed.toml").unwrap();
+    let result = tune(&arch, &request, &AnalysisOptions::default(), &|| {}).unwrap();
     for pair in result.curve.windows(2) {
         let (a, b) = (&pair[0], &pair[1]);
         assert!(a.scale < b.scale);
@@ -287,14 +270,8 @@ fn an_unreachable_target_is_said_plainly_with_the_best_reachable() {
     // range (0.15) leaves P(|d| <= 0.15) about 0.14: dc_all_dangerous cannot reach 0.999.
     let text = file(1.5, 2.0);
     let request = TuneRequest::new(Some("ab".into()), CoverageFigure::DcAllDangerous, 0.999);
-    let result = tune(
-        &text,
-        "closed.toml",
-        &request,
-        &AnalysisOptions::default(),
-        &|| {},
-    )
-    .unwrap();
+    let arch = load_str(&text, "closed.toml").unwrap();
+    let result = tune(&arch, &request, &AnalysisOptions::default(), &|| {}).unwrap();
     assert!(result.chosen.is_none());
     let best = &result.best_reachable;
     let expected = 1.0 - outside(sd_y(SF), 2.0) * (1.0 - outside(sd_d(), best.limits[0].1));

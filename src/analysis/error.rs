@@ -55,12 +55,23 @@ pub enum AnalysisError {
         #[source]
         source: Box<ModelError>,
     },
-    /// An option or argument of the analysis is out of range.
-    #[error("invalid analysis option {option}: {message}")]
-    InvalidOption {
-        /// The option at fault, as the user spells it.
-        option: String,
+    /// A field of a request to the analysis (a tuning, a sweep, a spread curve, a Monte
+    /// Carlo run) is out of range or names nothing in the model.
+    #[error("invalid request, {field}: {message}")]
+    InvalidRequest {
+        /// The field at fault, in the analysis's own terms (the command line maps it to its
+        /// option).
+        field: RequestField,
         /// What is wrong and how to fix it.
+        message: String,
+    },
+    /// A compiled model whose parts do not fit together (e.g. a replaced channel outside the
+    /// channels). A model loaded from a file never has one; only a model built by hand can.
+    #[error("{context}: {message}; the compiled model is inconsistent")]
+    InconsistentModel {
+        /// Where, e.g. `fault site 'a_stuck'`.
+        context: String,
+        /// What does not fit.
         message: String,
     },
     /// A figure came out as NaN or infinite: the numbers of the model are too far apart in
@@ -90,7 +101,65 @@ pub enum AnalysisError {
     ReferenceData(String),
 }
 
+/// The field of an analysis request that an [`AnalysisError::InvalidRequest`] is about.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub enum RequestField {
+    /// `TuneRequest::target`: the coverage target.
+    TuneTarget,
+    /// `TuneRequest::check`: the check to tune.
+    TuneCheck,
+    /// `TuneRequest::sites`: the fault sites that must meet the target.
+    TuneSites,
+    /// `TuneRequest::scale_range`: the range of scale factors searched.
+    TuneScaleRange,
+    /// `TuneRequest::curve_points`: the points of the trade-off curve.
+    TuneCurvePoints,
+    /// `TuneRequest::scale_rel_tol`: the relative tolerance of the bisection.
+    TuneScaleTolerance,
+    /// The values of a sweep axis (`Axis::values`), named by the axis's key.
+    AxisValues(String),
+    /// `SweepPlan::series`: the key of the second axis.
+    SweepSeries,
+    /// The fault site of a spread curve.
+    SpreadSite,
+    /// The sigmas of a spread curve.
+    SpreadSigmas,
+    /// `MonteCarloOptions::samples` of an analysis by sampling (`analyze_montecarlo`).
+    MonteCarloSamples,
+    /// `MonteCarloOptions::samples` of a cross-check of an exact analysis (`verify`).
+    VerifySamples,
+}
+
+impl std::fmt::Display for RequestField {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        match self {
+            RequestField::TuneTarget => f.write_str("the tuning's coverage target"),
+            RequestField::TuneCheck => f.write_str("the check to tune"),
+            RequestField::TuneSites => f.write_str("the fault sites of the tuning"),
+            RequestField::TuneScaleRange => f.write_str("the tuning's range of scale factors"),
+            RequestField::TuneCurvePoints => f.write_str("the points of the trade-off curve"),
+            RequestField::TuneScaleTolerance => {
+                f.write_str("the tuning's relative tolerance on the scale")
+            }
+            RequestField::AxisValues(key) => write!(f, "the values of {key}"),
+            RequestField::SweepSeries => f.write_str("the series key of the sweep"),
+            RequestField::SpreadSite => f.write_str("the fault site of the spread curve"),
+            RequestField::SpreadSigmas => f.write_str("the sigmas of the spread curve"),
+            RequestField::MonteCarloSamples => f.write_str("the Monte Carlo sample count"),
+            RequestField::VerifySamples => f.write_str("the cross-check's sample count"),
+        }
+    }
+}
+
 impl AnalysisError {
+    /// An [`AnalysisError::InvalidRequest`] about `field`.
+    pub fn invalid(field: RequestField, message: impl Into<String>) -> Self {
+        Self::InvalidRequest {
+            field,
+            message: message.into(),
+        }
+    }
+
     /// Wraps an engine error with the place of the analysis where it happened.
     pub fn engine(context: impl Into<String>, source: ProbError) -> Self {
         Self::Engine {

@@ -8,8 +8,8 @@
 //! - [`metrics`]: SPFM, LFM, SFF, residual and latent FIT, ASIL targets.
 //! - [`run`]: the whole exact analysis of a file.
 //! - [`montecarlo`]: plain sampling through separate code, for verification.
-//! - [`sweep`]: the analysis over values of one or two keys of the file, and one site's
-//!   figures over the spread of its fault amplitude.
+//! - [`sweep`]: the analysis over values of one or two keys of the file.
+//! - [`spread`]: one site's figures over the spread of its fault amplitude.
 //! - [`tune`]: the widest comparator band that meets a coverage target.
 //! - [`compare`]: several architectures reduced to one line each.
 //! - [`outcome`]: the four probabilities and the coverage figures derived from them.
@@ -31,10 +31,11 @@ pub mod run;
 pub mod scenario;
 pub mod selftest;
 pub mod site;
+pub mod spread;
 pub mod sweep;
 pub mod tune;
 
-pub use error::AnalysisError;
+pub use error::{AnalysisError, RequestField};
 pub use options::AnalysisOptions;
 pub use outcome::{Figure, Outcome};
 pub use run::{Analysis, analyze};

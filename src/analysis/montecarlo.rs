@@ -17,7 +17,7 @@ use crate::model::{Amplitude, CompiledFault, CompiledModel, Detection, FaultMode
 use crate::prob::Estimate;
 use crate::prob::rng::SplitMix64;
 
-use super::error::AnalysisError;
+use super::error::{AnalysisError, RequestField};
 use super::metrics::metrics;
 use super::options::AnalysisOptions;
 use super::outcome::{Figure, Outcome};
@@ -338,12 +338,12 @@ pub fn draw_of(fault: &CompiledFault, sigma: Option<f64>) -> Draw {
 /// biased upwards; the exact engine is the one to trust for the worst case).
 ///
 /// # Errors
-/// [`AnalysisError::InvalidOption`] for a sample count of zero or above the limit.
+/// [`AnalysisError::InvalidRequest`] for a sample count of zero or above the limit.
 pub fn analyze_montecarlo(
     model: &CompiledModel,
     mc: &MonteCarloOptions,
 ) -> Result<Analysis, AnalysisError> {
-    check_samples(mc.samples)?;
+    check_samples(mc.samples, RequestField::MonteCarloSamples)?;
     let sampler = Sampler::new(model);
     let baseline = sampler.count(None, mc.samples, mc.seed, 0).outcome();
     let mut sites = Vec::with_capacity(model.faults.len());
@@ -429,12 +429,14 @@ pub fn analyze_montecarlo(
     })
 }
 
-fn check_samples(samples: u64) -> Result<(), AnalysisError> {
+/// Refuses a sample count of zero or above [`MAX_SAMPLES`], naming `field`: the samples of a
+/// sampled analysis or of a cross-check.
+fn check_samples(samples: u64, field: RequestField) -> Result<(), AnalysisError> {
     if samples == 0 || samples > MAX_SAMPLES {
-        return Err(AnalysisError::InvalidOption {
-            option: "--samples".into(),
-            message: format!("{samples} samples; give between 1 and {MAX_SAMPLES}"),
-        });
+        return Err(AnalysisError::invalid(
+            field,
+            format!("{samples} samples; give between 1 and {MAX_SAMPLES}"),
+        ));
     }
     Ok(())
 }
@@ -460,13 +462,13 @@ pub struct Agreement {
 /// exact worst sigma) and compares each figure with its interval.
 ///
 /// # Errors
-/// [`AnalysisError::InvalidOption`] for a bad sample count.
+/// [`AnalysisError::InvalidRequest`] for a bad sample count.
 pub fn verify(
     model: &CompiledModel,
     exact: &Analysis,
     mc: &MonteCarloOptions,
 ) -> Result<Vec<Agreement>, AnalysisError> {
-    check_samples(mc.samples)?;
+    check_samples(mc.samples, RequestField::VerifySamples)?;
     let sampler = Sampler::new(model);
     let mut rows = Vec::new();
     let base = sampler.count(None, mc.samples, mc.seed, 0);

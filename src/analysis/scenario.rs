@@ -55,8 +55,8 @@ impl FaultScenario {
             FaultMode::Replace { channel, gain } => {
                 let i = *channel;
                 if i >= n {
-                    return Err(AnalysisError::InvalidOption {
-                        option: format!("faults.{}", fault.name),
+                    return Err(AnalysisError::InconsistentModel {
+                        context: format!("fault site '{}'", fault.name),
                         message: format!("replaced channel index {i} is outside the {n} channels"),
                     });
                 }

@@ -1,9 +1,9 @@
-//! Sweeps: the whole analysis repeated over the values of one numeric key of an architecture
-//! file (optionally in several series of a second key), and the figures of one fault site
-//! over the spread of its gaussian amplitude.
+//! Parameter sweeps: the whole analysis repeated over the values of one numeric key of an
+//! architecture file (optionally in several series of a second key). The figures of one fault
+//! site over the spread of its amplitude are in [`super::spread`].
 //!
-//! A parameter sweep reloads the file with the swept values set by dotted key path
-//! ([`crate::model::load_str_with_overrides`]) and runs [`analyze`] at every point, so each
+//! A parameter sweep has the model set the swept values by dotted key path
+//! ([`Architecture::with_overrides`]) and runs [`analyze`] at every point, so each
 //! row is, bit for bit, what `concord analyze` prints for the file edited by hand. Points
 //! run in parallel in chunks of four per thread (`CHUNK_PER_THREAD`) and are handed on in
 //! order, one chunk at a time: a sweep of any length holds one chunk in memory. The chunk
@@ -13,17 +13,18 @@
 use rayon::prelude::*;
 use serde::Serialize;
 
-use crate::model::{Amplitude, CompiledModel, load_str_with_overrides};
+use crate::model::Architecture;
 use crate::prob::Estimate;
 
-use super::error::AnalysisError;
+use super::error::{AnalysisError, RequestField};
 use super::metrics::Asil;
 use super::options::AnalysisOptions;
-use super::outcome::Outcome;
-use super::engine::{Engine, Scenario};
 use super::run::{Analysis, analyze};
-use super::scenario::FaultScenario;
-use super::site::{SiteResult, analyze_site};
+use super::site::SiteResult;
+
+/// Re-exported where the report layer imports it from (`report/sweep.rs`); new code imports
+/// it from [`super::spread`].
+pub use super::spread::SpreadCurve;
 
 /// Most points of one sweep (the product of both axes). Past it a sweep is refused rather
 /// than left to run for hours; split it into several runs.
@@ -46,7 +47,7 @@ impl Axis {
     /// `points` values evenly spaced from `from` to `to` (both included).
     ///
     /// # Errors
-    /// [`AnalysisError::InvalidOption`] for non-finite ends or fewer than one point.
+    /// [`AnalysisError::InvalidRequest`] for non-finite ends or fewer than one point.
     pub fn linear(key: &str, from: f64, to: f64, points: usize) -> Result<Self, AnalysisError> {
         check_ends(key, from, to, points)?;
         let values = if points == 1 {
@@ -72,15 +73,15 @@ impl Axis {
     /// `points` values evenly spaced in the logarithm from `from` to `to` (both positive).
     ///
     /// # Errors
-    /// [`AnalysisError::InvalidOption`] for non-positive or non-finite ends.
+    /// [`AnalysisError::InvalidRequest`] for non-positive or non-finite ends.
     pub fn log(key: &str, from: f64, to: f64, points: usize) -> Result<Self, AnalysisError> {
         check_ends(key, from, to, points)?;
         if from <= 0.0 || to <= 0.0 {
             return Err(invalid(
                 key,
                 format!(
-                    "a logarithmic range needs positive ends, got {from} to {to}; \
-                     drop --log or give positive values"
+                    "a logarithmic range needs positive ends, got {from} to {to}; give \
+                     positive ends, or space the values linearly"
                 ),
             ));
         }
@@ -109,7 +110,7 @@ impl Axis {
     /// The values as given.
     ///
     /// # Errors
-    /// [`AnalysisError::InvalidOption`] for an empty list or a non-finite value.
+    /// [`AnalysisError::InvalidRequest`] for an empty list or a non-finite value.
     pub fn list(key: &str, values: Vec<f64>) -> Result<Self, AnalysisError> {
         if values.is_empty() {
             return Err(invalid(key, "give at least one value".into()));
@@ -125,11 +126,9 @@ impl Axis {
     }
 }
 
-fn invalid(option: &str, message: String) -> AnalysisError {
-    AnalysisError::InvalidOption {
-        option: option.to_string(),
-        message,
-    }
+/// An invalid request about the values of the axis of `key`.
+fn invalid(key: &str, message: String) -> AnalysisError {
+    AnalysisError::invalid(RequestField::AxisValues(key.to_string()), message)
 }
 
 fn check_ends(key: &str, from: f64, to: f64, points: usize) -> Result<(), AnalysisError> {
@@ -145,7 +144,7 @@ fn check_ends(key: &str, from: f64, to: f64, points: usize) -> Result<(), Analys
     check_count(key, points)
 }
 
-fn check_count(key: &str, points: usize) -> Result<(), AnalysisError> {
+pub(crate) fn check_count(key: &str, points: usize) -> Result<(), AnalysisError> {
     if points > MAX_SWEEP_POINTS {
         return Err(AnalysisError::TooManyPoints {
             what: format!("the sweep of {key}"),
@@ -171,13 +170,16 @@ impl SweepPlan {
     /// the same key.
     ///
     /// # Errors
-    /// [`AnalysisError::TooManyPoints`] or [`AnalysisError::InvalidOption`].
+    /// [`AnalysisError::TooManyPoints`] or [`AnalysisError::InvalidRequest`].
     pub fn new(vary: Axis, series: Option<Axis>) -> Result<Self, AnalysisError> {
         let plan = Self { vary, series };
         if let Some(s) = plan.series.as_ref().filter(|s| s.key == plan.vary.key) {
-            return Err(invalid(
-                &s.key,
-                "the series key is the swept key; give two different keys".into(),
+            return Err(AnalysisError::invalid(
+                RequestField::SweepSeries,
+                format!(
+                    "the series key {} is the swept key; give two different keys",
+                    s.key
+                ),
             ));
         }
         let total = plan
@@ -207,21 +209,28 @@ impl SweepPlan {
 
     /// The swept value and the series value of point `index`.
     pub fn point(&self, index: usize) -> (f64, Option<f64>) {
-        let n = self.vary.values.len().max(1);
-        let x = self.vary.values.get(index % n).copied().unwrap_or(f64::NAN);
-        let s = self
-            .series
-            .as_ref()
-            .map(|s| s.values.get(index / n).copied().unwrap_or(f64::NAN));
-        (x, s)
+        let per_series = self.vary.values.len().max(1);
+        let swept = self
+            .vary
+            .values
+            .get(index % per_series)
+            .copied()
+            .unwrap_or(f64::NAN);
+        let series = self.series.as_ref().map(|axis| {
+            axis.values
+                .get(index / per_series)
+                .copied()
+                .unwrap_or(f64::NAN)
+        });
+        (swept, series)
     }
 
     /// The overrides of point `index`.
     pub fn overrides(&self, index: usize) -> Vec<(String, f64)> {
-        let (x, s) = self.point(index);
-        let mut list = vec![(self.vary.key.clone(), x)];
-        if let (Some(axis), Some(v)) = (&self.series, s) {
-            list.push((axis.key.clone(), v));
+        let (swept, series) = self.point(index);
+        let mut list = vec![(self.vary.key.clone(), swept)];
+        if let (Some(axis), Some(value)) = (&self.series, series) {
+            list.push((axis.key.clone(), value));
         }
         list
     }
@@ -299,24 +308,24 @@ impl SweepRow {
     }
 }
 
-/// Loads the file's text with `overrides` set and analyses it: exactly what `analyze` does
-/// on a copy of the file with those values written in.
+/// Analyses `arch` with `overrides` set: exactly what `analyze` does on a copy of the file
+/// with those values written in.
 ///
 /// # Errors
 /// [`AnalysisError::Model`] when the values make the file invalid (naming them), or the
 /// analysis's own errors.
 pub fn analyze_with_overrides(
-    text: &str,
-    path: &str,
+    arch: &Architecture,
     overrides: &[(String, f64)],
     options: &AnalysisOptions,
 ) -> Result<Analysis, AnalysisError> {
-    let arch =
-        load_str_with_overrides(text, path, overrides).map_err(|source| AnalysisError::Model {
+    let edited = arch
+        .with_overrides(overrides)
+        .map_err(|source| AnalysisError::Model {
             context: format!("with {}", describe_overrides(overrides)),
             source: Box::new(source),
         })?;
-    analyze(&arch.model, options, false).map_err(|e| match e {
+    analyze(&edited.model, options, false).map_err(|e| match e {
         AnalysisError::Engine { context, source } => AnalysisError::Engine {
             context: format!("with {}, {context}", describe_overrides(overrides)),
             source,
@@ -334,27 +343,23 @@ pub fn describe_overrides(overrides: &[(String, f64)]) -> String {
         .join(", ")
 }
 
-/// The names of the fault sites of the file, in file order, checked at the first and the
+/// The names of the fault sites of `arch`, in file order, checked at the first and the
 /// last point of the plan so that a bad key or value is reported before the sweep starts.
 ///
 /// # Errors
 /// [`AnalysisError::Model`] naming the point whose values make the file invalid.
-pub fn prepare_sweep(
-    text: &str,
-    path: &str,
-    plan: &SweepPlan,
-) -> Result<Vec<String>, AnalysisError> {
+pub fn prepare_sweep(arch: &Architecture, plan: &SweepPlan) -> Result<Vec<String>, AnalysisError> {
     let mut names = Vec::new();
     let last = plan.len().saturating_sub(1);
     for index in [0, last] {
         let overrides = plan.overrides(index);
-        let arch = load_str_with_overrides(text, path, &overrides).map_err(|source| {
-            AnalysisError::Model {
+        let edited = arch
+            .with_overrides(&overrides)
+            .map_err(|source| AnalysisError::Model {
                 context: format!("sweep point {index} ({})", describe_overrides(&overrides)),
                 source: Box::new(source),
-            }
-        })?;
-        names = arch.model.faults.iter().map(|f| f.name.clone()).collect();
+            })?;
+        names = edited.model.faults.iter().map(|f| f.name.clone()).collect();
     }
     Ok(names)
 }
@@ -365,8 +370,7 @@ pub fn prepare_sweep(
 /// # Errors
 /// The first point's error, naming its values, or the error `emit` returns.
 pub fn sweep<E>(
-    text: &str,
-    path: &str,
+    arch: &Architecture,
     plan: &SweepPlan,
     options: &AnalysisOptions,
     mut emit: impl FnMut(SweepRow) -> Result<(), E>,
@@ -382,9 +386,9 @@ where
         let rows: Vec<Result<SweepRow, AnalysisError>> = (start..end)
             .into_par_iter()
             .map(|index| {
-                let (x, s) = plan.point(index);
-                let analysis = analyze_with_overrides(text, path, &plan.overrides(index), options)?;
-                Ok(SweepRow::of(index, x, s, &analysis))
+                let (swept, series) = plan.point(index);
+                let analysis = analyze_with_overrides(arch, &plan.overrides(index), options)?;
+                Ok(SweepRow::of(index, swept, series, &analysis))
             })
             .collect();
         for row in rows {
@@ -393,163 +397,6 @@ where
         start = end;
     }
     Ok(())
-}
-
-/// One point of a spread curve.
-#[derive(Debug, Clone, PartialEq, Serialize)]
-pub struct SpreadPoint {
-    /// The sigma of the fault amplitude.
-    pub sigma: f64,
-    /// The four figures at that sigma.
-    #[serde(skip)]
-    pub outcome: Outcome,
-}
-
-/// The figures of one gaussian fault site over the spread of its amplitude.
-#[derive(Debug, Clone, PartialEq)]
-pub struct SpreadCurve {
-    /// The fault site.
-    pub site: String,
-    /// The mean of the amplitude (kept as in the file).
-    pub mean: f64,
-    /// The curve, in the order of the sigmas given.
-    pub points: Vec<SpreadPoint>,
-    /// The worst case over the swept range (largest residual, found by the same scan and
-    /// refinement as `analyze` uses for an unknown sigma), when the range is not one point.
-    pub worst: Option<SiteResult>,
-}
-
-/// The sigma range a spread sweep of `site` takes by default: the file's range for an
-/// unknown sigma, otherwise the range `analyze` would search had the sigma been unknown
-/// ([`crate::model::default_sigma_range`]).
-///
-/// # Errors
-/// [`AnalysisError::InvalidOption`] when the site does not exist or its amplitude is not
-/// gaussian.
-pub fn default_spread_range(
-    model: &CompiledModel,
-    site: &str,
-) -> Result<(f64, f64), AnalysisError> {
-    let (_, _, range) = gaussian_site(model, site)?;
-    Ok(range)
-}
-
-/// `(index, mean, default range)` of a gaussian site.
-fn gaussian_site(
-    model: &CompiledModel,
-    site: &str,
-) -> Result<(usize, f64, (f64, f64)), AnalysisError> {
-    let Some(index) = model.faults.iter().position(|f| f.name == site) else {
-        let names: Vec<&str> = model.faults.iter().map(|f| f.name.as_str()).collect();
-        return Err(invalid(
-            "--site",
-            format!(
-                "no fault site '{site}' in the file; the sites are: {}",
-                names.join(", ")
-            ),
-        ));
-    };
-    match &model.faults[index].amplitude {
-        Amplitude::Gaussian { mean, .. } => {
-            let bands: Vec<(f64, f64)> = model.checks.iter().map(|c| (c.lower, c.upper)).collect();
-            let range = crate::model::default_sigma_range(
-                (model.safety_lower, model.safety_upper),
-                &bands,
-                model.full_scale,
-            );
-            Ok((index, *mean, range))
-        }
-        Amplitude::GaussianUnknownSigma {
-            mean,
-            sigma_lo,
-            sigma_hi,
-            ..
-        } => Ok((index, *mean, (*sigma_lo, *sigma_hi))),
-        _ => Err(invalid(
-            "--site",
-            format!(
-                "fault site '{site}' has a {} amplitude; a spread sweep needs a gaussian one \
-                 (amplitude = {{ gaussian = {{ mean = .., sigma = .. }} }})",
-                match &model.faults[index].amplitude {
-                    Amplitude::Uniform { .. } => "uniform",
-                    _ => "points",
-                }
-            ),
-        )),
-    }
-}
-
-/// The four figures of gaussian fault site `site` at every sigma of `sigmas` (each positive),
-/// and the worst case over `[min, max]` of them. Points run in parallel; the result does not
-/// depend on the thread count.
-///
-/// # Errors
-/// [`AnalysisError::InvalidOption`] for an unknown or non-gaussian site or a sigma that is
-/// not positive; engine errors naming the site and sigma.
-pub fn spread_curve(
-    model: &CompiledModel,
-    site: &str,
-    sigmas: &[f64],
-    options: &AnalysisOptions,
-) -> Result<SpreadCurve, AnalysisError> {
-    let (index, mean, _) = gaussian_site(model, site)?;
-    if sigmas.is_empty() {
-        return Err(invalid(
-            "--points",
-            "a spread sweep needs at least one sigma".into(),
-        ));
-    }
-    check_count("sigma", sigmas.len())?;
-    if let Some(s) = sigmas.iter().find(|s| !(s.is_finite() && **s > 0.0)) {
-        return Err(invalid(
-            "sigma",
-            format!("{s} is not a positive finite sigma; give a range of positive values"),
-        ));
-    }
-    let engine = Engine::new(model, options);
-    let fault = &model.faults[index];
-    let scenario = FaultScenario::new(model, fault)?;
-    let points: Vec<SpreadPoint> = sigmas
-        .par_iter()
-        .map(|&sigma| {
-            let outcome = engine
-                .outcome(Scenario::Gaussian(&scenario, mean, sigma))
-                .map(|(o, _)| o)
-                .map_err(|e| match e {
-                AnalysisError::Engine { context, source } => AnalysisError::Engine {
-                    context: format!("fault site '{site}' at sigma {sigma}, {context}"),
-                    source,
-                },
-                other => other,
-            })?;
-            Ok(SpreadPoint { sigma, outcome })
-        })
-        .collect::<Result<_, AnalysisError>>()?;
-    let lo = sigmas.iter().copied().fold(f64::INFINITY, f64::min);
-    let hi = sigmas.iter().copied().fold(f64::NEG_INFINITY, f64::max);
-    let worst = if lo < hi {
-        let mut searched = fault.clone();
-        searched.amplitude = Amplitude::GaussianUnknownSigma {
-            mean,
-            sigma_lo: lo,
-            sigma_hi: hi,
-            defaulted: false,
-        };
-        Some(analyze_site(
-            &engine,
-            &searched,
-            options,
-            false,
-        )?)
-    } else {
-        None
-    };
-    Ok(SpreadCurve {
-        site: site.to_string(),
-        mean,
-        points,
-        worst,
-    })
 }
 
 #[cfg(test)]

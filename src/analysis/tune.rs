@@ -15,12 +15,14 @@
 use rayon::prelude::*;
 use serde::Serialize;
 
+use crate::model::Architecture;
+pub use crate::model::{BandForm, CheckBand};
 use crate::prob::Estimate;
 
-use super::error::AnalysisError;
+use super::error::{AnalysisError, RequestField};
 use super::options::AnalysisOptions;
 use super::run::Analysis;
-use super::sweep::analyze_with_overrides;
+use super::sweep::{Axis, MAX_SWEEP_POINTS, analyze_with_overrides};
 
 /// Which coverage figure the target is set on.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
@@ -39,64 +41,6 @@ impl CoverageFigure {
         match self {
             CoverageFigure::Dc => "dc",
             CoverageFigure::DcAllDangerous => "dc_all_dangerous",
-        }
-    }
-}
-
-/// The band of one check as the file writes it, which decides the keys a scale sets.
-#[derive(Debug, Clone, PartialEq, Serialize)]
-pub enum BandForm {
-    /// `limit = L`: the band `[-L, L]`.
-    Limit(f64),
-    /// `lower` and/or `upper` (a missing side is open).
-    Sides {
-        /// The lower end, if any.
-        lower: Option<f64>,
-        /// The upper end, if any.
-        upper: Option<f64>,
-    },
-}
-
-/// One check the tuning moves.
-#[derive(Debug, Clone, PartialEq, Serialize)]
-pub struct TunedCheck {
-    /// The check's name.
-    pub name: String,
-    /// Its band in the file.
-    pub band: BandForm,
-}
-
-impl TunedCheck {
-    /// The keys and values that scale this band by `k`: a `limit` is multiplied; a two-sided
-    /// band keeps its centre and has its half-width multiplied; a one-sided band has its
-    /// end multiplied.
-    pub fn overrides(&self, k: f64) -> Vec<(String, f64)> {
-        let key = |side: &str| format!("checks.{}.{side}", self.name);
-        match &self.band {
-            BandForm::Limit(l) => vec![(key("limit"), l * k)],
-            BandForm::Sides {
-                lower: Some(lo),
-                upper: Some(hi),
-            } => {
-                let centre = 0.5 * (lo + hi);
-                let half = 0.5 * (hi - lo);
-                vec![
-                    (key("lower"), centre - half * k),
-                    (key("upper"), centre + half * k),
-                ]
-            }
-            BandForm::Sides {
-                lower: Some(lo),
-                upper: None,
-            } => vec![(key("lower"), lo * k)],
-            BandForm::Sides {
-                lower: None,
-                upper: Some(hi),
-            } => vec![(key("upper"), hi * k)],
-            BandForm::Sides {
-                lower: None,
-                upper: None,
-            } => Vec::new(),
         }
     }
 }
@@ -160,8 +104,8 @@ pub struct TradeOffPoint {
 pub struct TuneResult {
     /// The request.
     pub request: TuneRequest,
-    /// The checks moved, with their bands in the file.
-    pub checks: Vec<TunedCheck>,
+    /// The checks moved, with their bands in the file, in name order.
+    pub checks: Vec<CheckBand>,
     /// The chosen point: the widest band that meets the target. `None` when no band in the
     /// range does.
     pub chosen: Option<TradeOffPoint>,
@@ -181,48 +125,35 @@ pub struct TuneResult {
     pub evaluations: usize,
 }
 
-/// The bands of the checks in the file's text (which keys the file uses).
+/// The bands the tuning moves: the named check's, or every check's, in name order (the
+/// order of the keys in the trade-off curve and its outputs).
 ///
 /// # Errors
-/// [`AnalysisError::InvalidOption`] when the named check does not exist or has no band.
-pub fn checks_to_tune(text: &str, check: Option<&str>) -> Result<Vec<TunedCheck>, AnalysisError> {
-    let table: toml::Table = toml::from_str(text).map_err(|e| AnalysisError::InvalidOption {
-        option: "FILE".into(),
-        message: format!("the file is not TOML: {e}"),
-    })?;
-    let checks = table.get("checks").and_then(|c| c.as_table());
-    let number = |v: Option<&toml::Value>| -> Option<f64> {
-        v.and_then(|v| v.as_float().or_else(|| v.as_integer().map(|i| i as f64)))
-    };
-    let mut list = Vec::new();
-    if let Some(checks) = checks {
-        for (name, body) in checks {
-            if check.is_some_and(|c| c != name) {
-                continue;
-            }
-            let body = body.as_table();
-            let limit = number(body.and_then(|b| b.get("limit")));
-            let lower = number(body.and_then(|b| b.get("lower")));
-            let upper = number(body.and_then(|b| b.get("upper")));
-            let band = match limit {
-                Some(l) => BandForm::Limit(l),
-                None => BandForm::Sides { lower, upper },
-            };
-            list.push(TunedCheck {
-                name: name.clone(),
-                band,
-            });
-        }
-    }
-    if list.is_empty() {
-        let names: Vec<String> = checks
-            .map(|c| c.keys().cloned().collect())
-            .unwrap_or_default();
-        return Err(AnalysisError::InvalidOption {
-            option: "--check".into(),
-            message: match check {
-                Some(c) => format!(
-                    "no check '{c}' in the file; the checks are: {}",
+/// [`AnalysisError::InvalidRequest`] when the named check does not exist, or the file has no
+/// check.
+pub fn checks_to_tune(
+    arch: &Architecture,
+    check: Option<&str>,
+) -> Result<Vec<CheckBand>, AnalysisError> {
+    let mut bands: Vec<CheckBand> = arch
+        .check_bands
+        .iter()
+        .filter(|band| check.is_none_or(|name| name == band.name))
+        .cloned()
+        .collect();
+    bands.sort_by(|a, b| a.name.cmp(&b.name));
+    if bands.is_empty() {
+        let mut names: Vec<&str> = arch
+            .check_bands
+            .iter()
+            .map(|band| band.name.as_str())
+            .collect();
+        names.sort_unstable();
+        return Err(AnalysisError::invalid(
+            RequestField::TuneCheck,
+            match check {
+                Some(name) => format!(
+                    "no check '{name}' in the file; the checks are: {}",
                     if names.is_empty() {
                         "none".to_string()
                     } else {
@@ -231,36 +162,31 @@ pub fn checks_to_tune(text: &str, check: Option<&str>) -> Result<Vec<TunedCheck>
                 ),
                 None => "the file has no checks to tune".into(),
             },
-        });
+        ));
     }
-    Ok(list)
+    Ok(bands)
 }
 
-/// The keys and values of all tuned checks at scale `k`.
-fn overrides_at(checks: &[TunedCheck], k: f64) -> Vec<(String, f64)> {
-    checks.iter().flat_map(|c| c.overrides(k)).collect()
+/// The keys and values of all tuned checks at scale `factor`.
+fn overrides_at(checks: &[CheckBand], factor: f64) -> Vec<(String, f64)> {
+    checks.iter().flat_map(|c| c.scaled(factor)).collect()
 }
 
-/// Tunes the checks of the file `text` (named `path` in messages) to the request;
-/// `progress` is called after every analysis (for a progress display).
+/// Tunes the checks of `arch` to the request; `progress` is called after every analysis (for
+/// a progress display).
 ///
 /// # Errors
-/// [`AnalysisError::InvalidOption`] for a bad request (unknown check or site, a target
+/// [`AnalysisError::InvalidRequest`] for a bad request (unknown check or site, a target
 /// outside (0, 1], a bad range); model or engine errors naming the values set.
 pub fn tune(
-    text: &str,
-    path: &str,
+    arch: &Architecture,
     request: &TuneRequest,
     options: &AnalysisOptions,
     progress: &(dyn Fn() + Sync),
 ) -> Result<TuneResult, AnalysisError> {
-    let bad = |option: &str, message: String| AnalysisError::InvalidOption {
-        option: option.into(),
-        message,
-    };
     if !(request.target > 0.0 && request.target <= 1.0) {
-        return Err(bad(
-            "--target-dc",
+        return Err(AnalysisError::invalid(
+            RequestField::TuneTarget,
             format!(
                 "{} is not a coverage; give a fraction in (0, 1], e.g. 0.99",
                 request.target
@@ -269,36 +195,38 @@ pub fn tune(
     }
     let (lo, hi) = request.scale_range;
     if !(lo.is_finite() && hi.is_finite() && lo > 0.0 && lo < hi) {
-        return Err(bad(
-            "--scale",
+        return Err(AnalysisError::invalid(
+            RequestField::TuneScaleRange,
             format!("the scale range {lo} to {hi} must be positive and increasing"),
         ));
     }
-    if request.curve_points < 2 || request.curve_points > super::sweep::MAX_SWEEP_POINTS {
-        return Err(bad(
-            "--points",
+    if request.curve_points < 2 || request.curve_points > MAX_SWEEP_POINTS {
+        return Err(AnalysisError::invalid(
+            RequestField::TuneCurvePoints,
             format!(
-                "{} curve points; give from 2 to {}",
+                "{} curve points; give from 2 to {MAX_SWEEP_POINTS}",
                 request.curve_points,
-                super::sweep::MAX_SWEEP_POINTS
             ),
         ));
     }
     if !(request.scale_rel_tol > 0.0 && request.scale_rel_tol < 1.0) {
-        return Err(bad(
-            "scale_rel_tol",
+        return Err(AnalysisError::invalid(
+            RequestField::TuneScaleTolerance,
             format!("{} must lie in (0, 1)", request.scale_rel_tol),
         ));
     }
-    let checks = checks_to_tune(text, request.check.as_deref())?;
-    let at = |k: f64| -> Result<TradeOffPoint, AnalysisError> {
-        let overrides = overrides_at(&checks, k);
-        let analysis = analyze_with_overrides(text, path, &overrides, options)?;
+    let checks = checks_to_tune(arch, request.check.as_deref())?;
+    let point_at = |scale: f64| -> Result<TradeOffPoint, AnalysisError> {
+        let overrides = overrides_at(&checks, scale);
+        let analysis = analyze_with_overrides(arch, &overrides, options)?;
         progress();
-        point_of(k, overrides, &analysis, request)
+        point_of(scale, overrides, &analysis, request)
     };
-    let grid = super::sweep::Axis::log("scale", lo, hi, request.curve_points)?.values;
-    let curve: Vec<TradeOffPoint> = grid.par_iter().map(|&k| at(k)).collect::<Result<_, _>>()?;
+    let grid = Axis::log("scale", lo, hi, request.curve_points)?.values;
+    let curve: Vec<TradeOffPoint> = grid
+        .par_iter()
+        .map(|&scale| point_at(scale))
+        .collect::<Result<_, _>>()?;
     let mut evaluations = curve.len();
     let mut warnings = Vec::new();
     let last_meeting = curve.iter().rposition(|p| p.meets);
@@ -314,7 +242,9 @@ pub fn tune(
         .iter()
         .max_by(|a, b| a.coverage.value.total_cmp(&b.coverage.value))
         .cloned()
-        .ok_or_else(|| bad("--points", "the curve is empty".into()))?;
+        .ok_or_else(|| {
+            AnalysisError::invalid(RequestField::TuneCurvePoints, "the curve is empty")
+        })?;
     let (chosen, first_failing, at_range_end) = match last_meeting {
         None => (None, None, false),
         Some(i) if i + 1 == curve.len() => (Some(curve[i].clone()), None, true),
@@ -323,12 +253,12 @@ pub fn tune(
             let mut fail = curve[i + 1].clone();
             while fail.scale / good.scale > 1.0 + request.scale_rel_tol {
                 let mid = (good.scale * fail.scale).sqrt();
-                let p = at(mid)?;
+                let point = point_at(mid)?;
                 evaluations += 1;
-                if p.meets {
-                    good = p;
+                if point.meets {
+                    good = point;
                 } else {
-                    fail = p;
+                    fail = point;
                 }
             }
             (Some(good), Some(fail), false)
@@ -356,13 +286,13 @@ fn point_of(
     for wanted in &request.sites {
         if !analysis.sites.iter().any(|s| &s.name == wanted) {
             let names: Vec<&str> = analysis.sites.iter().map(|s| s.name.as_str()).collect();
-            return Err(AnalysisError::InvalidOption {
-                option: "--site".into(),
-                message: format!(
+            return Err(AnalysisError::invalid(
+                RequestField::TuneSites,
+                format!(
                     "no fault site '{wanted}' in the file; the sites are: {}",
                     names.join(", ")
                 ),
-            });
+            ));
         }
     }
     let site_coverage: Vec<(String, Option<Estimate>)> = analysis
@@ -370,19 +300,19 @@ fn point_of(
         .iter()
         .filter(|s| request.sites.is_empty() || request.sites.contains(&s.name))
         .map(|s| {
-            let c = match request.figure {
+            let coverage = match request.figure {
                 CoverageFigure::Dc => s.outcome.dc(),
                 CoverageFigure::DcAllDangerous => Some(s.outcome.dc_all_dangerous()),
             };
-            (s.name.clone(), c)
+            (s.name.clone(), coverage)
         })
         .collect();
     let weakest = site_coverage
         .iter()
-        .filter_map(|(n, c)| c.map(|c| (n, c)))
+        .filter_map(|(name, coverage)| coverage.map(|coverage| (name, coverage)))
         .min_by(|a, b| (a.1.value - a.1.error).total_cmp(&(b.1.value - b.1.error)));
     let (weakest_site, coverage) = match weakest {
-        Some((n, c)) => (n.clone(), c),
+        Some((name, coverage)) => (name.clone(), coverage),
         // No chosen site has a dangerous outcome: nothing to cover.
         None => (String::new(), Estimate::exact(1.0)),
     };
@@ -402,27 +332,16 @@ mod tests {
     use super::*;
 
     #[test]
-    fn a_two_sided_band_keeps_its_centre() {
-        let c = TunedCheck {
-            name: "x".into(),
-            band: BandForm::Sides {
-                lower: Some(-1.0),
-                upper: Some(3.0),
-            },
-        };
-        assert_eq!(
-            c.overrides(2.0),
-            vec![
-                ("checks.x.lower".to_string(), -3.0),
-                ("checks.x.upper".to_string(), 5.0)
-            ]
-        );
-    }
-
-    #[test]
-    fn checks_are_read_with_their_form() {
-        let text = "[checks.ab]\nlimit = 2\n[checks.up]\nupper = 1.5\n";
-        let all = checks_to_tune(text, None).unwrap();
+    fn checks_are_taken_from_the_model_in_name_order() {
+        let text = "name = \"t\"\nunit = \"mm\"\n\
+                    [channels.a]\nsigma = 1.0\n[channels.b]\nsigma = 1.0\n\
+                    [output]\nkind = \"mean\"\nof = [\"a\", \"b\"]\n\
+                    [checks.up]\nkind = \"difference\"\nof = [\"a\", \"b\"]\nupper = 1.5\n\
+                    [checks.ab]\nkind = \"difference\"\nof = [\"a\", \"b\"]\nlimit = 2\n\
+                    [safety]\nlimit = 3.0\n";
+        let arch = crate::model::load_str(text, "t.toml").unwrap();
+        let all = checks_to_tune(&arch, None).unwrap();
+        assert_eq!(all[0].name, "ab");
         assert_eq!(all[0].band, BandForm::Limit(2.0));
         assert_eq!(
             all[1].band,
@@ -431,7 +350,7 @@ mod tests {
                 upper: Some(1.5)
             }
         );
-        let e = checks_to_tune(text, Some("zz")).unwrap_err().to_string();
+        let e = checks_to_tune(&arch, Some("zz")).unwrap_err().to_string();
         assert!(e.contains("ab, up"), "{e}");
     }
 }

@@ -5,41 +5,30 @@ use crate::analysis::{AnalysisOptions, analyze};
 use crate::report::{ReportInput, csv, json, table};
 
 use super::args::{AnalyzeArgs, Format, Method};
-use super::{EXIT_FINDING, Failure, load};
+use super::{CliError, load};
 
-/// Runs the analysis and renders it; a disagreeing cross-check is a failure with the
-/// rendered report as its message body, so that the figures are still shown.
-pub fn run(args: &AnalyzeArgs) -> Result<String, Failure> {
+/// Runs the analysis and renders it; a disagreeing cross-check is a failure that carries the
+/// rendered figures, so that they are still shown.
+pub fn run(args: &AnalyzeArgs) -> Result<String, CliError> {
     let arch = load(&args.file)?;
     let options = AnalysisOptions::default();
     let (analysis, method) = match args.method {
-        Method::Exact => (
-            analyze(&arch.model, &options, args.curve)
-                .map_err(|e| Failure::computation(format!("concord: {e}")))?,
-            "exact",
-        ),
+        Method::Exact => (analyze(&arch.model, &options, args.curve)?, "exact"),
         Method::Montecarlo => {
-            let mc = MonteCarloOptions {
+            let sampling = MonteCarloOptions {
                 samples: args.samples,
                 seed: args.seed,
             };
-            (
-                analyze_montecarlo(&arch.model, &mc)
-                    .map_err(|e| Failure::input(format!("concord: {e}")))?,
-                "montecarlo",
-            )
+            (analyze_montecarlo(&arch.model, &sampling)?, "montecarlo")
         }
     };
     let verification = match args.verify {
         Some(samples) => {
-            let mc = MonteCarloOptions {
+            let sampling = MonteCarloOptions {
                 samples,
                 seed: args.seed,
             };
-            Some(
-                verify(&arch.model, &analysis, &mc)
-                    .map_err(|e| Failure::input(format!("concord: {e}")))?,
-            )
+            Some(verify(&arch.model, &analysis, &sampling)?)
         }
         None => None,
     };
@@ -51,20 +40,16 @@ pub fn run(args: &AnalyzeArgs) -> Result<String, Failure> {
     };
     let text = match args.format {
         Format::Table => table::render(&input),
-        Format::Json => json::render(&input)
-            .map_err(|e| Failure::computation(format!("concord: JSON output failed: {e}")))?,
+        Format::Json => json::render(&input)?,
         Format::Csv => csv::render(&input),
     };
     if verification
         .as_ref()
         .is_some_and(|rows| rows.iter().any(|r| !r.agrees))
     {
-        return Err(Failure {
-            code: EXIT_FINDING,
-            message:
-                "concord: the Monte Carlo cross-check disagrees on some figures (see the output)"
-                    .into(),
-            output: Some(text),
+        return Err(CliError::CrossCheckDisagrees {
+            shown_in: "the output",
+            output: text,
         });
     }
     Ok(text)

@@ -1,10 +1,10 @@
 //! `concord check FILE [--dot]`.
 
 use super::args::CheckArgs;
-use super::{Failure, load};
+use super::{CliError, load};
 
 /// Validates the file and returns the summary (or the DOT graph).
-pub fn run(args: &CheckArgs) -> Result<String, Failure> {
+pub fn run(args: &CheckArgs) -> Result<String, CliError> {
     let arch = load(&args.file)?;
     Ok(if args.dot {
         crate::model::to_dot(&arch)

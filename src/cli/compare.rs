@@ -5,18 +5,15 @@ use crate::analysis::compare::{ArchitectureSummary, summarise};
 use crate::report::compare::{csv, json, table};
 
 use super::args::{CompareArgs, CompareColumn, CoverageArg, Format};
-use super::{Failure, load};
+use super::{CliError, load};
 
 /// Analyses every file (in the order given) and renders them side by side.
-pub fn run(args: &CompareArgs) -> Result<String, Failure> {
+pub fn run(args: &CompareArgs) -> Result<String, CliError> {
     let options = AnalysisOptions::default();
     let mut rows = Vec::with_capacity(args.files.len());
     for path in &args.files {
         let arch = load(path)?;
-        rows.push(
-            summarise(&arch, &options)
-                .map_err(|e| Failure::computation(format!("concord compare: {e}")))?,
-        );
+        rows.push(summarise(&arch, &options)?);
     }
     let all_dangerous = args.figure == CoverageArg::DcAllDangerous;
     if let Some(column) = args.sort {
@@ -24,8 +21,7 @@ pub fn run(args: &CompareArgs) -> Result<String, Failure> {
     }
     match args.format {
         Format::Table => Ok(table(&rows, all_dangerous)),
-        Format::Json => json(&rows, all_dangerous)
-            .map_err(|e| Failure::computation(format!("concord: JSON output failed: {e}"))),
+        Format::Json => json(&rows, all_dangerous).map_err(CliError::Json),
         Format::Csv => Ok(csv(&rows, all_dangerous)),
     }
 }

@@ -19,8 +19,7 @@ use crate::report::format::probability;
 use crate::report::tune::{curve_csv, summary, trade_off_svg};
 
 use super::args::{AnalyzeArgs, CompareArgs, CoverageArg, Format, Method};
-use super::sweep::write_svg;
-use super::{Failure, analyze, compare, load, report};
+use super::{CliError, analyze, compare, load, report, write_output};
 
 /// The scenario's architecture files, bundled into the binary: (file name, text).
 pub const FILES: [(&str, &str); 3] = [
@@ -68,9 +67,9 @@ fn write(
     text: &str,
     what: &str,
     list: &mut Vec<Entry>,
-) -> Result<(), Failure> {
+) -> Result<(), CliError> {
     let path = dir.join(name);
-    report::write_file(&path, text)?;
+    write_output(&path, text)?;
     list.push(Entry {
         path,
         what: what.to_string(),
@@ -83,21 +82,14 @@ fn stem(name: &str) -> &str {
 }
 
 /// Tunes the bands of every check of one candidate to the demo's target on [`TUNE_SITE`].
-fn tune_candidate(file: &Path) -> Result<(TuneResult, String), Failure> {
+fn tune_candidate(file: &Path) -> Result<(TuneResult, String), CliError> {
     let arch = load(file)?;
     let mut request = TuneRequest::new(None, CoverageFigure::DcAllDangerous, TUNE_TARGET);
     request.sites = vec![TUNE_SITE.to_string()];
     request.scale_range = TUNE_SCALE;
     request.curve_points = TUNE_POINTS;
     request.scale_rel_tol = TUNE_SCALE_TOL;
-    let result = tune(
-        &arch.source,
-        &arch.path,
-        &request,
-        &AnalysisOptions::default(),
-        &|| {},
-    )
-    .map_err(|e| Failure::computation(format!("concord demo: tuning {}: {e}", arch.path)))?;
+    let result = tune(&arch, &request, &AnalysisOptions::default(), &|| {})?;
     Ok((result, arch.path))
 }
 
@@ -123,13 +115,11 @@ fn tuned_line(name: &str, result: &TuneResult) -> String {
 }
 
 /// Runs the demo.
-pub fn run(args: &super::args::DemoArgs) -> Result<String, Failure> {
+pub fn run(args: &super::args::DemoArgs) -> Result<String, CliError> {
     let dir = &args.out;
-    std::fs::create_dir_all(dir).map_err(|e| {
-        Failure::input(format!(
-            "concord demo: cannot create the folder {}: {e}; give another with --out",
-            dir.display()
-        ))
+    std::fs::create_dir_all(dir).map_err(|source| CliError::Folder {
+        path: dir.clone(),
+        source,
     })?;
     let mut list = Vec::new();
     let mut files = Vec::new();
@@ -215,7 +205,7 @@ pub fn run(args: &super::args::DemoArgs) -> Result<String, Failure> {
             &mut list,
         )?;
         let plot = dir.join(format!("tune-{s}.svg"));
-        write_svg(&plot, trade_off_svg(&result))?;
+        write_output(&plot, trade_off_svg(&result)?)?;
         list.push(Entry {
             path: plot,
             what: "the same curve drawn, SVG (--plot)".into(),
@@ -293,9 +283,10 @@ pub fn run(args: &super::args::DemoArgs) -> Result<String, Failure> {
         dir.join("report-trubelka_2oo3_median.html").display()
     );
     if disagree {
-        return Err(Failure::computation(format!(
-            "{out}concord demo: the Monte Carlo cross-check of a report disagrees (see its section 9)"
-        )));
+        return Err(CliError::CrossCheckDisagrees {
+            shown_in: "section 9 of the reports",
+            output: out,
+        });
     }
     Ok(out)
 }

@@ -1,15 +1,18 @@
 //! The command line: argument parsing ([`args`]) and one small file per command. Commands
 //! only read arguments, call the library and print; the work is done in the layers below.
+//! A command returns its standard output or a typed [`CliError`]; [`run`] prints the error
+//! and maps it to the exit code in one place ([`CliError::exit_code`]).
 //!
 //! Exit codes: 0 success; 1 a computation failed, the Monte Carlo cross-check disagreed or a
-//! selftest case failed;
-//! 2 invalid input (unreadable or invalid architecture file, bad option).
+//! selftest case failed; 2 invalid input (an unreadable or invalid architecture file, a bad
+//! option value, an output file that cannot be written; the whole rule in [`error`]).
 
 pub mod analyze;
 pub mod args;
 pub mod check;
 pub mod compare;
 pub mod demo;
+pub mod error;
 pub mod report;
 pub mod selftest;
 pub mod sweep;
@@ -17,54 +20,27 @@ pub mod tune;
 pub mod values;
 
 use std::io::Write as _;
+use std::path::Path;
 use std::process::ExitCode;
 
 use clap::Parser;
 
 use args::{Cli, Command};
-
-/// Exit code for success.
-pub const EXIT_OK: u8 = 0;
-/// Exit code when a computation failed or the cross-check disagreed.
-pub const EXIT_FINDING: u8 = 1;
-/// Exit code for invalid input.
-pub const EXIT_INPUT: u8 = 2;
-
-/// A command's failure: the message for standard error and the exit code.
-#[derive(Debug, Clone, PartialEq, Eq)]
-pub struct Failure {
-    /// The exit code.
-    pub code: u8,
-    /// What went wrong and how to fix it (printed on standard error).
-    pub message: String,
-    /// Output to print on standard output all the same (e.g. the figures of an analysis
-    /// whose cross-check disagreed).
-    pub output: Option<String>,
-}
-
-impl Failure {
-    /// A failure of the input (exit code 2).
-    pub fn input(message: impl Into<String>) -> Self {
-        Self {
-            code: EXIT_INPUT,
-            message: message.into(),
-            output: None,
-        }
-    }
-
-    /// A failure of a computation (exit code 1).
-    pub fn computation(message: impl Into<String>) -> Self {
-        Self {
-            code: EXIT_FINDING,
-            message: message.into(),
-            output: None,
-        }
-    }
-}
+pub use error::{CliError, EXIT_FINDING, EXIT_INPUT, EXIT_OK};
 
 /// Parses the command line, runs the command and returns its exit code.
 pub fn run() -> ExitCode {
     let cli = Cli::parse();
+    let name = match &cli.command {
+        Command::Check(_) => "check",
+        Command::Analyze(_) => "analyze",
+        Command::Selftest(_) => "selftest",
+        Command::Report(_) => "report",
+        Command::Demo(_) => "demo",
+        Command::Sweep(_) => "sweep",
+        Command::Tune(_) => "tune",
+        Command::Compare(_) => "compare",
+    };
     let result = match &cli.command {
         Command::Check(a) => check::run(a),
         Command::Analyze(a) => analyze::run(a),
@@ -80,12 +56,12 @@ pub fn run() -> ExitCode {
             write_stdout(&text);
             ExitCode::from(EXIT_OK)
         }
-        Err(failure) => {
-            if let Some(text) = &failure.output {
+        Err(error) => {
+            if let Some(text) = error.output() {
                 write_stdout(text);
             }
-            let _ = writeln!(std::io::stderr().lock(), "{}", failure.message);
-            ExitCode::from(failure.code)
+            let _ = writeln!(std::io::stderr().lock(), "concord {name}: {error}");
+            ExitCode::from(error.exit_code())
         }
     }
 }
@@ -98,8 +74,12 @@ fn write_stdout(text: &str) {
     let _ = out.flush();
 }
 
-/// Loads an architecture file, turning its diagnostics into an input failure.
-pub fn load(path: &std::path::Path) -> Result<crate::model::Architecture, Failure> {
-    crate::model::load(path)
-        .map_err(|e| Failure::input(format!("concord: invalid architecture file\n{e}")))
+/// Loads an architecture file (its diagnostics are an input error).
+pub fn load(path: &Path) -> Result<crate::model::Architecture, CliError> {
+    Ok(crate::model::load(path)?)
+}
+
+/// Writes a whole output file (a picture, a curve, a report), naming the path should it fail.
+pub fn write_output(path: &Path, contents: impl AsRef<[u8]>) -> Result<(), CliError> {
+    std::fs::write(path, contents).map_err(|e| CliError::write(path, e))
 }

@@ -9,7 +9,7 @@ use crate::report::date::report_date;
 use crate::report::html::{self, HtmlOptions};
 
 use super::args::ReportArgs;
-use super::{EXIT_FINDING, Failure, load};
+use super::{CliError, load, write_output};
 
 /// A written report, for the message the command prints.
 #[derive(Debug, Clone, PartialEq)]
@@ -26,26 +26,21 @@ pub struct Written {
 /// cross-check) and returns the report's HTML.
 ///
 /// # Errors
-/// An invalid file (exit code 2), a failed computation or a date that cannot be read.
+/// An invalid file, a date that cannot be read, or a failed computation.
 pub fn build(
     file: &Path,
     date: Option<&str>,
     samples: u64,
     seed: u64,
-) -> Result<(String, Written), Failure> {
+) -> Result<(String, Written), CliError> {
     let epoch = std::env::var("SOURCE_DATE_EPOCH").ok();
-    let date =
-        report_date(date, epoch.as_deref()).map_err(|e| Failure::input(format!("concord: {e}")))?;
+    let date = report_date(date, epoch.as_deref())?;
     let arch = load(file)?;
     let options = AnalysisOptions::default();
-    let analysis = analyze(&arch.model, &options, true)
-        .map_err(|e| Failure::computation(format!("concord: {e}")))?;
-    let mc = MonteCarloOptions { samples, seed };
+    let analysis = analyze(&arch.model, &options, true)?;
+    let sampling = MonteCarloOptions { samples, seed };
     let verification = if samples > 0 {
-        Some(
-            verify(&arch.model, &analysis, &mc)
-                .map_err(|e| Failure::input(format!("concord: {e}")))?,
-        )
+        Some(verify(&arch.model, &analysis, &sampling)?)
     } else {
         None
     };
@@ -81,44 +76,31 @@ pub fn build(
     Ok((text, written))
 }
 
-/// Writes `text` to `path`, naming the path in the error.
-pub fn write_file(path: &Path, text: &str) -> Result<(), Failure> {
-    std::fs::write(path, text).map_err(|e| {
-        Failure::input(format!(
-            "concord: cannot write {}: {e}; check that its folder exists and is writable",
-            path.display()
-        ))
-    })
-}
-
 /// One line saying what was written.
-pub fn describe(path: &Path, w: &Written) -> String {
-    let check = match w.agreement {
-        Some((a, n)) => format!("; cross-check: {a} of {n} figures agree"),
+pub fn describe(path: &Path, written: &Written) -> String {
+    let check = match written.agreement {
+        Some((agree, all)) => format!("; cross-check: {agree} of {all} figures agree"),
         None => "; cross-check not run".to_string(),
     };
     format!(
         "wrote {} ({:.1} kB): {}{check}\n",
         path.display(),
-        w.bytes as f64 / 1000.0,
-        w.name
+        written.bytes as f64 / 1000.0,
+        written.name
     )
 }
 
 /// Runs `concord report`.
-pub fn run(args: &ReportArgs) -> Result<String, Failure> {
+pub fn run(args: &ReportArgs) -> Result<String, CliError> {
     let (text, written) = build(&args.file, args.date.as_deref(), args.verify, args.seed)?;
-    write_file(&args.output, &text)?;
+    write_output(&args.output, &text)?;
     let line = describe(&args.output, &written);
-    if let Some((a, n)) = written.agreement
-        && a < n
+    if let Some((agree, all)) = written.agreement
+        && agree < all
     {
-        return Err(Failure {
-            code: EXIT_FINDING,
-            message: "concord: the Monte Carlo cross-check disagrees on some figures (see \
-                      section 9 of the report)"
-                .into(),
-            output: Some(line),
+        return Err(CliError::CrossCheckDisagrees {
+            shown_in: "section 9 of the report",
+            output: line,
         });
     }
     Ok(line)

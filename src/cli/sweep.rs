@@ -8,16 +8,14 @@ use indicatif::{ProgressBar, ProgressStyle};
 
 use crate::analysis::AnalysisError;
 use crate::analysis::AnalysisOptions;
-use crate::analysis::sweep::{
-    Axis, SweepPlan, default_spread_range, prepare_sweep, spread_curve, sweep,
-};
-use crate::report::plot::PlotError;
+use crate::analysis::spread::{default_spread_range, spread_curve};
+use crate::analysis::sweep::{Axis, SweepPlan, prepare_sweep, sweep};
 use crate::report::sweep::{
     SweepFormat, SweepPicture, SweepWriter, spread_csv, spread_json, spread_summary, spread_svg,
 };
 
 use super::args::{SweepArgs, SweepFormatArg};
-use super::{Failure, load, values};
+use super::{CliError, load, values, write_output};
 
 /// Default points of a parameter sweep.
 const DEFAULT_POINTS: usize = 50;
@@ -37,60 +35,49 @@ impl From<AnalysisError> for Stop {
 }
 
 /// Runs the sweep; rows go to standard output or `--output` as they are computed.
-pub fn run(args: &SweepArgs) -> Result<String, Failure> {
+pub fn run(args: &SweepArgs) -> Result<String, CliError> {
     match (&args.vary, &args.spread) {
         (Some(vary), None) => parameter_sweep(args, vary),
         (None, Some(site)) => spread_sweep(args, site),
-        _ => Err(Failure::input(
-            "concord sweep: give --vary KEY=VALUES (a parameter sweep) or --spread SITE \
-             (a fault site over its spread)",
+        _ => Err(CliError::Usage(
+            "give --vary KEY=VALUES (a parameter sweep) or --spread SITE (a fault site over \
+             its spread)"
+                .into(),
         )),
     }
 }
 
-fn output_writer(args: &SweepArgs) -> Result<Box<dyn Write>, Failure> {
+fn output_writer(args: &SweepArgs) -> Result<Box<dyn Write>, CliError> {
     Ok(match &args.output {
-        Some(path) => Box::new(BufWriter::new(File::create(path).map_err(|e| {
-            Failure::input(format!(
-                "concord: cannot write {}: {e}; check the folder exists and is writable",
-                path.display()
-            ))
-        })?)),
+        Some(path) => Box::new(BufWriter::new(
+            File::create(path).map_err(|e| CliError::write(path, e))?,
+        )),
         None => Box::new(BufWriter::new(io::stdout().lock())),
     })
 }
 
-fn parameter_sweep(args: &SweepArgs, vary: &str) -> Result<String, Failure> {
+fn parameter_sweep(args: &SweepArgs, vary: &str) -> Result<String, CliError> {
     let arch = load(&args.file)?;
     let vary = values::axis(
         vary,
         args.points.unwrap_or(DEFAULT_POINTS),
-        args.log,
+        args.log.then_some("--log"),
         "--vary",
     )?;
     let series = match &args.series {
-        Some(s) => Some(values::axis(
-            s,
+        Some(spec) => Some(values::axis(
+            spec,
             args.series_points,
-            args.series_log,
+            args.series_log.then_some("--series-log"),
             "--series",
         )?),
         None => None,
     };
-    let plan =
-        SweepPlan::new(vary, series).map_err(|e| Failure::input(format!("concord sweep: {e}")))?;
-    let sites = prepare_sweep(&arch.source, &arch.path, &plan)
-        .map_err(|e| Failure::input(format!("concord sweep: {e}")))?;
+    let plan = SweepPlan::new(vary, series)?;
+    let sites = prepare_sweep(&arch, &plan)?;
     let format = match args.format {
         SweepFormatArg::Csv => SweepFormat::Csv,
         SweepFormatArg::Json => SweepFormat::Json,
-    };
-    let write_failure = |e: io::Error| {
-        Failure::computation(format!(
-            "concord: writing the rows failed: {e}; check that the output (a file, a pipe or \
-                 the terminal) can take them: free disk space, permissions, a reader at the \
-                 other end"
-        ))
     };
     let mut writer = SweepWriter::start(
         output_writer(args)?,
@@ -100,7 +87,7 @@ fn parameter_sweep(args: &SweepArgs, vary: &str) -> Result<String, Failure> {
         &arch.path,
         &arch.source,
     )
-    .map_err(write_failure)?;
+    .map_err(CliError::Stream)?;
     let progress = ProgressBar::new(plan.len() as u64);
     progress.set_style(
         ProgressStyle::with_template(
@@ -111,13 +98,17 @@ fn parameter_sweep(args: &SweepArgs, vary: &str) -> Result<String, Failure> {
     // The picture keeps two numbers per point and line, and only when one is asked for.
     let mut plot = match &args.plot {
         Some(_) => Some(
-            SweepPicture::new(&plan, &sites, args.site.as_deref())
-                .map_err(|e| Failure::input(format!("concord sweep: {e}")))?,
+            SweepPicture::new(&plan, &sites, args.site.as_deref()).map_err(|message| {
+                CliError::Value {
+                    flag: "--site".into(),
+                    message,
+                }
+            })?,
         ),
         None => None,
     };
     let options = AnalysisOptions::default();
-    let outcome = sweep(&arch.source, &arch.path, &plan, &options, |row| {
+    let outcome = sweep(&arch, &plan, &options, |row| {
         writer.row(&row).map_err(Stop::Write)?;
         if let Some(picture) = plot.as_mut() {
             picture.add(&row);
@@ -128,24 +119,21 @@ fn parameter_sweep(args: &SweepArgs, vary: &str) -> Result<String, Failure> {
     progress.finish_and_clear();
     match outcome {
         Ok(()) => {}
-        Err(Stop::Analysis(e)) => {
-            return Err(Failure::computation(format!("concord sweep: {e}")));
-        }
-        Err(Stop::Write(e)) => return Err(write_failure(e)),
+        Err(Stop::Analysis(e)) => return Err(e.into()),
+        Err(Stop::Write(e)) => return Err(CliError::Stream(e)),
     }
-    writer.finish().map_err(write_failure)?;
+    writer.finish().map_err(CliError::Stream)?;
     if let (Some(path), Some(picture)) = (&args.plot, &plot) {
-        write_svg(path, picture.svg(&arch.model.unit))?;
+        write_output(path, picture.svg(&arch.model.unit)?)?;
     }
     Ok(String::new())
 }
 
-fn spread_sweep(args: &SweepArgs, site: &str) -> Result<String, Failure> {
+fn spread_sweep(args: &SweepArgs, site: &str) -> Result<String, CliError> {
     let arch = load(&args.file)?;
     let (from, to) = match &args.sigma {
         Some(text) => values::range(text, "--sigma")?,
-        None => default_spread_range(&arch.model, site)
-            .map_err(|e| Failure::input(format!("concord sweep: {e}")))?,
+        None => default_spread_range(&arch.model, site)?,
     };
     let sigmas = Axis::log(
         "sigma",
@@ -153,46 +141,28 @@ fn spread_sweep(args: &SweepArgs, site: &str) -> Result<String, Failure> {
         to,
         args.points.unwrap_or(DEFAULT_SPREAD_POINTS),
     )
-    .map_err(|e| Failure::input(format!("concord sweep: {e}")))?
+    .map_err(|error| CliError::Request {
+        flag: "--sigma".into(),
+        error,
+    })?
     .values;
     let options = AnalysisOptions::default();
-    let curve = spread_curve(&arch.model, site, &sigmas, &options).map_err(|e| match e {
-        AnalysisError::InvalidOption { .. } => Failure::input(format!("concord sweep: {e}")),
-        other => Failure::computation(format!("concord sweep: {other}")),
-    })?;
+    let curve = spread_curve(&arch.model, site, &sigmas, &options)?;
     let text = match args.format {
         SweepFormatArg::Csv => spread_csv(&curve),
-        SweepFormatArg::Json => spread_json(&curve, &arch.path, &arch.source)
-            .map_err(|e| Failure::computation(format!("concord: JSON output failed: {e}")))?,
+        SweepFormatArg::Json => {
+            spread_json(&curve, &arch.path, &arch.source).map_err(CliError::Json)?
+        }
     };
     if let Some(path) = &args.plot {
-        write_svg(path, spread_svg(&curve, &arch.model.unit))?;
+        write_output(path, spread_svg(&curve, &arch.model.unit)?)?;
     }
     eprintln!("{}", spread_summary(&curve, &arch.model.unit));
     match &args.output {
         Some(path) => {
-            std::fs::write(path, text).map_err(|e| {
-                Failure::input(format!(
-                    "concord: cannot write {}: {e}; check the folder exists and is writable",
-                    path.display()
-                ))
-            })?;
+            write_output(path, text)?;
             Ok(String::new())
         }
         None => Ok(text),
     }
-}
-
-/// Writes a rendered picture, or says why it could not be drawn or written.
-pub(crate) fn write_svg(
-    path: &std::path::Path,
-    svg: Result<String, PlotError>,
-) -> Result<(), Failure> {
-    let svg = svg.map_err(|e| Failure::computation(format!("concord: the plot failed: {e}")))?;
-    std::fs::write(path, svg).map_err(|e| {
-        Failure::input(format!(
-            "concord: cannot write {}: {e}; check the folder exists and is writable",
-            path.display()
-        ))
-    })
 }

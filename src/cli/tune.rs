@@ -2,17 +2,15 @@
 
 use indicatif::{ProgressBar, ProgressStyle};
 
-use crate::analysis::AnalysisError;
 use crate::analysis::AnalysisOptions;
 use crate::analysis::tune::{CoverageFigure, TuneRequest, tune};
 use crate::report::tune::{curve_csv, json, summary, trade_off_svg};
 
 use super::args::{CoverageArg, TuneArgs, TuneFormat};
-use super::sweep::write_svg;
-use super::{Failure, load, values};
+use super::{CliError, load, values, write_output};
 
 /// Runs the tuning and renders it; the curve and the plot go to their files.
-pub fn run(args: &TuneArgs) -> Result<String, Failure> {
+pub fn run(args: &TuneArgs) -> Result<String, CliError> {
     let arch = load(&args.file)?;
     let target = values::coverage_target(&args.target_dc, "--target-dc")?;
     let figure = match args.figure {
@@ -30,34 +28,17 @@ pub fn run(args: &TuneArgs) -> Result<String, Failure> {
             .unwrap_or_else(|_| ProgressStyle::default_bar()),
     );
     let tick = || progress.inc(1);
-    let outcome = tune(
-        &arch.source,
-        &arch.path,
-        &request,
-        &AnalysisOptions::default(),
-        &tick,
-    );
+    let outcome = tune(&arch, &request, &AnalysisOptions::default(), &tick);
     progress.finish_and_clear();
-    let result = outcome.map_err(|e| match e {
-        AnalysisError::InvalidOption { .. } | AnalysisError::Model { .. } => {
-            Failure::input(format!("concord tune: {e}"))
-        }
-        other => Failure::computation(format!("concord tune: {other}")),
-    })?;
+    let result = outcome?;
     if let Some(path) = &args.curve {
-        std::fs::write(path, curve_csv(&result)).map_err(|e| {
-            Failure::input(format!(
-                "concord: cannot write {}: {e}; check the folder exists and is writable",
-                path.display()
-            ))
-        })?;
+        write_output(path, curve_csv(&result))?;
     }
     if let Some(path) = &args.plot {
-        write_svg(path, trade_off_svg(&result))?;
+        write_output(path, trade_off_svg(&result)?)?;
     }
     match args.format {
         TuneFormat::Text => Ok(summary(&result, &arch.path)),
-        TuneFormat::Json => json(&result, &arch.path, &arch.source)
-            .map_err(|e| Failure::computation(format!("concord: JSON output failed: {e}"))),
+        TuneFormat::Json => json(&result, &arch.path, &arch.source).map_err(CliError::Json),
     }
 }

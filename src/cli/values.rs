@@ -3,50 +3,66 @@
 
 use crate::analysis::sweep::Axis;
 
-use super::Failure;
+use super::CliError;
+
+/// A malformed value of `option`.
+fn malformed(option: &str, message: String) -> CliError {
+    CliError::Value {
+        flag: option.to_string(),
+        message,
+    }
+}
 
 /// A number, or an input failure naming the option.
-pub fn number(text: &str, option: &str) -> Result<f64, Failure> {
-    let v: f64 = text.trim().parse().map_err(|_| {
-        Failure::input(format!(
-            "concord: {option}: `{text}` is not a number (write e.g. 2.5 or 1e-3)"
-        ))
+pub fn number(text: &str, option: &str) -> Result<f64, CliError> {
+    let value: f64 = text.trim().parse().map_err(|_| {
+        malformed(
+            option,
+            format!("`{text}` is not a number (write e.g. 2.5 or 1e-3)"),
+        )
     })?;
-    if !v.is_finite() {
-        return Err(Failure::input(format!(
-            "concord: {option}: `{text}` is not a finite number"
-        )));
+    if !value.is_finite() {
+        return Err(malformed(
+            option,
+            format!("`{text}` is not a finite number"),
+        ));
     }
-    Ok(v)
+    Ok(value)
 }
 
 /// `FROM:TO` as two numbers.
-pub fn range(text: &str, option: &str) -> Result<(f64, f64), Failure> {
-    let Some((a, b)) = text.split_once(':') else {
-        return Err(Failure::input(format!(
-            "concord: {option}: `{text}` is not a range; write FROM:TO, e.g. 0.5:4"
-        )));
+pub fn range(text: &str, option: &str) -> Result<(f64, f64), CliError> {
+    let Some((from, to)) = text.split_once(':') else {
+        return Err(malformed(
+            option,
+            format!("`{text}` is not a range; write FROM:TO, e.g. 0.5:4"),
+        ));
     };
-    Ok((number(a, option)?, number(b, option)?))
+    Ok((number(from, option)?, number(to, option)?))
 }
 
-/// `KEY=FROM:TO` (spaced over `points`, logarithmically when `log`) or `KEY=V1,V2,...`.
-pub fn axis(spec: &str, points: usize, log: bool, option: &str) -> Result<Axis, Failure> {
+/// `KEY=FROM:TO` (spaced over `points`, logarithmically when `log` names the option that asks
+/// for it) or `KEY=V1,V2,...`.
+pub fn axis(spec: &str, points: usize, log: Option<&str>, option: &str) -> Result<Axis, CliError> {
     let Some((key, values)) = spec.split_once('=') else {
-        return Err(Failure::input(format!(
-            "concord: {option}: `{spec}` names no values; write KEY=FROM:TO or KEY=V1,V2, \
+        return Err(malformed(
+            option,
+            format!(
+                "`{spec}` names no values; write KEY=FROM:TO or KEY=V1,V2, \
              e.g. safety.limit=1:4"
-        )));
+            ),
+        ));
     };
     let key = key.trim();
     if key.is_empty() {
-        return Err(Failure::input(format!(
-            "concord: {option}: `{spec}` has no key before `=`; write e.g. checks.ab.limit=2:3"
-        )));
+        return Err(malformed(
+            option,
+            format!("`{spec}` has no key before `=`; write e.g. checks.ab.limit=2:3"),
+        ));
     }
     let built = if values.contains(':') {
         let (from, to) = range(values, option)?;
-        if log {
+        if log.is_some() {
             Axis::log(key, from, to, points)
         } else {
             Axis::linear(key, from, to, points)
@@ -55,24 +71,32 @@ pub fn axis(spec: &str, points: usize, log: bool, option: &str) -> Result<Axis, 
         let list = values
             .split(',')
             .map(|v| number(v, option))
-            .collect::<Result<Vec<f64>, Failure>>()?;
+            .collect::<Result<Vec<f64>, CliError>>()?;
         Axis::list(key, list)
     };
-    built.map_err(|e| Failure::input(format!("concord: {option}: {e}")))
+    // A log axis has rules of its own (positive ends): name the option that asked for it.
+    let flag = match log {
+        Some(log) => format!("{option} (with {log})"),
+        None => option.to_string(),
+    };
+    built.map_err(|error| CliError::Request { flag, error })
 }
 
 /// A coverage target: a fraction in (0, 1] or a percentage written with `%`.
-pub fn coverage_target(text: &str, option: &str) -> Result<f64, Failure> {
-    let t = text.trim();
-    let value = match t.strip_suffix('%') {
-        Some(p) => number(p, option)? / 100.0,
-        None => number(t, option)?,
+pub fn coverage_target(text: &str, option: &str) -> Result<f64, CliError> {
+    let trimmed = text.trim();
+    let value = match trimmed.strip_suffix('%') {
+        Some(percent) => number(percent, option)? / 100.0,
+        None => number(trimmed, option)?,
     };
     if !(value > 0.0 && value <= 1.0) {
-        return Err(Failure::input(format!(
-            "concord: {option}: `{text}` is not a coverage; give a fraction in (0, 1] such as \
+        return Err(malformed(
+            option,
+            format!(
+                "`{text}` is not a coverage; give a fraction in (0, 1] such as \
              0.99, or a percentage such as 99%"
-        )));
+            ),
+        ));
     }
     Ok(value)
 }
@@ -83,15 +107,15 @@ mod tests {
 
     #[test]
     fn values_parse_in_both_forms() {
-        let a = axis("safety.limit=1:3", 3, false, "--vary").unwrap();
+        let a = axis("safety.limit=1:3", 3, None, "--vary").unwrap();
         assert_eq!(a.key, "safety.limit");
         assert_eq!(a.values, vec![1.0, 2.0, 3.0]);
-        let b = axis("checks.ab.limit=2,2.5", 9, false, "--vary").unwrap();
+        let b = axis("checks.ab.limit=2,2.5", 9, None, "--vary").unwrap();
         assert_eq!(b.values, vec![2.0, 2.5]);
-        assert!(axis("checks.ab.limit", 3, false, "--vary").is_err());
-        assert!(axis("=1:2", 3, false, "--vary").is_err());
-        assert!(axis("k=a:2", 3, false, "--vary").is_err());
-        assert!(axis("k=0:2", 3, true, "--vary").is_err());
+        assert!(axis("checks.ab.limit", 3, None, "--vary").is_err());
+        assert!(axis("=1:2", 3, None, "--vary").is_err());
+        assert!(axis("k=a:2", 3, None, "--vary").is_err());
+        assert!(axis("k=0:2", 3, Some("--log"), "--vary").is_err());
     }
 
     #[test]

@@ -4,6 +4,7 @@
 
 use nalgebra::DMatrix;
 
+use super::bands::CheckBand;
 use super::error::Diagnostic;
 use super::graph::ModelGraph;
 
@@ -371,6 +372,11 @@ pub struct Architecture {
     pub path: String,
     /// The text as read (before overrides).
     pub source: String,
+    /// The values set by dotted key path on top of `source`, in the order applied (empty
+    /// for a file loaded as it is).
+    pub overrides: Vec<(String, f64)>,
+    /// The band of every check as the file writes it (with the overrides), in file order.
+    pub check_bands: Vec<CheckBand>,
     pub model: CompiledModel,
     pub graph: ModelGraph,
     pub warnings: Vec<Diagnostic>,

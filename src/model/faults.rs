@@ -1,9 +1,9 @@
 //! Validation of fault sites: rate, hit nodes, mode, amplitude model, latent coverage.
 
 use super::error::Sink;
+use super::names::{NameRef, Namespace};
 use super::raw::*;
 use super::resolved::*;
-use super::validate::{NameRef, Namespace};
 use crate::prob::tolerance::WEIGHT_SUM_ABS;
 
 /// The default search range of an unknown fault sigma.

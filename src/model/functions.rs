@@ -3,9 +3,9 @@
 
 use super::error::Sink;
 use super::limits;
+use super::names::{NameRef, Namespace};
 use super::raw::*;
 use super::resolved::*;
-use super::validate::{NameRef, Namespace};
 
 /// The most arguments of an order statistic or a range check.
 pub(crate) fn max_order_args() -> usize {

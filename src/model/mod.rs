@@ -3,15 +3,17 @@
 //!
 //! Loading runs in stages, each collecting every problem it finds before the next one runs:
 //! 1. `tree`: TOML syntax (the toml crate's recoverable parser, with spans);
-//! 2. `overrides`: numeric values set by key path (sweeps);
+//! 2. `overrides`: numeric values set by key path (sweeps, tuning; `bands` says which keys
+//!    move the band of a check);
 //! 3. `read`: key names, value types, required keys -> the raw model;
-//! 4. `validate` (with `functions`, `faults`, `psd`): names, references and numbers -> the
-//!    resolved model;
+//! 4. `validate` (with `names`, `functions`, `faults`, `psd`): names, references and numbers
+//!    -> the resolved model;
 //! 5. `graph`: the petgraph graph, cycles among signals, unused nodes (warnings);
 //! 6. `compile` (with `pieces`): mean, covariance, piecewise-linear functions, fault maps.
 //!
 //! The format is documented in docs/architecture-format.md.
 
+mod bands;
 mod compile;
 mod compiled;
 mod describe;
@@ -21,6 +23,7 @@ mod faults;
 mod functions;
 mod graph;
 pub mod limits;
+mod names;
 mod overrides;
 mod pieces;
 mod psd;
@@ -33,6 +36,7 @@ mod validate;
 
 use std::path::Path;
 
+pub use bands::{BandForm, CheckBand};
 pub use compiled::{
     Amplitude, Architecture, CompiledCheck, CompiledFault, CompiledModel, Detection, FaultMode,
     Formula, Guard, LinearForm, OrderStat, Piece, PiecewiseLinear,
@@ -134,6 +138,7 @@ pub fn load_str_with_overrides(
     };
     overrides::apply(&mut root, overrides, &mut sink);
     let raw = read::read(&root, &mut sink);
+    let check_bands = bands::written_bands(&raw);
     let compiled = validate::validate(&raw, &mut sink).and_then(|resolved| {
         let graph = graph::build(&resolved);
         let order = graph::signal_order(&resolved, &graph, &mut sink)?;
@@ -159,6 +164,8 @@ pub fn load_str_with_overrides(
     Ok(Architecture {
         path: path_for_messages.to_string(),
         source: text.to_string(),
+        overrides: overrides.to_vec(),
+        check_bands,
         model,
         graph,
         warnings,

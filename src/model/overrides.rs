@@ -1,4 +1,5 @@
-//! Overrides: numeric values set by dotted key path before validation (used by sweeps), e.g.
+//! Overrides: numeric values set by dotted key path before validation (used by sweeps and
+//! tuning through [`Architecture::with_overrides`]), e.g.
 //! `safety.limit`, `checks.ab.limit`, `channels.a.sigma`, `correlations.0.rho` (or
 //! `correlations[0].rho`), `faults.a_drift.amplitude.gaussian.sigma`.
 //!
@@ -7,8 +8,25 @@
 //! `latent_coverage`); anything else is an error naming the path. The overridden value is
 //! then validated like any other, and messages about it say that an override set it.
 
-use super::error::Sink;
+use super::compiled::Architecture;
+use super::error::{ModelError, Sink};
 use super::tree::{Entry, Node, Value};
+
+impl Architecture {
+    /// The architecture with `overrides` set on top of the values this one already has: the
+    /// file reloaded with its overrides and then these, validated and compiled again. The
+    /// result is what loading the file with those values written in by hand gives (a later
+    /// value for the same key wins).
+    ///
+    /// # Errors
+    /// [`ModelError::Invalid`] with every problem found, including each path that names
+    /// nothing in the file and each value that makes the file invalid.
+    pub fn with_overrides(&self, overrides: &[(String, f64)]) -> Result<Architecture, ModelError> {
+        let mut all = self.overrides.clone();
+        all.extend_from_slice(overrides);
+        super::load_str_with_overrides(&self.source, &self.path, &all)
+    }
+}
 
 /// Keys that may be added by an override when the file leaves them out.
 const OPTIONAL_NUMERIC: &[&str] = &[
@@ -44,14 +62,14 @@ fn segments(path: &str) -> Vec<String> {
 }
 
 fn set(root: &mut Node, path: &str, value: f64) -> Result<(), String> {
-    let segs = segments(path);
-    if segs.iter().any(|s| s.is_empty()) {
+    let steps = segments(path);
+    if steps.iter().any(|s| s.is_empty()) {
         return Err(format!("`{path}` is not a dotted key path"));
     }
     let mut node = root;
     let mut walked = String::new();
-    for (i, seg) in segs.iter().enumerate() {
-        let last = i + 1 == segs.len();
+    for (i, step) in steps.iter().enumerate() {
+        let last = i + 1 == steps.len();
         let here = if walked.is_empty() {
             "the top level".to_string()
         } else {
@@ -60,12 +78,12 @@ fn set(root: &mut Node, path: &str, value: f64) -> Result<(), String> {
         let span = node.span;
         node = match &mut node.value {
             Value::Table(entries) => {
-                let pos = entries.iter().position(|e| e.key == *seg);
-                match pos {
-                    Some(p) => &mut entries[p].value,
-                    None if last && OPTIONAL_NUMERIC.contains(&seg.as_str()) => {
+                let found = entries.iter().position(|e| e.key == *step);
+                match found {
+                    Some(at) => &mut entries[at].value,
+                    None if last && OPTIONAL_NUMERIC.contains(&step.as_str()) => {
                         entries.push(Entry {
-                            key: seg.clone(),
+                            key: step.clone(),
                             key_span: span,
                             value: Node {
                                 span,
@@ -73,24 +91,24 @@ fn set(root: &mut Node, path: &str, value: f64) -> Result<(), String> {
                                 overridden: true,
                             },
                         });
-                        let n = entries.len() - 1;
-                        &mut entries[n].value
+                        let added = entries.len() - 1;
+                        &mut entries[added].value
                     }
-                    None => return Err(format!("{here} has no key `{seg}`")),
+                    None => return Err(format!("{here} has no key `{step}`")),
                 }
             }
             Value::Array(items) => {
-                let k: usize = seg
+                let index: usize = step
                     .parse()
-                    .map_err(|_| format!("{here} is an array; `{seg}` is not an index"))?;
+                    .map_err(|_| format!("{here} is an array; `{step}` is not an index"))?;
                 let len = items.len();
                 items
-                    .get_mut(k)
-                    .ok_or_else(|| format!("{here} has {len} entries, no index {k}"))?
+                    .get_mut(index)
+                    .ok_or_else(|| format!("{here} has {len} entries, no index {index}"))?
             }
             other => {
                 return Err(format!(
-                    "{here} is {}, it has no key `{seg}`",
+                    "{here} is {}, it has no key `{step}`",
                     other.type_name()
                 ));
             }
@@ -98,7 +116,7 @@ fn set(root: &mut Node, path: &str, value: f64) -> Result<(), String> {
         if !walked.is_empty() {
             walked.push('.');
         }
-        walked.push_str(seg);
+        walked.push_str(step);
     }
     match node.value {
         Value::Table(_) | Value::Array(_) => Err(format!(
