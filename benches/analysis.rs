@@ -3,8 +3,8 @@
 
 use criterion::{Criterion, criterion_group, criterion_main};
 
+use concord::analysis::engine::Engine;
 use concord::analysis::montecarlo::{MonteCarloOptions, analyze_montecarlo};
-use concord::analysis::run::Prepared;
 use concord::analysis::site::analyze_site;
 use concord::analysis::{AnalysisOptions, analyze};
 use concord::model::load_str;
@@ -80,50 +80,25 @@ amplitude = { gaussian = { mean = 0.0, sigma = "unknown" } }
 fn bench(c: &mut Criterion) {
     let options = AnalysisOptions::default();
     let two = load_str(TWO, "two.toml").expect("bench file");
-    let prepared = Prepared::new(&two.model, &options).expect("prepare");
+    let engine = Engine::new(&two.model, &options);
     c.bench_function("site: two channels, gaussian fault of known sigma", |b| {
-        b.iter(|| {
-            analyze_site(
-                &two.model,
-                &prepared.evaluator,
-                &two.model.faults[0],
-                &options,
-                false,
-            )
-            .expect("site")
-        })
+        b.iter(|| analyze_site(&engine, &two.model.faults[0], &options, false).expect("site"))
     });
     c.bench_function("site: two channels, worst case over unknown sigma", |b| {
-        b.iter(|| {
-            analyze_site(
-                &two.model,
-                &prepared.evaluator,
-                &two.model.faults[1],
-                &options,
-                false,
-            )
-            .expect("site")
-        })
+        b.iter(|| analyze_site(&engine, &two.model.faults[1], &options, false).expect("site"))
     });
     c.bench_function("file: two channels, whole analysis", |b| {
         b.iter(|| analyze(&two.model, &options, false).expect("analysis"))
     });
     let three = load_str(THREE, "three.toml").expect("bench file");
-    let prepared3 = Prepared::new(&three.model, &options).expect("prepare");
+    let engine3 = Engine::new(&three.model, &options);
     let mut group = c.benchmark_group("slow");
     group.sample_size(10);
     group.bench_function(
         "site: three channels median, worst case over unknown sigma",
         |b| {
             b.iter(|| {
-                analyze_site(
-                    &three.model,
-                    &prepared3.evaluator,
-                    &three.model.faults[0],
-                    &options,
-                    false,
-                )
-                .expect("site")
+                analyze_site(&engine3, &three.model.faults[0], &options, false).expect("site")
             })
         },
     );

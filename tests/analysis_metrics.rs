@@ -46,6 +46,7 @@ fn site(
         curve: None,
         latent_coverage,
         warnings: Vec::new(),
+        method: concord::analysis::engine::FigureMethod::Polytopes,
     }
 }
 

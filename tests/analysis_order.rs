@@ -3,9 +3,10 @@
 //! order statistics and ranges, and against the Monte Carlo engine up to sixteen channels.
 
 use concord::analysis::engine::{EngineChoice, FigureMethod};
-use concord::analysis::montecarlo::{MonteCarloOptions, analyze_montecarlo};
+use concord::analysis::montecarlo::{MonteCarloOptions, verify};
 use concord::analysis::{Analysis, AnalysisOptions, Outcome, analyze};
 use concord::model::load_str;
+use concord::prob::order::{Accuracy, Agreement, Question, Rank, SharedGaussian, figures};
 
 fn run(text: &str, order: bool) -> Analysis {
     let arch = load_str(text, "test.toml").expect("valid file");
@@ -82,7 +83,24 @@ fn chain(n: usize, output: &str, checks: &str, rho: Option<f64>) -> String {
     s
 }
 
-const RANGE: &str = "[checks.all]\nkind = \"spread\"\nof = [ALL]\nupper = 1.8\n";
+/// The chain without its shared supply and the supply's fault.
+fn without_supply(text: &str) -> String {
+    let mut out = String::new();
+    let mut skip = false;
+    for line in text.lines() {
+        if line.starts_with('[') {
+            skip = line == "[sources.supply]" || line == "[faults.supply_step]";
+        }
+        if skip || line.starts_with("from = ") {
+            continue;
+        }
+        out.push_str(line);
+        out.push('\n');
+    }
+    out
+}
+
+const RANGE: &str = "[checks.all]\nkind = \"range\"\nof = [ALL]\nupper = 1.8\n";
 const STAR: &str = "[checks.d1]\nkind = \"difference\"\nof = [\"c0\", \"c1\"]\nlimit = 1.5\n\n\
                     [checks.d2]\nkind = \"difference\"\nof = [\"c2\", \"c0\"]\nlower = -1.2\nupper = 1.6\n";
 
@@ -101,173 +119,200 @@ fn order_engine_matches_the_polytope_engine_on_shared_structures() {
         (4, "max", RANGE, None),
     ];
     for (n, output, checks, rho) in cases {
-        let text = chain(n, output, checks, rho);
+        let mut text = chain(n, output, checks, rho);
+        if rho.is_some() {
+            // The correlation is the one shared term: no supply (two terms go to polytopes).
+            text = without_supply(&text);
+        }
         let fast = run(&text, true);
         let general = run(&text, false);
-        let what = format!("{n} channels, {output}, checks {:?}, rho {rho:?}", checks.len());
-        agree(&fast.baseline, &general.baseline, &format!("{what}, baseline"));
-        assert_eq!(fast.baseline_method, FigureMethod::OrderStatistics, "{what}");
+        let what = format!(
+            "{n} channels, {output}, checks {:?}, rho {rho:?}",
+            checks.len()
+        );
+        agree(
+            &fast.baseline,
+            &general.baseline,
+            &format!("{what}, baseline"),
+        );
+        assert_eq!(
+            fast.baseline_method,
+            FigureMethod::OrderStatistics,
+            "{what}"
+        );
         for (a, b) in fast.sites.iter().zip(&general.sites) {
-            assert_eq!(a.method, FigureMethod::OrderStatistics, "{what}, {}", a.name);
+            assert_eq!(
+                a.method,
+                FigureMethod::OrderStatistics,
+                "{what}, {}",
+                a.name
+            );
             assert_eq!(b.method, FigureMethod::Polytopes);
             agree(&a.outcome, &b.outcome, &format!("{what}, site {}", a.name));
         }
     }
 }
 
+/// `n` independent identical channels N(0, 1) (no shared source) whose output is the
+/// median; no checks.
+fn iid_median(n: usize, upper: f64) -> String {
+    let mut s = format!("name = \"iid\"\nunit = \"V\"\nfull_scale = [-10.0, 10.0]\n\n");
+    let names: Vec<String> = (0..n).map(|i| format!("c{i}")).collect();
+    for name in &names {
+        s.push_str(&format!("[channels.{name}]\nsigma = 1.0\n\n"));
+    }
+    let all = names
+        .iter()
+        .map(|x| format!("\"{x}\""))
+        .collect::<Vec<_>>()
+        .join(", ");
+    s.push_str(&format!(
+        "[output]\nkind = \"median\"\nof = [{all}]\n\n[safety]\nlower = -1e6\nupper = {upper}\n"
+    ));
+    s
+}
+
+fn binomial(n: u64, k: u64) -> f64 {
+    (0..k).fold(1.0, |acc, i| acc * (n - i) as f64 / (i + 1) as f64)
+}
+
 #[test]
-#[ignore]
-fn debug_print() {
-    let text = chain(2, "min", RANGE, None);
-    for order in [true, false] {
-        let a = run(&text, order);
-        for s in &a.sites {
-            println!("{order} {} {:?}", s.name, s.outcome);
+fn median_of_independent_channels_exceeds_as_a_binomial_sum() {
+    // Common practice (derived here): the median of n = 2m + 1 independent readings exceeds
+    // t exactly when at least m + 1 of them do, so with q = P(X > t) = 1 - Phi(t),
+    // P(median > t) = sum_{j = m+1}^{n} C(n, j) q^j (1 - q)^(n - j). With no checks every
+    // violation is undetected: p_vu is that sum. q from libm's erfc (the msun code,
+    // independent of concord's normal CDF; statrs' erfc is off by about 1e-12 here).
+    for n in [5usize, 7, 9, 15] {
+        for t in [0.5, 1.0, 2.0] {
+            let q = 0.5 * libm::erfc(t / std::f64::consts::SQRT_2);
+            let m = (n as u64 - 1) / 2;
+            let want: f64 = (m + 1..=n as u64)
+                .map(|j| {
+                    binomial(n as u64, j) * q.powi(j as i32) * (1.0 - q).powi((n as u64 - j) as i32)
+                })
+                .sum();
+            let a = run(&iid_median(n, t), true);
+            assert_eq!(a.baseline_method, FigureMethod::OrderStatistics);
+            let got = a.baseline.p_vu;
+            // erfc is good to about 1 ulp; the sum has n terms.
+            let allowed = got.error + 1e-13 * want.max(1e-300) * n as f64 + 1e-15;
+            assert!(
+                (got.value - want).abs() <= allowed,
+                "n {n}, t {t}: {} +- {} vs binomial {want}",
+                got.value,
+                got.error
+            );
         }
     }
 }
 
-#[test]
-#[ignore]
-fn debug_scan() {
-    let base = chain(2, "min", RANGE, None);
-    for k in 0..=120 {
-        let f = -6.0 + 0.1 * k as f64;
-        let text = base.replace(
-            "amplitude = { uniform = [-6.0, 6.0] }",
-            &format!("amplitude = {{ points = [[{f}, 1.0]] }}"),
-        );
-        let a = run(&text, true);
-        let b = run(&text, false);
-        let (x, y) = (a.sites[3].outcome, b.sites[3].outcome);
-        let d = (x.p_vd.value - y.p_vd.value).abs().max((x.p_vu.value - y.p_vu.value).abs());
-        if d > 1e-12 {
-            println!("F {f:.2}: vd {:e} vs {:e}; vu {:e} vs {:e}", x.p_vd.value, y.p_vd.value, x.p_vu.value, y.p_vu.value);
-        }
-    }
+/// `P(range of n independent N(0,1) > r)` from the order-statistic engine: the output is
+/// one channel with no safety limit, so the false-alarm figure `p_sd` is the range check
+/// firing.
+fn range_exceeds(n: usize, r: f64) -> (f64, f64) {
+    let g = SharedGaussian {
+        mean: vec![0.0; n],
+        own_sd: vec![1.0; n],
+        shared: Vec::new(),
+        uniform: None,
+    };
+    let q = Question {
+        output: Rank { of: vec![0], k: 1 },
+        safe_lower: f64::NEG_INFINITY,
+        safe_upper: f64::INFINITY,
+        agreement: Agreement::Range {
+            of: (0..n).collect(),
+            limit: r,
+        },
+    };
+    let f = figures(
+        &g,
+        &q,
+        &Accuracy {
+            abs: 1e-13,
+            rel: 1e-10,
+            max_intervals: 400,
+        },
+    )
+    .expect("figures");
+    (f.safe_detected.value, f.safe_detected.error)
 }
 
 #[test]
-#[ignore]
-fn debug_brute() {
-    use concord::analysis::engine::{Engine, Scenario};
-    use concord::analysis::scenario::FaultScenario;
-    let base = chain(2, "min", RANGE, None);
-    let arch = load_str(&base, "t.toml").unwrap();
-    let m = &arch.model;
-    for order in [true, false] {
-        let options = AnalysisOptions { engine: if order { EngineChoice::OrderStatistics } else { EngineChoice::Polytopes }, ..AnalysisOptions::default() };
-        let engine = Engine::new(m, &options);
-        let sc = FaultScenario::new(m, &m.faults[3]).unwrap();
-        let pieces = [(-6.0, -1.2), (-1.2, 1.2), (1.2, 6.0)];
-        let mut total = 0.0;
-        for (a, b) in pieces {
-            let n = 4000;
-            let h = (b - a) / n as f64;
-            let mut s = 0.0;
-            for k in 0..=n {
-                let f = a + h * k as f64;
-                let w = if k == 0 || k == n { 1.0 } else if k % 2 == 1 { 4.0 } else { 2.0 };
-                let (o, _) = engine.outcome(Scenario::At(&sc, f)).unwrap();
-                s += w * o.p_vd.value;
-            }
-            total += s * h / 3.0;
-        }
-        println!("brute {order}: {:e}", total / 12.0);
-    }
-}
-
-#[test]
-#[ignore]
-fn debug_jumps() {
-    use concord::analysis::engine::{Engine, Scenario};
-    use concord::analysis::scenario::FaultScenario;
-    let base = chain(2, "min", RANGE, None);
-    let arch = load_str(&base, "t.toml").unwrap();
-    let m = &arch.model;
-    let engine = Engine::new(m, &AnalysisOptions { engine: EngineChoice::OrderStatistics, ..AnalysisOptions::default() });
-    let sc = FaultScenario::new(m, &m.faults[3]).unwrap();
-    let mut prev = None;
-    for k in 0..=12000 {
-        let f = -6.0 + 0.001 * k as f64;
-        let (o, _) = engine.outcome(Scenario::At(&sc, f)).unwrap();
-        if let Some(p) = prev {
-            let d: f64 = o.p_vd.value - p;
-            if d.abs() > 2e-3 {
-                println!("jump at {f:.3}: {d:e}");
-            }
-        }
-        prev = Some(o.p_vd.value);
-    }
-}
-
-#[test]
-#[ignore]
-fn debug_vq() {
-    use concord::analysis::engine::{Engine, Scenario};
-    use concord::analysis::scenario::FaultScenario;
-    use concord::prob::vector_quadrature::{VectorTolerance, integrate};
-    let base = chain(2, "min", RANGE, None);
-    let arch = load_str(&base, "t.toml").unwrap();
-    let m = &arch.model;
-    let engine = Engine::new(m, &AnalysisOptions { engine: EngineChoice::OrderStatistics, ..AnalysisOptions::default() });
-    let sc = FaultScenario::new(m, &m.faults[3]).unwrap();
-    let many = vec![-4.998714023216463, -4.948714023216462, -4.348714023216463, -3.1987140232164624, -3.1487140232164625, -2.8995713410721544, -2.849571341072154, -2.249571341072154, -1.9487140232164626, -1.85, -1.8, -1.3987140232164625, -1.3487140232164625, -1.2, -1.0995713410721542, -1.049571341072154, -0.800428658927846, -0.7504286589278459, -0.15042865892784585, -0.05, 0.0, 0.15042865892784585, 0.7004286589278459, 0.7504286589278459, 0.9995713410721541, 1.049571341072154, 1.2, 1.2987140232164625, 1.3487140232164625, 1.75, 1.8, 1.9487140232164626, 2.249571341072154, 2.799571341072154, 2.849571341072154, 3.0987140232164627, 3.1487140232164625, 4.348714023216463, 4.8987140232164625, 4.948714023216462];
-    for (bp, rel) in [(vec![-1.2, 1.2], 1e-7), (many, 1e-7), (vec![], 1e-7)] {
-        let r = integrate(
-            |f| {
-                let (o, _) = engine.outcome(Scenario::At(&sc, f)).unwrap();
-                Ok(([o.p_vd.value], [o.p_vd.error]))
-            },
-            -6.0,
-            6.0,
-            &bp,
-            &VectorTolerance { abs: 1.2e-10, rel: [rel], max_intervals: 400 },
-        )
-        .unwrap();
-        println!("vq {bp:?} {rel}: {:e} +- {:e} ({} evals, conv {})", r.value[0] / 12.0, r.error[0] / 12.0, r.evaluations, r.converged);
-    }
-}
-
-#[test]
-#[ignore]
-fn debug_timing() {
-    let cases = [
-        (2, "min", RANGE, None),
-        (3, "median", RANGE, None),
-        (3, "median", RANGE, Some(0.4)),
-        (3, "min", STAR, None),
-        (4, "max", RANGE, None),
+fn mean_range_of_normal_samples_matches_the_control_chart_constant_d2() {
+    // E[R] = int_0^inf P(R > r) dr for the range R of n independent standard normals: the
+    // control-chart constant d2(n). n = 2 and 3 have closed forms, 2/sqrt(pi) and
+    // 3/sqrt(pi) (common practice: E|X1 - X2| for N(0, 2), and Tippett 1925); the others
+    // are quoted from memory to three decimals as tabulated for Shewhart charts (ASTM
+    // E2587, Montgomery's Introduction to Statistical Quality Control, appendix VI).
+    // Composite Gauss-Legendre on [0, 12] in pieces of 0.25 (P(R > 12) < n * 1e-32).
+    let table = [
+        (2usize, 2.0 / std::f64::consts::PI.sqrt(), 1e-9),
+        (3, 3.0 / std::f64::consts::PI.sqrt(), 1e-9),
+        (4, 2.059, 6e-4),
+        (5, 2.326, 6e-4),
+        (6, 2.534, 6e-4),
+        (8, 2.847, 6e-4),
+        (10, 3.078, 6e-4),
     ];
-    for (n, output, checks, rho) in cases {
-        let text = chain(n, output, checks, rho);
-        for order in [true] {
-            let t = std::time::Instant::now();
-            let a = run(&text, order);
-            println!("{n} {output} {} {rho:?} order={order}: {:?} {:?}", checks.len(), t.elapsed(), a.sites.iter().map(|s| s.method).collect::<Vec<_>>());
+    // 5-point Gauss-Legendre nodes and weights on [-1, 1] (Abramowitz and Stegun 25.4.29).
+    let nodes = [
+        (0.0, 0.568_888_888_888_888_9),
+        (0.538_469_310_105_683_1, 0.478_628_670_499_366_5),
+        (-0.538_469_310_105_683_1, 0.478_628_670_499_366_5),
+        (0.906_179_845_938_664_0, 0.236_926_885_056_189_1),
+        (-0.906_179_845_938_664_0, 0.236_926_885_056_189_1),
+    ];
+    for (n, d2, allowed) in table {
+        let mut mean = 0.0;
+        let mut bound = 0.0;
+        let h = 0.25;
+        for piece in 0..48 {
+            let centre = h * (piece as f64 + 0.5);
+            for (x, w) in nodes {
+                let (p, e) = range_exceeds(n, centre + 0.5 * h * x);
+                mean += 0.5 * h * w * p;
+                bound += 0.5 * h * w * e;
+            }
         }
+        assert!(
+            (mean - d2).abs() <= allowed + bound,
+            "n {n}: mean range {mean} (+- {bound}) vs d2 {d2}"
+        );
     }
 }
 
+/// `n` channels on one supply, median (odd n) or maximum, a range check over all, one
+/// known-sigma drift on the first channel and a stuck channel.
+fn wide_chain(n: usize) -> String {
+    let output = if n % 2 == 1 { "median" } else { "max" };
+    let text = chain(n, output, RANGE, None);
+    // Keep the two fault kinds the sampler and the exact engine treat alike in cost.
+    let cut = text.find("[faults.frozen]").unwrap_or(text.len());
+    text[..cut].to_string()
+}
+
 #[test]
-#[ignore]
-fn debug_evals() {
-    use concord::prob::order::*;
-    for n in [3usize, 5, 9, 15] {
-        let g = SharedGaussian {
-            mean: (0..n).map(|i| 0.05 * i as f64).collect(),
-            own_sd: vec![0.5; n],
-            shared: vec![vec![0.3; n]],
-            uniform: None,
-        };
-        let q = Question {
-            output: Rank { of: (0..n).collect(), k: n.div_ceil(2) },
-            safe_lower: -1.2,
-            safe_upper: 1.2,
-            agreement: Agreement::Range { of: (0..n).collect(), limit: 1.8 },
-        };
-        let t = std::time::Instant::now();
-        let f = figures(&g, &q, &Accuracy { abs: 1e-11, rel: 1e-6, max_intervals: 400 }).unwrap();
-        println!("n {n}: {:?} evals {} vu {:e} +- {:e} conv {}", t.elapsed(), f.evaluations, f.violated_undetected.value, f.violated_undetected.error, f.converged);
+fn order_engine_agrees_with_sampling_up_to_sixteen_channels() {
+    // Independent path: the Monte Carlo engine (Box-Muller normals, the output and checks
+    // evaluated from the file's formulas) with 99.9 % Wilson intervals (Wilson 1927); every
+    // exact figure, widened by its bound, must meet its interval.
+    let mc = MonteCarloOptions {
+        samples: 100_000,
+        seed: 0x5eed_0016,
+    };
+    for n in [4usize, 9, 16] {
+        let arch = load_str(&wide_chain(n), "wide.toml").expect("valid file");
+        let exact = analyze(&arch.model, &AnalysisOptions::default(), false).expect("analysis");
+        assert_eq!(
+            exact.baseline_method,
+            FigureMethod::OrderStatistics,
+            "n {n}"
+        );
+        let rows = verify(&arch.model, &exact, &mc).expect("sampling");
+        for r in &rows {
+            assert!(r.agrees, "n {n}: {r:?}");
+        }
     }
 }

@@ -189,7 +189,10 @@ impl<'m> Engine<'m> {
     ///
     /// # Errors
     /// Engine failures; a model that neither method can take.
-    pub fn outcome(&self, scenario: Scenario<'_>) -> Result<(Outcome, FigureMethod), AnalysisError> {
+    pub fn outcome(
+        &self,
+        scenario: Scenario<'_>,
+    ) -> Result<(Outcome, FigureMethod), AnalysisError> {
         if let Some((q, g)) = self.shared(scenario) {
             let outcome = self.ordered(q, &g, self.options.polytope_rel)?;
             return Ok((outcome, FigureMethod::OrderStatistics));
@@ -215,7 +218,12 @@ impl<'m> Engine<'m> {
         evaluator.figure_with(&g, Figure::ViolatedUndetected, &tol)
     }
 
-    fn ordered(&self, q: &Question, g: &SharedGaussian, rel: f64) -> Result<Outcome, AnalysisError> {
+    fn ordered(
+        &self,
+        q: &Question,
+        g: &SharedGaussian,
+        rel: f64,
+    ) -> Result<Outcome, AnalysisError> {
         let accuracy = Accuracy {
             abs: self.options.polytope_abs,
             rel,

@@ -51,8 +51,9 @@ pub fn question(model: &CompiledModel) -> Result<Question, String> {
         let (lower, upper) = (check.lower, check.upper);
         match &check.formula {
             Formula::Range(args) => {
-                let of = Formula::bare_channels(args)
-                    .ok_or_else(|| format!("check '{}' is a range of derived signals", check.name))?;
+                let of = Formula::bare_channels(args).ok_or_else(|| {
+                    format!("check '{}' is a range of derived signals", check.name)
+                })?;
                 if lower > 0.0 {
                     return Err(format!("check '{}' fires on a small range", check.name));
                 }
@@ -66,9 +67,9 @@ pub fn question(model: &CompiledModel) -> Result<Question, String> {
                 firing_checks += 1;
             }
             other => {
-                let form = other
-                    .linear(n)
-                    .ok_or_else(|| format!("check '{}' is neither a range nor linear", check.name))?;
+                let form = other.linear(n).ok_or_else(|| {
+                    format!("check '{}' is neither a range nor linear", check.name)
+                })?;
                 let used: Vec<usize> = (0..n).filter(|i| form.coeffs[*i] != 0.0).collect();
                 let (a, b) = match used.as_slice() {
                     [i, j] if form.coeffs[*i] == 1.0 && form.coeffs[*j] == -1.0 => (*i, *j),
@@ -153,7 +154,11 @@ impl SharedTerms {
             let mut stack = vec![start];
             while let Some(i) = stack.pop() {
                 for j in 0..n {
-                    if j != i && group[j] == usize::MAX && r[(i, j)] != 0.0 && s[i] > 0.0 && s[j] > 0.0
+                    if j != i
+                        && group[j] == usize::MAX
+                        && r[(i, j)] != 0.0
+                        && s[i] > 0.0
+                        && s[j] > 0.0
                     {
                         group[j] = start;
                         stack.push(j);
@@ -235,7 +240,8 @@ impl SharedTerms {
         for (m, d) in t.mean.iter_mut().zip(direction) {
             *m += d * mean;
         }
-        t.columns.push(direction.iter().map(|d| d * sigma).collect());
+        t.columns
+            .push(direction.iter().map(|d| d * sigma).collect());
         t.tidy()
     }
 
@@ -270,7 +276,11 @@ impl SharedTerms {
         }
         SharedGaussian {
             mean: self.mean,
-            own_sd: self.own_variance.iter().map(|v| v.max(0.0).sqrt()).collect(),
+            own_sd: self
+                .own_variance
+                .iter()
+                .map(|v| v.max(0.0).sqrt())
+                .collect(),
             shared: kept,
             uniform: None,
         }

@@ -5,8 +5,8 @@ use rayon::prelude::*;
 use crate::model::CompiledModel;
 
 use super::cells::CellSet;
-use super::error::AnalysisError;
 use super::engine::{Engine, FigureMethod, Scenario};
+use super::error::AnalysisError;
 use super::evaluate::Evaluator;
 use super::metrics::{Metrics, metrics};
 use super::options::AnalysisOptions;

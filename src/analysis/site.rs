@@ -9,8 +9,8 @@ use crate::prob::polytope::Polytope;
 use crate::prob::quadrature::integrate_best_effort;
 use crate::prob::shift_average::mean_over_uniform_shift;
 
-use super::error::AnalysisError;
 use super::engine::{Engine, FigureMethod, Scenario};
+use super::error::AnalysisError;
 use super::evaluate::{Evaluator, quiet_by_complement};
 use super::options::AnalysisOptions;
 use super::outcome::{Figure, Outcome};
@@ -562,7 +562,8 @@ fn uniform_outcome_ordered(
         &tol,
     )
     .map_err(|e| AnalysisError::engine("integral of the figures over the amplitude", e))?;
-    let figure = |i: usize| Estimate::new(r.value[i] / width, r.error[i] / width).clamp_probability();
+    let figure =
+        |i: usize| Estimate::new(r.value[i] / width, r.error[i] / width).clamp_probability();
     Ok(Outcome {
         p_vd: figure(0),
         p_vu: figure(1),

@@ -7,10 +7,10 @@ use serde::Serialize;
 
 use crate::model::{Amplitude, CompiledModel};
 
+use super::engine::{Engine, Scenario};
 use super::error::{AnalysisError, RequestField};
 use super::options::AnalysisOptions;
 use super::outcome::Outcome;
-use super::engine::{Engine, Scenario};
 use super::scenario::FaultScenario;
 use super::site::{SiteResult, analyze_site};
 use super::sweep::check_count;
@@ -155,12 +155,7 @@ pub fn spread_curve(
             sigma_hi: hi,
             defaulted: false,
         };
-        Some(analyze_site(
-            &engine,
-            &searched,
-            options,
-            false,
-        )?)
+        Some(analyze_site(&engine, &searched, options, false)?)
     } else {
         None
     };

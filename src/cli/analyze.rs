@@ -1,7 +1,7 @@
 //! `concord analyze FILE`.
 
+use crate::analysis::analyze;
 use crate::analysis::montecarlo::{MonteCarloOptions, analyze_montecarlo, verify};
-use crate::analysis::{AnalysisOptions, analyze};
 use crate::report::{ReportInput, csv, json, table};
 
 use super::args::{AnalyzeArgs, Format, Method};
@@ -11,7 +11,7 @@ use super::{CliError, load};
 /// rendered figures, so that they are still shown.
 pub fn run(args: &AnalyzeArgs) -> Result<String, CliError> {
     let arch = load(&args.file)?;
-    let options = AnalysisOptions::default();
+    let options = args.accuracy.options()?;
     let (analysis, method) = match args.method {
         Method::Exact => (analyze(&arch.model, &options, args.curve)?, "exact"),
         Method::Montecarlo => {

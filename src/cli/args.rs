@@ -66,6 +66,15 @@ pub enum Method {
     Montecarlo,
 }
 
+/// The one accuracy knob shared by the commands that analyse.
+#[derive(Debug, Clone, Copy, Args)]
+pub struct AccuracyArgs {
+    /// Target error of every reported probability (absolute; relative accuracy 1e-6 is
+    /// kept for small figures). Looser is faster. Default 1e-11.
+    #[arg(long, value_name = "X")]
+    pub tolerance: Option<f64>,
+}
+
 /// Arguments of `concord analyze`.
 #[derive(Debug, Args)]
 pub struct AnalyzeArgs {
@@ -90,6 +99,8 @@ pub struct AnalyzeArgs {
     /// Include the whole curve over sigma of every site with unknown spread (JSON).
     #[arg(long = "with-curves")]
     pub curve: bool,
+    #[command(flatten)]
+    pub accuracy: AccuracyArgs,
 }
 
 /// Output formats of `concord selftest`.
@@ -127,6 +138,8 @@ pub struct ReportArgs {
     /// Seed of the Monte Carlo cross-check.
     #[arg(long, default_value_t = 0x0C0C_0A7D)]
     pub seed: u64,
+    #[command(flatten)]
+    pub accuracy: AccuracyArgs,
 }
 
 /// Arguments of `concord demo`.
@@ -195,6 +208,8 @@ pub struct SweepArgs {
     /// site without series, the first site with series).
     #[arg(long, value_name = "SITE", requires = "vary")]
     pub site: Option<String>,
+    #[command(flatten)]
+    pub accuracy: AccuracyArgs,
 }
 
 /// Coverage figures a target or a column is set on.
@@ -247,6 +262,8 @@ pub struct TuneArgs {
     /// Draw the trade-off curve as an SVG picture in FILE.
     #[arg(long, value_name = "FILE")]
     pub plot: Option<PathBuf>,
+    #[command(flatten)]
+    pub accuracy: AccuracyArgs,
 }
 
 /// Columns `concord compare` can sort by.
@@ -285,4 +302,30 @@ pub struct CompareArgs {
     /// Output format.
     #[arg(long, value_enum, default_value = "table")]
     pub format: Format,
+    #[command(flatten)]
+    pub accuracy: AccuracyArgs,
+}
+
+impl AccuracyArgs {
+    /// The analysis options with the asked tolerance (the defaults without one).
+    ///
+    /// # Errors
+    /// A tolerance that is not a number between 0 and 0.01 (exclusive of 0).
+    pub fn options(&self) -> Result<crate::analysis::AnalysisOptions, super::CliError> {
+        let mut options = crate::analysis::AnalysisOptions::default();
+        if let Some(x) = self.tolerance {
+            if !(x > 0.0 && x <= 0.01) {
+                return Err(super::CliError::Value {
+                    flag: "--tolerance".into(),
+                    message: format!(
+                        "{x} is not a usable target error; give a number above 0 and at most \
+                         0.01, e.g. 1e-9 (the default is 1e-11)"
+                    ),
+                });
+            }
+            options.polytope_abs = x;
+            options.amplitude_abs = x;
+        }
+        Ok(options)
+    }
 }

@@ -1,6 +1,5 @@
 //! `concord compare FILE... [--sort COLUMN] [--figure dc|dc-all-dangerous]`.
 
-use crate::analysis::AnalysisOptions;
 use crate::analysis::compare::{ArchitectureSummary, summarise};
 use crate::report::compare::{csv, json, table};
 
@@ -9,7 +8,7 @@ use super::{CliError, load};
 
 /// Analyses every file (in the order given) and renders them side by side.
 pub fn run(args: &CompareArgs) -> Result<String, CliError> {
-    let options = AnalysisOptions::default();
+    let options = args.accuracy.options()?;
     let mut rows = Vec::with_capacity(args.files.len());
     for path in &args.files {
         let arch = load(path)?;

@@ -18,7 +18,7 @@ use crate::analysis::tune::{CoverageFigure, TuneRequest, TuneResult, tune};
 use crate::report::format::probability;
 use crate::report::tune::{curve_csv, summary, trade_off_svg};
 
-use super::args::{AnalyzeArgs, CompareArgs, CoverageArg, Format, Method};
+use super::args::{AccuracyArgs, AnalyzeArgs, CompareArgs, CoverageArg, Format, Method};
 use super::{CliError, analyze, compare, load, report, write_output};
 
 /// The scenario's architecture files, bundled into the binary: (file name, text).
@@ -149,6 +149,7 @@ pub fn run(args: &super::args::DemoArgs) -> Result<String, CliError> {
             ),
         ] {
             let text = analyze::run(&AnalyzeArgs {
+                accuracy: AccuracyArgs { tolerance: None },
                 file: file.clone(),
                 format,
                 method: Method::Exact,
@@ -169,6 +170,7 @@ pub fn run(args: &super::args::DemoArgs) -> Result<String, CliError> {
 
     // 2. Compare the candidates side by side.
     let compared = compare::run(&CompareArgs {
+        accuracy: AccuracyArgs { tolerance: None },
         files: files.clone(),
         figure: CoverageArg::DcAllDangerous,
         sort: None,
@@ -216,8 +218,13 @@ pub fn run(args: &super::args::DemoArgs) -> Result<String, CliError> {
     // 4. One report per candidate, for the safety case.
     let mut reports = Vec::new();
     for (file, (name, _)) in files.iter().zip(FILES) {
-        let (html, written) =
-            report::build(file, args.date.as_deref(), REPORT_SAMPLES, REPORT_SEED)?;
+        let (html, written) = report::build(
+            file,
+            args.date.as_deref(),
+            REPORT_SAMPLES,
+            REPORT_SEED,
+            &AnalysisOptions::default(),
+        )?;
         let out = format!("report-{}.html", stem(name));
         write(
             dir,

@@ -32,12 +32,12 @@ pub fn build(
     date: Option<&str>,
     samples: u64,
     seed: u64,
+    options: &AnalysisOptions,
 ) -> Result<(String, Written), CliError> {
     let epoch = std::env::var("SOURCE_DATE_EPOCH").ok();
     let date = report_date(date, epoch.as_deref())?;
     let arch = load(file)?;
-    let options = AnalysisOptions::default();
-    let analysis = analyze(&arch.model, &options, true)?;
+    let analysis = analyze(&arch.model, options, true)?;
     let sampling = MonteCarloOptions { samples, seed };
     let verification = if samples > 0 {
         Some(verify(&arch.model, &analysis, &sampling)?)
@@ -92,7 +92,13 @@ pub fn describe(path: &Path, written: &Written) -> String {
 
 /// Runs `concord report`.
 pub fn run(args: &ReportArgs) -> Result<String, CliError> {
-    let (text, written) = build(&args.file, args.date.as_deref(), args.verify, args.seed)?;
+    let (text, written) = build(
+        &args.file,
+        args.date.as_deref(),
+        args.verify,
+        args.seed,
+        &args.accuracy.options()?,
+    )?;
     write_output(&args.output, &text)?;
     let line = describe(&args.output, &written);
     if let Some((agree, all)) = written.agreement

@@ -7,7 +7,6 @@ use std::io::{self, BufWriter, Write};
 use indicatif::{ProgressBar, ProgressStyle};
 
 use crate::analysis::AnalysisError;
-use crate::analysis::AnalysisOptions;
 use crate::analysis::spread::{default_spread_range, spread_curve};
 use crate::analysis::sweep::{Axis, SweepPlan, prepare_sweep, sweep};
 use crate::report::sweep::{
@@ -107,7 +106,7 @@ fn parameter_sweep(args: &SweepArgs, vary: &str) -> Result<String, CliError> {
         ),
         None => None,
     };
-    let options = AnalysisOptions::default();
+    let options = args.accuracy.options()?;
     let outcome = sweep(&arch, &plan, &options, |row| {
         writer.row(&row).map_err(Stop::Write)?;
         if let Some(picture) = plot.as_mut() {
@@ -146,7 +145,7 @@ fn spread_sweep(args: &SweepArgs, site: &str) -> Result<String, CliError> {
         error,
     })?
     .values;
-    let options = AnalysisOptions::default();
+    let options = args.accuracy.options()?;
     let curve = spread_curve(&arch.model, site, &sigmas, &options)?;
     let text = match args.format {
         SweepFormatArg::Csv => spread_csv(&curve),

@@ -2,7 +2,6 @@
 
 use indicatif::{ProgressBar, ProgressStyle};
 
-use crate::analysis::AnalysisOptions;
 use crate::analysis::tune::{CoverageFigure, TuneRequest, tune};
 use crate::report::tune::{curve_csv, json, summary, trade_off_svg};
 
@@ -28,7 +27,7 @@ pub fn run(args: &TuneArgs) -> Result<String, CliError> {
             .unwrap_or_else(|_| ProgressStyle::default_bar()),
     );
     let tick = || progress.inc(1);
-    let outcome = tune(&arch, &request, &AnalysisOptions::default(), &tick);
+    let outcome = tune(&arch, &request, &args.accuracy.options()?, &tick);
     progress.finish_and_clear();
     let result = outcome?;
     if let Some(path) = &args.curve {

@@ -10,6 +10,7 @@ use nalgebra::DMatrix;
 
 use super::compiled::*;
 use super::error::Sink;
+use super::limits;
 use super::pieces::{Builder, OrderKind, PieceError, Pw};
 use super::resolved::*;
 use super::text::linear_formula;
@@ -142,6 +143,26 @@ fn all_pieces(
     order: &[usize],
     n: usize,
 ) -> Result<(Vec<PiecewiseLinear>, PiecewiseLinear, Vec<PiecewiseLinear>), PieceError> {
+    // k arguments give at least k! pieces: refuse before building any of them.
+    let too_many = |def: &FnDef| match def {
+        FnDef::Order(_, rs) | FnDef::Range(rs) => (1..=rs.len())
+            .try_fold(1usize, |f, k| {
+                f.checked_mul(k).filter(|p| *p <= limits::MAX_PIECES)
+            })
+            .is_none(),
+        _ => false,
+    };
+    let defs = v
+        .signals
+        .iter()
+        .map(|s| &s.def)
+        .chain([&v.output.def])
+        .chain(v.checks.iter().map(|c| &c.def));
+    for def in defs {
+        if too_many(def) {
+            return Err(PieceError::TooManyPieces);
+        }
+    }
     let channel_pw: Vec<Pw> = (0..n)
         .map(|i| b.linear(LinearForm::coordinate(n, i)))
         .collect();
@@ -172,14 +193,10 @@ fn formula(def: &FnDef, signals: &[Option<Formula>], output: Option<&Formula>) -
     let reading = |r: &Reading| -> Formula {
         match r {
             Reading::Channel(i) => Formula::Channel(*i),
-            Reading::Signal(i) => signals
-                .get(*i)
-                .cloned()
-                .flatten()
-                .unwrap_or(Formula::Sum {
-                    terms: Vec::new(),
-                    constant: f64::NAN,
-                }),
+            Reading::Signal(i) => signals.get(*i).cloned().flatten().unwrap_or(Formula::Sum {
+                terms: Vec::new(),
+                constant: f64::NAN,
+            }),
         }
     };
     let sorted = |rs: &[Reading]| {

@@ -180,7 +180,11 @@ pub fn unsupported_reason(g: &SharedGaussian, q: &Question) -> Option<String> {
 /// # Errors
 /// [`ProbError::InvalidArgument`] for an unsupported case (see [`unsupported_reason`]) or
 /// indices out of range, [`ProbError::NonFinite`] for non-finite inputs.
-pub fn figures(g: &SharedGaussian, q: &Question, accuracy: &Accuracy) -> Result<Figures, ProbError> {
+pub fn figures(
+    g: &SharedGaussian,
+    q: &Question,
+    accuracy: &Accuracy,
+) -> Result<Figures, ProbError> {
     validate(g, q)?;
     if let Some(reason) = unsupported_reason(g, q) {
         return Err(ProbError::InvalidArgument(reason));
@@ -314,7 +318,11 @@ fn validate(g: &SharedGaussian, q: &Question) -> Result<(), ProbError> {
         }
         Agreement::Differences(list) => {
             for d in list {
-                if !in_range(&d.a) || !in_range(&d.b) || d.a == d.b || d.lower.is_nan() || d.upper.is_nan()
+                if !in_range(&d.a)
+                    || !in_range(&d.b)
+                    || d.a == d.b
+                    || d.lower.is_nan()
+                    || d.upper.is_nan()
                 {
                     return Err(ProbError::InvalidArgument(format!(
                         "difference check between channels {} and {}",
@@ -348,7 +356,8 @@ struct Conditional<'a> {
 
 impl Conditional<'_> {
     fn uniform_of(&self, j: usize) -> Option<(f64, f64)> {
-        self.uniform.and_then(|(i, a, b)| (i == j).then_some((a, b)))
+        self.uniform
+            .and_then(|(i, a, b)| (i == j).then_some((a, b)))
     }
 
     /// Whether channel `j` is a point mass (no spread of its own).
@@ -462,7 +471,13 @@ fn violation_tails(cond: &Conditional, q: &Question) -> (f64, f64) {
     below[0] = 1.0;
     above[0] = 1.0;
     for &j in &q.output.of {
-        let [b, m, a] = cond.parts(j, f64::NEG_INFINITY, f64::INFINITY, q.safe_lower, q.safe_upper);
+        let [b, m, a] = cond.parts(
+            j,
+            f64::NEG_INFINITY,
+            f64::INFINITY,
+            q.safe_lower,
+            q.safe_upper,
+        );
         add_channel(&mut below, b, m + a);
         add_channel(&mut above, a, b + m);
     }

@@ -69,7 +69,7 @@ use crate::prob::strip::Strips;
 use crate::prob::tolerance;
 
 /// Largest number of coordinates of the gaussian vector.
-pub const MAX_DIM: usize = 12;
+pub const MAX_DIM: usize = 16;
 
 /// Largest number of rows of a polytope.
 pub const MAX_ROWS: usize = 64;

@@ -15,7 +15,12 @@
 //!   `asil_spfm`, `asil_lfm`, `asil_residual_budget` (each `"D"`, `"C"`, `"B"`, `"below B"`
 //!   when no target of B to D is met, or `"n/a"` when the metric is undefined, e.g. no
 //!   failure rate at all), `error`;
-//! - `verification`: the Monte Carlo cross-check or null; `warnings`; `cautions`.
+//! - `verification`: the Monte Carlo cross-check or null; `warnings`; `cautions`;
+//! - `tolerance`: the error asked of every probability, `abs` and `rel` (a figure meets it
+//!   when its bound is below `max(abs, rel * value)`; the bound is reported either way);
+//! - `baseline.figure_method` and each site's `figure_method`: which method computed the
+//!   figures: `order_statistics` (counts of channels independent given a shared term),
+//!   `polytopes` (the general engine) or `monte_carlo`.
 //!
 //! Fields may be added in later versions; none is dropped, and none is renamed except as
 //! listed here.
@@ -28,6 +33,7 @@
 use serde::{Deserialize, Serialize};
 
 use crate::analysis::Outcome;
+use crate::analysis::engine::FigureMethod;
 use crate::analysis::site::SiteResult;
 
 use super::cautions::CAUTIONS;
@@ -58,6 +64,16 @@ pub struct BaselineJson {
     pub false_alarm: f64,
     /// `p_vd + p_vu`: the output leaves its band without a fault.
     pub fault_free_violation: f64,
+    /// Which method computed these figures.
+    #[serde(default)]
+    pub figure_method: String,
+}
+
+/// The error asked of every probability.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize, Default)]
+pub struct ToleranceJson {
+    pub abs: f64,
+    pub rel: f64,
 }
 
 /// One local maximum of the residual over sigma.
@@ -103,6 +119,9 @@ pub struct SiteJson {
     #[serde(skip_serializing_if = "Option::is_none", default)]
     pub curve: Option<Vec<CurvePointJson>>,
     pub warnings: Vec<String>,
+    /// Which method computed the figures of the site.
+    #[serde(default)]
+    pub figure_method: String,
 }
 
 /// Error bounds of the metrics.
@@ -159,6 +178,8 @@ pub struct AnalysisJson {
     pub verification: Option<Vec<AgreementJson>>,
     pub warnings: Vec<String>,
     pub cautions: Vec<String>,
+    #[serde(default)]
+    pub tolerance: ToleranceJson,
 }
 
 fn bounds(o: &Outcome) -> Bounds {
@@ -220,6 +241,16 @@ fn site_json(s: &SiteResult) -> SiteJson {
                 .collect()
         }),
         warnings: s.warnings.clone(),
+        figure_method: method_key(s.method).to_string(),
+    }
+}
+
+/// The JSON word of a figure method.
+pub fn method_key(m: FigureMethod) -> &'static str {
+    match m {
+        FigureMethod::OrderStatistics => "order_statistics",
+        FigureMethod::Polytopes => "polytopes",
+        FigureMethod::MonteCarlo => "monte_carlo",
     }
 }
 
@@ -246,6 +277,7 @@ pub fn document(input: &ReportInput<'_>) -> AnalysisJson {
             error: bounds(b),
             false_alarm: b.alarm().value,
             fault_free_violation: b.violation().value,
+            figure_method: method_key(a.baseline_method).to_string(),
         },
         sites: a.sites.iter().map(site_json).collect(),
         metrics: MetricsJson {
@@ -283,6 +315,10 @@ pub fn document(input: &ReportInput<'_>) -> AnalysisJson {
         }),
         warnings,
         cautions: CAUTIONS.iter().map(|c| c.to_string()).collect(),
+        tolerance: ToleranceJson {
+            abs: a.options.polytope_abs,
+            rel: a.options.polytope_rel,
+        },
     }
 }
 

@@ -2,6 +2,7 @@
 
 use std::fmt::Write as _;
 
+use crate::analysis::engine::FigureMethod;
 use crate::analysis::metrics::{LFM_TARGETS, SPFM_TARGETS};
 
 use super::cautions::CAUTIONS;
@@ -29,6 +30,24 @@ pub fn render(input: &ReportInput<'_>) -> String {
         number(model.safety_upper),
         input.method
     );
+    let ordered = a
+        .sites
+        .iter()
+        .filter(|s| s.method == FigureMethod::OrderStatistics)
+        .count();
+    if ordered > 0 || a.baseline_method == FigureMethod::OrderStatistics {
+        let _ = writeln!(
+            out,
+            "figures by order statistics given a shared term: baseline {}, {ordered} of {} sites \
+             (the rest by polytopes)",
+            if a.baseline_method == FigureMethod::OrderStatistics {
+                "yes"
+            } else {
+                "no"
+            },
+            a.sites.len()
+        );
+    }
     let _ = writeln!(out);
     let b = &a.baseline;
     let _ = writeln!(out, "Fault-free baseline");
