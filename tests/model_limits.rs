@@ -3,7 +3,7 @@
 //! decomposition, `AnalysisOptions::max_polytopes` and `analysis::cells::MAX_CELLS`.
 //! (The limit on sweep points belongs to `concord sweep`.)
 
-use concord::analysis::{AnalysisError, AnalysisOptions, analyze};
+use concord::analysis::{AnalysisOptions, analyze};
 use concord::model::{limits, load_str};
 
 fn channels(n: usize) -> String {
@@ -72,22 +72,54 @@ fn too_many_checks_names_the_limit() {
 
 #[test]
 fn too_many_pieces_names_the_limit() {
-    // The median of eight channels has 8! = 40320 orderings, more than MAX_PIECES = 5040.
+    // The median of eight channels has 8! = 40320 orderings, more than MAX_PIECES = 5040:
+    // the file loads (the order-statistic engine needs no pieces), but with two-of-two
+    // detection that engine does not fit either, and the analysis must say both.
+    let checks = "[checks.ab]\nkind = \"difference\"\nof = [\"c0\", \"c1\"]\nlimit = 1.0\n\n\
+                  [checks.cd]\nkind = \"difference\"\nof = [\"c2\", \"c3\"]\nlimit = 1.0\n\n\
+                  [detection]\nfires = { at_least = 2 }\n";
     let text = file(
         8,
         &format!("kind = \"median\"\nof = [{}]", names(8)),
-        "[checks.k]\nkind = \"difference\"\nof = [\"c0\", \"c1\"]\nlimit = 1.0\n",
+        checks,
     );
-    let e = first_error(&text);
+    let arch = load_str(&text, "limits.toml").expect("a median of eight loads");
+    assert!(!arch.model.pieces_complete);
+    let e = analyze(&arch.model, &AnalysisOptions::default(), false)
+        .expect_err("neither engine fits")
+        .to_string();
     assert!(e.contains(&limits::MAX_PIECES.to_string()), "{e}");
+    assert!(e.contains("order-statistic engine"), "{e}");
+}
+
+#[test]
+fn too_many_order_arguments_names_the_limit() {
+    // 16 channels and one derived signal: a median of 17 readings passes MAX_ORDER_ARGS.
+    let n = limits::MAX_CHANNELS;
+    let mut text = file(
+        n,
+        &format!("kind = \"median\"\nof = [{}, \"s\"]", names(n)),
+        "",
+    );
+    text.push_str("\n[signals.s]\nkind = \"linear\"\nof = { c0 = 0.5, c1 = 0.5 }\n");
+    let e = first_error(&text);
+    assert!(
+        e.contains(&format!(
+            "more than the limit of {}",
+            limits::MAX_ORDER_ARGS
+        )),
+        "{e}"
+    );
 }
 
 #[test]
 fn too_many_polytopes_names_the_limit() {
-    // The median of three with three difference checks decomposes into more than ten
-    // polytopes per figure: with max_polytopes = 10 the analysis must refuse and say so.
+    // The median of three with two difference checks and two-of-two detection decomposes
+    // into more than ten polytopes per figure, and the order-statistic engine does not
+    // take k-of-n detection: with max_polytopes = 10 the analysis must refuse and say so.
     let checks = "[checks.ab]\nkind = \"difference\"\nof = [\"c0\", \"c1\"]\nlimit = 1.0\n\n\
-                  [checks.bc]\nkind = \"difference\"\nof = [\"c1\", \"c2\"]\nlimit = 1.0\n";
+                  [checks.bc]\nkind = \"difference\"\nof = [\"c1\", \"c2\"]\nlimit = 1.0\n\n\
+                  [detection]\nfires = { at_least = 2 }\n";
     let text = file(
         3,
         &format!("kind = \"median\"\nof = [{}]", names(3)),
@@ -99,10 +131,10 @@ fn too_many_polytopes_names_the_limit() {
         ..AnalysisOptions::default()
     };
     match analyze(&arch.model, &options, false) {
-        Err(e @ AnalysisError::TooLarge { limit: 10, .. }) => {
+        Err(e) => {
             assert!(e.to_string().contains("more than the limit of 10"), "{e}");
         }
-        other => panic!("expected TooLarge, got {other:?}"),
+        other => panic!("expected a refusal, got {other:?}"),
     }
     // with the default limit it runs
     assert!(analyze(&arch.model, &AnalysisOptions::default(), false).is_ok());

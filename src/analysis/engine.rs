@@ -82,6 +82,9 @@ pub struct Engine<'m> {
     order: Option<(Question, SharedTerms)>,
     /// Why the order-statistic engine does not fit the model (None when it does).
     pub order_unfit: Option<String>,
+    /// Whether scenarios that fit go to the order-statistic engine even while the polytopes
+    /// can be built (from four channels on, or when asked).
+    prefer_order: bool,
     polytopes: OnceLock<Result<Prepared, AnalysisError>>,
 }
 
@@ -89,21 +92,15 @@ impl<'m> Engine<'m> {
     /// Prepares the engines of `model` (the polytopes wait until a scenario needs them).
     pub fn new(model: &'m CompiledModel, options: &AnalysisOptions) -> Self {
         let small = model.channels.len() <= POLYTOPES_UP_TO && model.pieces_complete;
-        let wanted = match options.engine {
-            EngineChoice::Automatic => !small,
-            EngineChoice::OrderStatistics => true,
-            EngineChoice::Polytopes => false,
+        let (prefer_order, allowed) = match options.engine {
+            EngineChoice::Automatic => (!small, true),
+            EngineChoice::OrderStatistics => (true, true),
+            EngineChoice::Polytopes => (false, false),
         };
-        let order = if wanted {
+        let order = if allowed {
             question(model).and_then(|q| SharedTerms::baseline(model).map(|t| (q, t)))
         } else {
-            Err(match options.engine {
-                EngineChoice::Polytopes => "switched off in the analysis options".into(),
-                _ => format!(
-                    "{} channels: the polytope engine is used up to {POLYTOPES_UP_TO}",
-                    model.channels.len()
-                ),
-            })
+            Err("switched off in the analysis options".into())
         };
         let (order, order_unfit) = match order {
             Ok(o) => (Some(o), None),
@@ -114,10 +111,10 @@ impl<'m> Engine<'m> {
             options: *options,
             order,
             order_unfit,
+            prefer_order,
             polytopes: OnceLock::new(),
         }
     }
-
     /// The polytope evaluator, built on first call.
     ///
     /// # Errors
@@ -148,6 +145,10 @@ impl<'m> Engine<'m> {
     /// The order-statistic form of a scenario, when it fits.
     fn shared(&self, scenario: Scenario<'_>) -> Option<(&Question, SharedGaussian)> {
         let (q, terms) = self.order.as_ref()?;
+        // Small models use the polytopes unless these cannot be built (past a limit).
+        if !self.prefer_order && self.polytopes().is_ok() {
+            return None;
+        }
         let g = match scenario {
             Scenario::Baseline => terms.tidied(),
             Scenario::At(s, f) => s.shared.as_ref()?.at_amplitude(f),
