@@ -156,7 +156,7 @@ fn order_engine_matches_the_polytope_engine_on_shared_structures() {
 /// `n` independent identical channels N(0, 1) (no shared source) whose output is the
 /// median; no checks.
 fn iid_median(n: usize, upper: f64) -> String {
-    let mut s = format!("name = \"iid\"\nunit = \"V\"\nfull_scale = [-10.0, 10.0]\n\n");
+    let mut s = "name = \"iid\"\nunit = \"V\"\nfull_scale = [-10.0, 10.0]\n\n".to_string();
     let names: Vec<String> = (0..n).map(|i| format!("c{i}")).collect();
     for name in &names {
         s.push_str(&format!("[channels.{name}]\nsigma = 1.0\n\n"));
@@ -261,8 +261,8 @@ fn mean_range_of_normal_samples_matches_the_control_chart_constant_d2() {
         (0.0, 0.568_888_888_888_888_9),
         (0.538_469_310_105_683_1, 0.478_628_670_499_366_5),
         (-0.538_469_310_105_683_1, 0.478_628_670_499_366_5),
-        (0.906_179_845_938_664_0, 0.236_926_885_056_189_1),
-        (-0.906_179_845_938_664_0, 0.236_926_885_056_189_1),
+        (0.906_179_845_938_664, 0.236_926_885_056_189_1),
+        (-0.906_179_845_938_664, 0.236_926_885_056_189_1),
     ];
     for (n, d2, allowed) in table {
         let mut mean = 0.0;

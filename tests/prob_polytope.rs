@@ -656,7 +656,7 @@ fn bad_input_is_reported() {
         Err(ProbError::DimensionMismatch { .. })
     ));
     assert!(matches!(
-        Gaussian::new(&[0.0; 13], &DMatrix::identity(13, 13)),
+        Gaussian::new(&[0.0; 17], &DMatrix::identity(17, 17)),
         Err(ProbError::TooLarge { .. })
     ));
     let asym = DMatrix::from_row_slice(2, 2, &[1.0, 0.5, 0.4, 1.0]);

@@ -421,7 +421,7 @@ impl Conditional<'_> {
             return (hi > lo).then_some((lo, hi));
         }
         let (m, s) = (self.mean[j], self.sd[j]);
-        (s > 0.0).then(|| (m - WINDOW_SIGMAS * s, m + WINDOW_SIGMAS * s))
+        (s > 0.0).then_some((m - WINDOW_SIGMAS * s, m + WINDOW_SIGMAS * s))
     }
 }
 
@@ -490,6 +490,29 @@ struct Pivot {
     candidates: Vec<usize>,
     /// `(channel, alpha, beta)` for every constrained channel (candidates included).
     intervals: Vec<(usize, f64, f64)>,
+    /// The same by channel: `(alpha, beta)` or `None` for an unconstrained channel.
+    interval_of: Vec<Option<(f64, f64)>>,
+    /// Whether each channel can be the pivot.
+    is_candidate: Vec<bool>,
+}
+
+impl Pivot {
+    fn new(n: usize, candidates: Vec<usize>, intervals: Vec<(usize, f64, f64)>) -> Pivot {
+        let mut interval_of = vec![None; n];
+        for &(j, alpha, beta) in &intervals {
+            interval_of[j] = Some((alpha, beta));
+        }
+        let mut is_candidate = vec![false; n];
+        for &j in &candidates {
+            is_candidate[j] = true;
+        }
+        Pivot {
+            candidates,
+            intervals,
+            interval_of,
+            is_candidate,
+        }
+    }
 }
 
 impl Pivot {
@@ -500,10 +523,8 @@ impl Pivot {
                 let mut members = of.clone();
                 members.sort_unstable();
                 members.dedup();
-                Some(Pivot {
-                    intervals: members.iter().map(|&j| (j, 0.0, *limit)).collect(),
-                    candidates: members,
-                })
+                let intervals = members.iter().map(|&j| (j, 0.0, *limit)).collect();
+                Some(Pivot::new(cond.mean.len(), members, intervals))
             }
             Agreement::Differences(list) => {
                 let common = q.agreement.common_channels();
@@ -530,10 +551,7 @@ impl Pivot {
                 }
                 intervals.push((centre, f64::NEG_INFINITY, f64::INFINITY));
                 intervals.sort_by_key(|e| e.0);
-                Some(Pivot {
-                    candidates: vec![centre],
-                    intervals,
-                })
+                Some(Pivot::new(cond.mean.len(), vec![centre], intervals))
             }
         }
     }
@@ -553,24 +571,28 @@ fn pivot_term(
 ) -> [f64; 3] {
     let (need_lo, need_hi) = output_needs(q);
     let sizes = [need_lo + 1, need_hi + 1, 1];
-    let mut free: [Vec<f64>; 3] = sizes.map(|n| vec![0.0; n]);
-    let mut placed: [Vec<f64>; 3] = sizes.map(|n| vec![0.0; n]);
-    for f in &mut free {
+    // One buffer for the six polynomials: free and placed of each programme.
+    let total: usize = sizes.iter().sum();
+    let mut buffer = vec![0.0; 2 * total];
+    let (free_all, placed_all) = buffer.split_at_mut(total);
+    let (free_lo, rest) = free_all.split_at_mut(sizes[0]);
+    let (free_hi, free_pass) = rest.split_at_mut(sizes[1]);
+    let (placed_lo, rest) = placed_all.split_at_mut(sizes[0]);
+    let (placed_hi, placed_pass) = rest.split_at_mut(sizes[1]);
+    let mut free = [free_lo, free_hi, free_pass];
+    let placed = [placed_lo, placed_hi, placed_pass];
+    for f in free.iter_mut() {
         f[0] = 1.0;
     }
-    let mut scratch: [Vec<f64>; 3] = sizes.map(|n| vec![0.0; n]);
-    let n = cond.mean.len();
     let (lo, hi) = (q.safe_lower, q.safe_upper);
-    let mut interval: Vec<Option<(f64, f64)>> = vec![None; n];
-    for &(j, alpha, beta) in &pivot.intervals {
-        interval[j] = Some((u + alpha, u + beta));
-    }
-    for j in 0..n {
-        let counted = in_output[j];
-        if interval[j].is_none() && !counted {
+    for (j, &counted) in in_output.iter().enumerate().take(cond.mean.len()) {
+        let interval = pivot.interval_of[j];
+        if interval.is_none() && !counted {
             continue;
         }
-        let (a, b) = interval[j].unwrap_or((f64::NEG_INFINITY, f64::INFINITY));
+        let (a, b) = interval.map_or((f64::NEG_INFINITY, f64::INFINITY), |(alpha, beta)| {
+            (u + alpha, u + beta)
+        });
         let [pb, pm, pa] = cond.parts(j, a, b, lo, hi);
         // (counted, not counted) for the three programmes.
         let split = if counted {
@@ -579,7 +601,7 @@ fn pivot_term(
             let all = pb + pm + pa;
             [(0.0, all), (0.0, all), (0.0, all)]
         };
-        let w = if pivot.candidates.contains(&j) {
+        let w = if pivot.is_candidate[j] {
             weight(j)
         } else {
             0.0
@@ -587,14 +609,13 @@ fn pivot_term(
         let pivot_counted = [counted && u < lo, counted && u > hi, false];
         for k in 0..3 {
             let (yes, no) = split[k];
+            add_channel(placed[k], yes, no);
             if w != 0.0 {
-                scratch[k].copy_from_slice(&free[k]);
-                add_channel(&mut placed[k], yes, no);
-                add_shifted(&mut placed[k], &scratch[k], w, pivot_counted[k]);
-            } else {
-                add_channel(&mut placed[k], yes, no);
+                // The pivot placed here: from the programme before this channel (free is
+                // updated only below).
+                add_shifted(placed[k], free[k], w, pivot_counted[k]);
             }
-            add_channel(&mut free[k], yes, no);
+            add_channel(free[k], yes, no);
         }
     }
     [placed[0][need_lo], placed[1][need_hi], placed[2][0]]
