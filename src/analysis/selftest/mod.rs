@@ -208,13 +208,14 @@ pub type Group = fn(&ReferenceData) -> Vec<Case>;
 pub fn run() -> Result<SelfTest, AnalysisError> {
     let data = reference_data()?;
     // Groups run in parallel; each is deterministic and the order of the result is fixed.
-    let jobs: [Group; 8] = [
+    let jobs: [Group; 9] = [
         engine::normal_cases,
         engine::bivariate_cases,
         engine::sheppard_cases,
         engine::polytope_cases,
         engine::quadrature_cases,
         whole::closed_form_cases,
+        whole::order_statistic_cases,
         whole::reference_table_cases,
         whole::monte_carlo_cases,
     ];

@@ -203,6 +203,67 @@ pub fn closed_form_cases(_data: &ReferenceData) -> Vec<Case> {
     cases
 }
 
+const ORDER: &str = "whole analysis, order statistics";
+
+/// Independent identical channels voted by median in the order-statistic group.
+const ORDER_CHANNELS: [usize; 2] = [5, 9];
+/// Safety limits of the order-statistic group (upper; the lower end is far away).
+const ORDER_LIMITS: [f64; 2] = [0.5, 1.5];
+
+/// `n` independent N(0, 1) channels, the output their median, no checks, safety band
+/// `(-1e6, upper]`.
+fn iid_median_file(n: usize, upper: f64) -> String {
+    let mut s = String::from("name = \"iid median\"\nunit = \"V\"\n\n");
+    for i in 0..n {
+        s.push_str(&format!("[channels.c{i}]\nsigma = 1.0\n\n"));
+    }
+    let names: Vec<String> = (0..n).map(|i| format!("\"c{i}\"")).collect();
+    s.push_str(&format!(
+        "[output]\nkind = \"median\"\nof = [{}]\n\n[safety]\nlower = -1e6\nupper = {upper}\n",
+        names.join(", ")
+    ));
+    s
+}
+
+/// The median of `n = 2m + 1` independent N(0, 1) readings exceeds `t` exactly when at least
+/// `m + 1` do: `sum_{j > m} C(n, j) q^j (1 - q)^(n - j)` with `q = 1 - Phi(t)` (common
+/// practice; Phi by libm's erfc). With no checks the residual `p_vu` is that sum; the
+/// order-statistic engine must compute it (five and nine channels go to it by default).
+pub fn order_statistic_cases(_data: &ReferenceData) -> Vec<Case> {
+    let mut cases = Vec::new();
+    for n in ORDER_CHANNELS {
+        for t in ORDER_LIMITS {
+            let q = 1.0 - phi(t);
+            let m = (n - 1) / 2;
+            let mut reference = 0.0;
+            for j in m + 1..=n {
+                let mut c = 1.0;
+                for i in 0..j {
+                    c = c * (n - i) as f64 / (i + 1) as f64;
+                }
+                reference += c * q.powi(j as i32) * (1.0 - q).powi((n - j) as i32);
+            }
+            let computed = run_file(&iid_median_file(n, t), "iid-median.toml").and_then(|a| {
+                if a.baseline_method == crate::analysis::engine::FigureMethod::OrderStatistics {
+                    Ok((a.baseline.p_vu.value, a.baseline.p_vu.error))
+                } else {
+                    Err("the order-statistic engine was not chosen".to_string())
+                }
+            });
+            cases.push(Case::new(
+                ORDER,
+                format!("median of {n} > {t} / p_vu"),
+                "binomial sum over independent channels (common practice); Phi by libm erfc",
+                computed,
+                reference,
+                CLOSED_FORM_ABS + CLOSED_FORM_REL * reference.abs() * n as f64,
+                Measure::Absolute,
+            ));
+        }
+    }
+    cases
+}
+
 /// An invented two-channel architecture whose sites exercise the unknown-sigma search and
 /// the uniform amplitude integral, for the Monte Carlo comparison.
 const MONTE_CARLO_FILE: &str = r#"
