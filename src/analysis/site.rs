@@ -2,6 +2,8 @@
 //! sites" and the worst case over an unknown spread (its range: the same file, "The default
 //! range of an unknown sigma"; its search: DEVELOPERS.md "How a figure is computed", step 3).
 
+use rayon::prelude::*;
+
 use crate::model::{Amplitude, CompiledFault, FaultMode};
 use crate::prob::Estimate;
 use crate::prob::optimise::{Stage, log_grid, scan_then_refine_staged};
@@ -604,10 +606,27 @@ fn worst_case(
             Stage::Refine => engine.residual(at, options.polytope_rel),
         }
     };
+    // The grid points do not depend on one another: they are computed in parallel first
+    // (each exactly as the scan would, so the result does not depend on the thread count),
+    // and the scan reads them back.
+    let precomputed: Vec<Result<Estimate, AnalysisError>> = grid
+        .par_iter()
+        .map(|&sigma| residual_at(sigma, Stage::Scan))
+        .collect();
     let mut scan_values = Vec::with_capacity(grid.len());
     let scan = scan_then_refine_staged(
         |sigma, stage| {
-            let r = residual_at(sigma, stage).map_err(engine_of)?;
+            let cached = match stage {
+                Stage::Scan => grid
+                    .iter()
+                    .position(|g| *g == sigma)
+                    .and_then(|i| precomputed.get(i)),
+                Stage::Refine => None,
+            };
+            let r = match cached {
+                Some(found) => found.clone().map_err(engine_of)?,
+                None => residual_at(sigma, stage).map_err(engine_of)?,
+            };
             scan_values.push((sigma, r));
             Ok(-r.value)
         },
