@@ -313,8 +313,12 @@ impl SharedFault {
     /// reads `gain * F`, itself uniform, so no integral over the amplitude is needed.
     pub fn with_uniform(&self, lower: f64, upper: f64) -> Option<SharedGaussian> {
         let (channel, gain) = self.replaced?;
-        let mut g = self.base.tidied();
         let (a, b) = (gain * lower, gain * upper);
+        if !(a - b).is_normal() {
+            // A range of one value (or none): the amplitude is a point, not a spread.
+            return None;
+        }
+        let mut g = self.base.tidied();
         g.uniform = Some((channel, a.min(b), a.max(b)));
         Some(g)
     }
