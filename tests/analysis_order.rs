@@ -316,3 +316,84 @@ fn order_engine_agrees_with_sampling_up_to_sixteen_channels() {
         }
     }
 }
+
+/// A longer hunt, run by hand: random three- and four-channel chains (output, range or star
+/// checks, thresholds, safety limit drawn at random), the order-statistic engine against the
+/// polytope engine at a tolerance 1e4 times tighter, every figure within the sum of both
+/// bounds. `CONCORD_FUZZ_CASES` sets the count (default 40), `CONCORD_FUZZ_SEED` the stream.
+/// Run: `cargo test --release --test analysis_order hunt -- --ignored --nocapture`.
+#[test]
+#[ignore]
+fn hunt_against_the_polytope_engine() {
+    use concord::prob::rng::SplitMix64;
+    let cases: usize = std::env::var("CONCORD_FUZZ_CASES")
+        .ok()
+        .and_then(|v| v.parse().ok())
+        .unwrap_or(40);
+    let seed: u64 = std::env::var("CONCORD_FUZZ_SEED")
+        .ok()
+        .and_then(|v| v.parse().ok())
+        .unwrap_or(77);
+    let mut rng = SplitMix64::new(seed);
+    let mut u = || rng.next_f64();
+    let mut worst = 0.0f64;
+    for case in 0..cases {
+        let n = 3 + (u() * 2.0) as usize;
+        let mut output = ["min", "max", "median"][(u() * 3.0) as usize];
+        if n.is_multiple_of(2) && output == "median" {
+            output = "max";
+        }
+        let star = u() < 0.5;
+        let t = 0.5 + 2.5 * u();
+        let checks = if star {
+            format!(
+                "[checks.d1]\nkind = \"difference\"\nof = [\"c0\", \"c1\"]\nlimit = {t}\n\n\
+                 [checks.d2]\nkind = \"difference\"\nof = [\"c2\", \"c0\"]\nlower = {}\nupper = {}\n",
+                -t * (0.5 + u()),
+                t * (0.5 + u())
+            )
+        } else {
+            format!("[checks.all]\nkind = \"range\"\nof = [ALL]\nupper = {t}\n")
+        };
+        let limit = 0.5 + 2.0 * u();
+        let text = chain(n, output, &checks, None).replace(
+            "limit = 1.2\n\n[faults",
+            &format!("limit = {limit}\n\n[faults"),
+        );
+        let fast = run(&text, true);
+        let arch = load_str(&text, "hunt.toml").expect("valid file");
+        let tight = AnalysisOptions {
+            engine: EngineChoice::Polytopes,
+            polytope_abs: 1e-15,
+            polytope_rel: 1e-8,
+            ..AnalysisOptions::default()
+        };
+        let general = analyze(&arch.model, &tight, false).expect("analysis");
+        let pairs = std::iter::once((&fast.baseline, &general.baseline)).chain(
+            fast.sites
+                .iter()
+                .map(|s| &s.outcome)
+                .zip(general.sites.iter().map(|s| &s.outcome)),
+        );
+        for (a, b) in pairs {
+            for (x, y) in [
+                (a.p_vd, b.p_vd),
+                (a.p_vu, b.p_vu),
+                (a.p_sd, b.p_sd),
+                (a.p_sq, b.p_sq),
+            ] {
+                let ratio = (x.value - y.value).abs() / (x.error + y.error + 1e-14);
+                worst = worst.max(ratio);
+                assert!(
+                    ratio <= 1.0,
+                    "case {case}, {n} channels, {output}, star {star}: {:e} +- {:e} vs {:e} +- {:e}",
+                    x.value,
+                    x.error,
+                    y.value,
+                    y.error
+                );
+            }
+        }
+    }
+    println!("{cases} cases, largest difference / bounds {worst}");
+}
