@@ -49,6 +49,16 @@
 //!    the error ([`lattice::Run::with_bound`]), and the lattice goes on while it misses the
 //!    target.
 //!
+//! Files, in the order of the steps: this file holds the types ([`Gaussian`], [`Polytope`],
+//! [`Band`], [`Tolerance`], [`Options`], [`Method`], [`PolytopeProbability`]), the input
+//! checks, step 1 and the entry points with the dispatch between the paths of step 4;
+//! `reduction.rs` steps 2 and 3 (unit rows, their merging and their error terms);
+//! `screening.rs` the bounds that answer or bound a polytope before integration (the pair
+//! law of two unit rows and the depth bound of step 6); `plan.rs` the conditioning plan of
+//! step 4 (Householder triangularisation, pivoting, the lattice integrand and the exact
+//! pair tail of step 5); `nested.rs` the nested rule of step 5 with its switches;
+//! `vertices.rs` the vertex projections that give the nested rule its breakpoints.
+//!
 //! Every factor of the sequential conditioning is a normal interval from
 //! [`normal::interval`], which takes the tail that does not cancel, and the conditioning
 //! variables are drawn from the tail they lie in, so tiny probabilities keep their relative
