@@ -7,7 +7,7 @@
 //! finite union of disjoint polytopes. DEVELOPERS.md "How a figure is computed" describes the
 //! approach.
 
-use crate::model::{CompiledModel, Detection, Guard, LinearForm};
+use crate::model::{CompiledModel, Detection, Formula, Guard, LinearForm};
 
 use super::error::AnalysisError;
 
@@ -52,7 +52,7 @@ impl CellSet {
                     .into(),
                 unit: "pieces",
                 limit: crate::model::limits::MAX_PIECES,
-                found: crate::model::limits::MAX_PIECES + 1,
+                found: largest_ordering_count(model),
             });
         }
         let mut cells: Vec<Cell> = model
@@ -137,6 +137,34 @@ fn same_form(a: &LinearForm, b: &LinearForm) -> bool {
 
 fn negated_form(a: &LinearForm, b: &LinearForm) -> bool {
     a.constant == -b.constant && a.coeffs.iter().zip(&b.coeffs).all(|(p, q)| *p == -*q)
+}
+
+/// `k!` for the order statistic or range with the most arguments `k` among the model's
+/// functions (saturating): the orderings, each a linear piece, that multiplying it out
+/// needs at least.
+fn largest_ordering_count(model: &CompiledModel) -> usize {
+    fn most_arguments(f: &Formula) -> usize {
+        match f {
+            Formula::Channel(_) => 0,
+            Formula::Sum { terms, .. } => terms
+                .iter()
+                .map(|(_, t)| most_arguments(t))
+                .max()
+                .unwrap_or(0),
+            Formula::Order { args, .. } | Formula::Range(args) => args
+                .iter()
+                .map(most_arguments)
+                .max()
+                .unwrap_or(0)
+                .max(args.len()),
+        }
+    }
+    let k = std::iter::once(&model.output_formula)
+        .chain(model.checks.iter().map(|c| &c.formula))
+        .map(most_arguments)
+        .max()
+        .unwrap_or(0);
+    (1..=k).fold(1usize, |f, i| f.saturating_mul(i))
 }
 
 #[cfg(test)]

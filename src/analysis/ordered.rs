@@ -94,10 +94,13 @@ pub fn question(model: &CompiledModel) -> Result<Question, String> {
             }
         }
     }
-    match model.detection {
-        Detection::Any | Detection::AtLeast(1) => {}
-        Detection::AtLeast(_) if firing_checks <= 1 => {}
-        Detection::AtLeast(k) => return Err(format!("detection needs {k} firing checks")),
+    // Detection on k >= 2 firing checks is not a pass region the counts describe; without a
+    // check that can fire, nothing is ever detected whatever k is (`Agreement::Always`).
+    if let Detection::AtLeast(k) = model.detection
+        && k > 1
+        && firing_checks > 0
+    {
+        return Err(format!("detection needs {k} firing checks"));
     }
     let agreement = match (range, differences.is_empty()) {
         (None, true) => Agreement::Always,
@@ -107,12 +110,6 @@ pub fn question(model: &CompiledModel) -> Result<Question, String> {
     };
     if matches!(agreement, Agreement::Differences(_)) && agreement.common_channels().is_empty() {
         return Err("difference checks that do not all share one channel".into());
-    }
-    if let Detection::AtLeast(k) = model.detection
-        && k > firing_checks
-        && firing_checks > 0
-    {
-        return Err(format!("detection needs {k} firing checks"));
     }
     Ok(Question {
         output,
