@@ -16,10 +16,7 @@ fn median_question(n: usize) -> (SharedGaussian, Question) {
         uniform: None,
     };
     let q = Question {
-        output: Rank {
-            of: (0..n).collect(),
-            k: n.div_ceil(2),
-        },
+        output: Rank::median((0..n).collect()),
         safe_lower: -1.5,
         safe_upper: 1.5,
         agreement: Agreement::Range {

@@ -28,18 +28,14 @@ pub fn question(model: &CompiledModel) -> Result<Question, String> {
             let of = Formula::bare_channels(args)
                 .ok_or("the output is an order statistic of derived signals")?;
             let n = of.len();
-            let k = match stat {
-                OrderStat::Min => 1,
-                OrderStat::Max => n,
-                OrderStat::Median if n % 2 == 1 => n.div_ceil(2),
-                OrderStat::Median => {
-                    return Err("the output is the median of an even count (a mean of two)".into());
-                }
-            };
-            Rank { of, k }
+            match stat {
+                OrderStat::Min => Rank::single(of, 1),
+                OrderStat::Max => Rank::single(of, n),
+                OrderStat::Median => Rank::median(of),
+            }
         }
         other => match other.as_channel() {
-            Some(i) => Rank { of: vec![i], k: 1 },
+            Some(i) => Rank::single(vec![i], 1),
             None => return Err("the output is not an order statistic of channels".into()),
         },
     };

@@ -40,6 +40,8 @@ use super::normal;
 use super::tolerance::ROUNDING_REL;
 use super::vector_quadrature::{VectorPoint, VectorTolerance, integrate};
 
+mod paired;
+
 /// Most shared terms integrated over (the dimension of the outer integral). Two nested
 /// adaptive rules were measured at 20 to 70 s per scenario on three channels (each inner
 /// rule's error bound is an integrand error of the outer one, which bisection cannot
@@ -68,13 +70,38 @@ pub struct SharedGaussian {
     pub uniform: Option<(usize, f64, f64)>,
 }
 
-/// The output: the `k`-th smallest (1-based) of the channels `of`.
+/// The output: the `k`-th smallest (1-based) of the channels `of`, or the mean of the
+/// `k`-th and the `(k+1)`-th (the median of an even count).
 #[derive(Debug, Clone, PartialEq)]
 pub struct Rank {
     /// Channel indices.
     pub of: Vec<usize>,
     /// Which order statistic: 1 is the minimum, `of.len()` the maximum.
     pub k: usize,
+    /// Whether the output is the mean of the `k`-th and `(k+1)`-th smallest.
+    pub paired: bool,
+}
+
+impl Rank {
+    /// The `k`-th smallest of `of`.
+    pub fn single(of: Vec<usize>, k: usize) -> Rank {
+        Rank {
+            of,
+            k,
+            paired: false,
+        }
+    }
+
+    /// The median of `of`: the middle channel of an odd count, the mean of the middle two
+    /// of an even one.
+    pub fn median(of: Vec<usize>) -> Rank {
+        let n = of.len();
+        Rank {
+            of,
+            k: n.div_ceil(2),
+            paired: n.is_multiple_of(2),
+        }
+    }
 }
 
 /// One difference check: passes while `lower <= x_a - x_b <= upper`.
@@ -298,8 +325,8 @@ fn validate(g: &SharedGaussian, q: &Question) -> Result<(), ProbError> {
     }
     let in_range = |i: &usize| *i < n;
     let rank = &q.output;
-    if rank.of.is_empty() || !rank.of.iter().all(in_range) || rank.k == 0 || rank.k > rank.of.len()
-    {
+    let last = rank.k + usize::from(rank.paired);
+    if rank.of.is_empty() || !rank.of.iter().all(in_range) || rank.k == 0 || last > rank.of.len() {
         return Err(ProbError::InvalidArgument(format!(
             "order statistic {} of {} channels (indices {:?}) for {n} channels",
             rank.k,
@@ -637,12 +664,29 @@ fn conditional_figures(
     for &j in &q.output.of {
         in_output[j] = true;
     }
-    let (v_lo, v_hi) = violation_tails(cond, q);
     let mut evaluations = 1;
     let mut converged = true;
+    // The violation with every channel free, and the bound of its integral (an even median).
+    let (v_lo, v_hi, e_v) = if q.output.paired {
+        let lower = paired_lower(cond, q, None, &in_output, accuracy)?;
+        let mirror = Mirrored::of(cond, q);
+        let upper = paired_lower(
+            &mirror.conditional(),
+            &mirror.question,
+            None,
+            &in_output,
+            accuracy,
+        )?;
+        evaluations += lower.evaluations + upper.evaluations;
+        converged &= lower.converged && upper.converged;
+        (lower.value, upper.value, [lower.error, upper.error])
+    } else {
+        let (v_lo, v_hi) = violation_tails(cond, q);
+        (v_lo, v_hi, [0.0; 2])
+    };
     // [A_lo, A_hi, Pass] with their errors.
     let (agreed, agreed_error) = match Pivot::of(q, cond) {
-        None => ([v_lo, v_hi, 1.0], [0.0; 3]),
+        None => ([v_lo, v_hi, 1.0], [e_v[0], e_v[1], 0.0]),
         Some(pivot) => {
             let mut value = [0.0; 3];
             let mut error = [0.0; 3];
@@ -659,20 +703,13 @@ fn conditional_figures(
                 }
             }
             // Densities: windows of the spread candidates, merged.
-            let mut windows: Vec<(f64, f64)> = pivot
+            let spread = pivot
                 .candidates
                 .iter()
-                .filter_map(|&j| cond.window(j))
-                .collect();
-            let truncated = windows.len() as f64 * WINDOW_TAIL;
-            windows.sort_by(|x, y| x.0.total_cmp(&y.0));
-            let mut merged: Vec<(f64, f64)> = Vec::new();
-            for w in windows {
-                match merged.last_mut() {
-                    Some(last) if w.0 <= last.1 => last.1 = last.1.max(w.1),
-                    _ => merged.push(w),
-                }
-            }
+                .filter(|&&j| cond.window(j).is_some())
+                .count();
+            let truncated = spread as f64 * WINDOW_TAIL;
+            let merged = pivot_windows(cond, &pivot);
             let breaks = breakpoints(cond, q, &pivot);
             // The pass probability is near 1 and the small alarm figures are its complement:
             // it is integrated to the absolute tolerance alone.
@@ -703,6 +740,31 @@ fn conditional_figures(
             for e in error.iter_mut() {
                 *e += truncated;
             }
+            if q.output.paired {
+                // The pass figure stands; the two joint tails of the pair replace those of
+                // one order statistic.
+                let lower = paired_lower(cond, q, Some(&pivot), &in_output, accuracy)?;
+                let mirror = Mirrored::of(cond, q);
+                let mirror_cond = mirror.conditional();
+                let upper = match Pivot::of(&mirror.question, &mirror_cond) {
+                    Some(p) => paired_lower(
+                        &mirror_cond,
+                        &mirror.question,
+                        Some(&p),
+                        &in_output,
+                        accuracy,
+                    )?,
+                    None => {
+                        paired_lower(&mirror_cond, &mirror.question, None, &in_output, accuracy)?
+                    }
+                };
+                evaluations += lower.evaluations + upper.evaluations;
+                converged &= lower.converged && upper.converged;
+                value[0] = lower.value;
+                value[1] = upper.value;
+                error[0] = lower.error;
+                error[1] = upper.error;
+            }
             (value, error)
         }
     };
@@ -712,7 +774,7 @@ fn conditional_figures(
     let p_vu = a_lo + a_hi;
     let e_vu = e_lo + e_hi + round(p_vu);
     let p_vd = (v_lo - a_lo).max(0.0) + (v_hi - a_hi).max(0.0);
-    let e_vd = e_lo + e_hi + round(v_lo + v_hi);
+    let e_vd = e_lo + e_hi + e_v[0] + e_v[1] + round(v_lo + v_hi);
     let p_sq = (pass - p_vu).max(0.0);
     let e_sq = e_pass + e_vu + round(pass);
     let p_sd = ((1.0 - pass) - p_vd).max(0.0);
@@ -722,6 +784,172 @@ fn conditional_figures(
         evaluations,
         converged,
     })
+}
+
+/// The channels and question mirrored (`x -> -x`): the upper tail of the output becomes
+/// the lower one, and the middle pair of an even count stays the same pair.
+struct Mirrored {
+    mean: Vec<f64>,
+    sd: Vec<f64>,
+    uniform: Option<(usize, f64, f64)>,
+    question: Question,
+}
+
+impl Mirrored {
+    fn of(cond: &Conditional, q: &Question) -> Mirrored {
+        let agreement = match &q.agreement {
+            Agreement::Differences(list) => Agreement::Differences(
+                list.iter()
+                    .map(|d| Difference {
+                        lower: -d.upper,
+                        upper: -d.lower,
+                        ..*d
+                    })
+                    .collect(),
+            ),
+            other => other.clone(),
+        };
+        Mirrored {
+            mean: cond.mean.iter().map(|m| -m).collect(),
+            sd: cond.sd.to_vec(),
+            uniform: cond.uniform.map(|(i, a, b)| (i, -b, -a)),
+            question: Question {
+                output: q.output.clone(),
+                safe_lower: -q.safe_upper,
+                safe_upper: -q.safe_lower,
+                agreement,
+            },
+        }
+    }
+
+    fn conditional(&self) -> Conditional<'_> {
+        Conditional {
+            mean: &self.mean,
+            sd: &self.sd,
+            uniform: self.uniform,
+        }
+    }
+}
+
+/// One integrated figure with its bound and cost.
+struct Integrated {
+    value: f64,
+    error: f64,
+    evaluations: usize,
+    converged: bool,
+}
+
+/// `P(y < lo)` of an even median (jointly with the checks passing when `pivot` is given):
+/// see [`paired`]. With checks, the agreement's pivot `u` is integrated outside (atoms of
+/// candidates without spread, then the merged windows of the others) and `t` inside, each
+/// inner integral held to a quarter of the outer targets per unit length.
+fn paired_lower(
+    cond: &Conditional,
+    q: &Question,
+    pivot: Option<&Pivot>,
+    in_output: &[bool],
+    accuracy: &Accuracy,
+) -> Result<Integrated, ProbError> {
+    let side = paired::LowerSide {
+        cond,
+        in_output,
+        k: q.output.k,
+        lo: q.safe_lower,
+    };
+    let Some(pivot) = pivot else {
+        // One dimension: cheap to hold to a thousandth of the relative target, which keeps
+        // the detected figure (this minus the joint tail) meaningful when it is much smaller.
+        let (value, error, evaluations, converged) = side.given_agreement(
+            None,
+            accuracy.abs,
+            accuracy.rel / 1000.0,
+            accuracy.max_intervals,
+        )?;
+        return Ok(Integrated {
+            value,
+            error,
+            evaluations,
+            converged,
+        });
+    };
+    let mut out = Integrated {
+        value: 0.0,
+        error: 0.0,
+        evaluations: 0,
+        converged: true,
+    };
+    let windows = pivot_windows(cond, pivot);
+    let width: f64 = windows.iter().map(|(a, b)| b - a).sum::<f64>().max(1.0);
+    let inner_abs = accuracy.abs / (4.0 * width);
+    let inner_rel = accuracy.rel / 16.0;
+    for &j in &pivot.candidates {
+        if cond.is_point(j) {
+            let only = move |i: usize| f64::from(u8::from(i == j));
+            let at = paired::AgreementAt {
+                pivot,
+                u: cond.mean[j],
+                weight: &only,
+            };
+            let (v, e, n, c) =
+                side.given_agreement(Some(at), inner_abs, inner_rel, accuracy.max_intervals)?;
+            out.value += v;
+            out.error += e;
+            out.evaluations += n;
+            out.converged &= c;
+        }
+    }
+    let breaks = breakpoints(cond, q, pivot);
+    let tol = VectorTolerance {
+        abs: accuracy.abs / windows.len().max(1) as f64,
+        rel: [accuracy.rel],
+        max_intervals: accuracy.max_intervals,
+    };
+    for &(lo, hi) in &windows {
+        let mut inner_evaluations = 0;
+        let mut inner_converged = true;
+        let r = integrate(
+            |u| {
+                let w = |i: usize| cond.density(i, u);
+                let at = paired::AgreementAt {
+                    pivot,
+                    u,
+                    weight: &w,
+                };
+                let (v, e, n, c) =
+                    side.given_agreement(Some(at), inner_abs, inner_rel, accuracy.max_intervals)?;
+                inner_evaluations += n;
+                inner_converged &= c;
+                Ok(([v], [e]))
+            },
+            lo,
+            hi,
+            &breaks,
+            &tol,
+        )?;
+        out.value += r.value[0];
+        out.error += r.error[0] + WINDOW_TAIL;
+        out.evaluations += inner_evaluations;
+        out.converged &= r.converged && inner_converged;
+    }
+    Ok(out)
+}
+
+/// The merged density windows of the pivot's candidates with spread.
+fn pivot_windows(cond: &Conditional, pivot: &Pivot) -> Vec<(f64, f64)> {
+    let mut windows: Vec<(f64, f64)> = pivot
+        .candidates
+        .iter()
+        .filter_map(|&j| cond.window(j))
+        .collect();
+    windows.sort_by(|x, y| x.0.total_cmp(&y.0));
+    let mut merged: Vec<(f64, f64)> = Vec::new();
+    for w in windows {
+        match merged.last_mut() {
+            Some(last) if w.0 <= last.1 => last.1 = last.1.max(w.1),
+            _ => merged.push(w),
+        }
+    }
+    merged
 }
 
 /// Pivot values where a term steps or kinks: where an interval end or the pivot itself
@@ -774,10 +1002,7 @@ mod tests {
             uniform: None,
         };
         let q = Question {
-            output: Rank {
-                of: vec![0, 1],
-                k: 1,
-            },
+            output: Rank::single(vec![0, 1], 1),
             safe_lower: f64::NEG_INFINITY,
             safe_upper: 0.5,
             agreement: Agreement::Always,
@@ -811,7 +1036,7 @@ mod tests {
             }]),
         ] {
             let q = Question {
-                output: Rank { of: vec![0], k: 1 },
+                output: Rank::single(vec![0], 1),
                 safe_lower: f64::NEG_INFINITY,
                 safe_upper: f64::INFINITY,
                 agreement,

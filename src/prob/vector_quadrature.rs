@@ -10,9 +10,12 @@
 //! 21-point Kronrod and the embedded 10-point Gauss value, which bounds the error of the
 //! lower-order Gauss value and so, in practice, generously the Kronrod value reported (no
 //! QUADPACK heuristic that shrinks it), plus the Kronrod-weighted integral of the
-//! integrand's own error bounds and a rounding allowance. The interval whose worst
-//! component is furthest from its target is bisected next; the run stops when every
-//! component meets `max(abs, rel * |value|)` or the interval budget is spent.
+//! integrand's own error bounds and a rounding allowance. The interval whose rule error
+//! (without the integrand's own part, which bisection cannot shrink) is furthest from its
+//! target is bisected next; the run stops when every component meets
+//! `max(abs, rel * |value|)`, when the integrand's own errors alone miss a target and
+//! outweigh the rule's part (not converged: the bound is still a bound), or when the
+//! interval budget is spent.
 
 use super::error::ProbError;
 use super::quadrature::GK21;
@@ -52,6 +55,8 @@ struct Interval<const K: usize> {
     hi: f64,
     value: [f64; K],
     error: [f64; K],
+    /// The part of `error` from the integrand's own errors, which bisection cannot shrink.
+    own: [f64; K],
 }
 
 fn rule<const K: usize, F>(f: &mut F, lo: f64, hi: f64) -> Result<Interval<K>, ProbError>
@@ -89,15 +94,18 @@ where
     let mut value = [0.0; K];
     let mut error = [0.0; K];
     for c in 0..K {
+        own[c] *= half.abs();
         value[c] = kronrod[c] * half;
-        error[c] = ((kronrod[c] - gauss[c]).abs() + own[c] + QUADPACK_ROUNDOFF_REL * magnitude[c])
-            * half.abs();
+        error[c] = ((kronrod[c] - gauss[c]).abs() + QUADPACK_ROUNDOFF_REL * magnitude[c])
+            * half.abs()
+            + own[c];
     }
     Ok(Interval {
         lo,
         hi,
         value,
         error,
+        own,
     })
 }
 
@@ -160,7 +168,14 @@ where
         }
         let targets: [f64; K] = std::array::from_fn(|c| tol.abs.max(tol.rel[c] * value[c].abs()));
         let met = (0..K).all(|c| error[c] <= targets[c]);
-        if met || pieces.len() >= budget {
+        // Bisection shrinks only the rule's part of the error: once the integrand's own
+        // errors alone miss a target and outweigh the rule's part, more pieces cannot help.
+        let futile = !met
+            && (0..K).filter(|&c| error[c] > targets[c]).all(|c| {
+                let own: f64 = pieces.iter().map(|p| p.own[c]).sum();
+                own >= targets[c] && error[c] - own <= own
+            });
+        if met || futile || pieces.len() >= budget {
             return Ok(VectorIntegral {
                 value,
                 error,
@@ -177,7 +192,7 @@ where
                 continue;
             }
             let score = (0..K)
-                .map(|c| p.error[c] / targets[c].max(f64::MIN_POSITIVE))
+                .map(|c| (p.error[c] - p.own[c]) / targets[c].max(f64::MIN_POSITIVE))
                 .fold(0.0, f64::max);
             if score > worst_score {
                 worst_score = score;
