@@ -8,6 +8,10 @@ use concord::analysis::{AnalysisOptions, analyze};
 use concord::model::load_str;
 use concord::prob::order::{Accuracy, Agreement, Question, Rank, SharedGaussian, figures};
 
+#[path = "common/chains.rs"]
+mod chains;
+use chains::median_file;
+
 fn median_question(n: usize) -> (SharedGaussian, Question) {
     let g = SharedGaussian {
         mean: (0..n).map(|i| 0.02 * i as f64 - 0.05).collect(),
@@ -16,7 +20,7 @@ fn median_question(n: usize) -> (SharedGaussian, Question) {
         uniform: None,
     };
     let q = Question {
-        output: Rank::median((0..n).collect()),
+        output: Rank::median((0..n).collect()).into(),
         safe_lower: -1.5,
         safe_upper: 1.5,
         agreement: Agreement::Range {
@@ -25,31 +29,6 @@ fn median_question(n: usize) -> (SharedGaussian, Question) {
         },
     };
     (g, q)
-}
-
-fn median_file(n: usize) -> String {
-    let names: Vec<String> = (0..n).map(|i| format!("c{i}")).collect();
-    let mut s = String::from(
-        "name = \"bench\"\nunit = \"mm\"\nfull_scale = [-50.0, 50.0]\n\n[sources.supply]\nsigma = 0.2\n\n",
-    );
-    for (i, name) in names.iter().enumerate() {
-        s.push_str(&format!(
-            "[channels.{name}]\nmean = {}\nsigma = {}\nfrom = {{ supply = 1.0 }}\n\n",
-            0.02 * i as f64 - 0.05,
-            0.4 + 0.02 * i as f64
-        ));
-    }
-    let all = names
-        .iter()
-        .map(|x| format!("\"{x}\""))
-        .collect::<Vec<_>>()
-        .join(", ");
-    s.push_str(&format!(
-        "[output]\nkind = \"median\"\nof = [{all}]\n\n[checks.all]\nkind = \"range\"\nof = [{all}]\n\
-         upper = 2.5\n\n[safety]\nlimit = 1.5\n\n[faults.drift]\nfit = 10.0\nhits = {{ c0 = 1.0 }}\n\
-         mode = \"add\"\namplitude = {{ gaussian = {{ mean = 0.5, sigma = 2.0 }} }}\n"
-    ));
-    s
 }
 
 fn order_figures(c: &mut Criterion) {

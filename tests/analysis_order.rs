@@ -159,6 +159,128 @@ fn order_engine_matches_the_polytope_engine_on_shared_structures() {
     }
 }
 
+/// `n` channels of equal own noise on one shared supply (equal gains), means apart, with
+/// the given output (a `[output]` body) and checks, and the faults that keep the channels
+/// evenly noisy: a gaussian drift and a two-point offset on `c0`, a step of the supply.
+fn even_chain(n: usize, sigmas: &[f64], output: &str, checks: &str) -> String {
+    let names: Vec<String> = (0..n).map(|i| format!("c{i}")).collect();
+    let mut s = String::from(
+        "name = \"even\"\nunit = \"mm\"\nfull_scale = [-20.0, 20.0]\n\n[sources.supply]\nsigma = 0.3\n\n",
+    );
+    for (i, name) in names.iter().enumerate() {
+        let mean = 0.04 * (i as f64) - 0.06;
+        let sigma = sigmas[i % sigmas.len()];
+        s.push_str(&format!(
+            "[channels.{name}]\nmean = {mean}\nsigma = {sigma}\nfrom = {{ supply = 1.0 }}\n\n"
+        ));
+    }
+    let all = names
+        .iter()
+        .map(|x| format!("\"{x}\""))
+        .collect::<Vec<_>>()
+        .join(", ");
+    s.push_str(&format!("[output]\n{}\n\n", output.replace("ALL", &all)));
+    s.push_str(&checks.replace("ALL", &all));
+    s.push_str(
+        "\n[safety]\nlimit = 1.0\n\n\
+         [faults.drift]\nfit = 10.0\nhits = { c0 = 1.0 }\nmode = \"add\"\n\
+         amplitude = { gaussian = { mean = 0.3, sigma = 1.5 } }\n\n\
+         [faults.offset]\nfit = 4.0\nhits = { c0 = 1.0 }\nmode = \"add\"\n\
+         amplitude = { points = [[0.8, 0.5], [-2.5, 0.5]] }\n\n\
+         [faults.supply_step]\nfit = 5.0\nhits = { supply = 1.0 }\nmode = \"add\"\n\
+         amplitude = { gaussian = { mean = 0.0, sigma = 0.8 } }\n",
+    );
+    s
+}
+
+/// Difference checks of every other channel against `c0` (a star), limit 1.4.
+fn star_checks(n: usize) -> String {
+    (1..n)
+        .map(|i| {
+            format!(
+                "[checks.d{i}]\nkind = \"difference\"\nof = [\"c{i}\", \"c0\"]\nlimit = 1.4\n\n"
+            )
+        })
+        .collect()
+}
+
+#[test]
+fn weighted_outputs_match_the_polytope_engine() {
+    // Independent path: the polytope engine integrates the correlated gaussian of output
+    // and checks as it stands; the order-statistic path uses the independence of a
+    // precision-weighted output from the checked differences (prob/order/weighted.rs).
+    let mean = "kind = \"mean\"\nof = [ALL]";
+    // Weights proportional to 1 / sigma^2 for sigmas 0.4, 0.5, 0.4, 0.5.
+    let (a, b) = (1.0 / 0.16, 1.0 / 0.25);
+    let (wa, wb) = (a / (2.0 * (a + b)), b / (2.0 * (a + b)));
+    let precision =
+        format!("kind = \"weighted\"\nof = {{ c0 = {wa}, c1 = {wb}, c2 = {wa}, c3 = {wb} }}");
+    let cases: Vec<(usize, Vec<f64>, String, String)> = vec![
+        (2, vec![0.45], mean.into(), star_checks(2)),
+        (3, vec![0.45], mean.into(), RANGE.into()),
+        (4, vec![0.45], mean.into(), star_checks(4)),
+        (4, vec![0.4, 0.5], precision, RANGE.into()),
+        (3, vec![0.3, 0.5, 0.7], mean.into(), String::new()),
+    ];
+    for (n, sigmas, output, checks) in cases {
+        let text = even_chain(n, &sigmas, &output, &checks);
+        let fast = run(&text, true);
+        let general = run(&text, false);
+        let what = format!("{n} channels, sigmas {sigmas:?}, output {output:?}");
+        assert_eq!(
+            fast.baseline_method,
+            FigureMethod::OrderStatistics,
+            "{what}"
+        );
+        agree(
+            &fast.baseline,
+            &general.baseline,
+            &format!("{what}, baseline"),
+        );
+        for (x, y) in fast.sites.iter().zip(&general.sites) {
+            assert_eq!(
+                x.method,
+                FigureMethod::OrderStatistics,
+                "{what}, {}",
+                x.name
+            );
+            agree(&x.outcome, &y.outcome, &format!("{what}, site {}", x.name));
+        }
+    }
+}
+
+#[test]
+fn mean_of_many_equal_channels_agrees_with_sampling() {
+    // Independent path: the Monte Carlo engine with 99.9 % Wilson intervals (Wilson 1927),
+    // for the mean of 8 and of 16 channels with difference checks against one channel.
+    let mc = MonteCarloOptions {
+        samples: 100_000,
+        seed: 0x5eed_0808,
+    };
+    for n in [8usize, 16] {
+        let text = even_chain(n, &[0.45], "kind = \"mean\"\nof = [ALL]", &star_checks(n));
+        let arch = load_str(&text, "mean.toml").expect("valid file");
+        let exact = analyze(&arch.model, &AnalysisOptions::default(), false).expect("analysis");
+        assert_eq!(
+            exact.baseline_method,
+            FigureMethod::OrderStatistics,
+            "n {n}"
+        );
+        for site in &exact.sites {
+            assert_eq!(
+                site.method,
+                FigureMethod::OrderStatistics,
+                "n {n}, {}",
+                site.name
+            );
+        }
+        let rows = verify(&arch.model, &exact, &mc).expect("sampling");
+        for r in &rows {
+            assert!(r.agrees, "n {n}: {r:?}");
+        }
+    }
+}
+
 /// `n` independent identical channels N(0, 1) (no shared source) whose output is the
 /// median; no checks.
 fn iid_median(n: usize, upper: f64) -> String {
@@ -271,7 +393,7 @@ fn range_exceeds(n: usize, r: f64) -> (f64, f64) {
         uniform: None,
     };
     let q = Question {
-        output: Rank::single(vec![0], 1),
+        output: Rank::single(vec![0], 1).into(),
         safe_lower: f64::NEG_INFINITY,
         safe_upper: f64::INFINITY,
         agreement: Agreement::Range {

@@ -14,7 +14,8 @@
 
 use crate::model::{CompiledFault, CompiledModel, Detection, FaultMode, Formula, OrderStat};
 use crate::prob::order::{
-    Agreement, Difference, MAX_SHARED_TERMS, Question, Rank, SharedGaussian, unsupported_reason,
+    Agreement, Difference, MAX_SHARED_TERMS, Output, Question, Rank, SharedGaussian, WeightedSum,
+    unsupported_reason,
 };
 
 /// Relative tolerance of the tests that two shared terms are parallel and that a group's
@@ -33,10 +34,20 @@ pub fn question(model: &CompiledModel) -> Result<Question, String> {
                 OrderStat::Max => Rank::single(of, n),
                 OrderStat::Median => Rank::median(of),
             }
+            .into()
         }
-        other => match other.as_channel() {
-            Some(i) => Rank::single(vec![i], 1),
-            None => return Err("the output is not an order statistic of channels".into()),
+        other => match (other.as_channel(), other.linear(model.channels.len())) {
+            (Some(i), _) => Rank::single(vec![i], 1).into(),
+            (None, Some(form)) => Output::Weighted(WeightedSum {
+                weights: form.coeffs,
+                constant: form.constant,
+            }),
+            (None, None) => {
+                return Err(
+                    "the output is neither an order statistic nor a weighted sum of channels"
+                        .into(),
+                );
+            }
         },
     };
     let n = model.channels.len();

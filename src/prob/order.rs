@@ -41,6 +41,9 @@ use super::tolerance::ROUNDING_REL;
 use super::vector_quadrature::{VectorPoint, VectorTolerance, integrate};
 
 mod paired;
+mod weighted;
+
+pub use weighted::WeightedSum;
 
 /// Most shared terms integrated over (the dimension of the outer integral). Two nested
 /// adaptive rules were measured at 20 to 70 s per scenario on three channels (each inner
@@ -104,6 +107,21 @@ impl Rank {
     }
 }
 
+/// What the output is.
+#[derive(Debug, Clone, PartialEq)]
+pub enum Output {
+    /// An order statistic of channels (or the mean of two neighbouring ones).
+    Order(Rank),
+    /// A weighted sum of channels (see [`weighted`]).
+    Weighted(WeightedSum),
+}
+
+impl From<Rank> for Output {
+    fn from(rank: Rank) -> Output {
+        Output::Order(rank)
+    }
+}
+
 /// One difference check: passes while `lower <= x_a - x_b <= upper`.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct Difference {
@@ -145,7 +163,7 @@ impl Agreement {
 /// and where the checks pass.
 #[derive(Debug, Clone, PartialEq)]
 pub struct Question {
-    pub output: Rank,
+    pub output: Output,
     pub safe_lower: f64,
     pub safe_upper: f64,
     pub agreement: Agreement,
@@ -180,11 +198,19 @@ pub struct Accuracy {
 
 /// Why a case does not fit this method (the caller uses the general engine instead).
 pub fn unsupported_reason(g: &SharedGaussian, q: &Question) -> Option<String> {
-    if g.shared.len() > MAX_SHARED_TERMS {
-        return Some(format!(
-            "{} shared terms, more than the {MAX_SHARED_TERMS} this method integrates over",
-            g.shared.len()
-        ));
+    match &q.output {
+        Output::Order(_) if g.shared.len() > MAX_SHARED_TERMS => {
+            return Some(format!(
+                "{} shared terms, more than the {MAX_SHARED_TERMS} this method integrates over",
+                g.shared.len()
+            ));
+        }
+        Output::Order(_) => {}
+        Output::Weighted(sum) => {
+            if let Err(reason) = weighted::split(g, q, sum) {
+                return Some(reason);
+            }
+        }
     }
     let uniform = g.uniform.map(|u| u.0);
     let point_masses = (0..g.own_sd.len())
@@ -216,7 +242,16 @@ pub fn figures(
     if let Some(reason) = unsupported_reason(g, q) {
         return Err(ProbError::InvalidArgument(reason));
     }
-    let d = g.shared.len();
+    // The terms integrated over, the own noises, and (for a weighted sum) the output
+    // variance of the terms that cancel from the checks.
+    let (outer, own_sd, output_variance) = match &q.output {
+        Output::Order(_) => (g.shared.clone(), g.own_sd.clone(), 0.0),
+        Output::Weighted(sum) => {
+            let split = weighted::split(g, q, sum).map_err(ProbError::InvalidArgument)?;
+            (split.outer, split.own_sd, split.output_variance)
+        }
+    };
+    let d = outer.len();
     let mut evaluations = 0usize;
     let mut converged = true;
     let inner_accuracy = Accuracy {
@@ -226,17 +261,22 @@ pub fn figures(
     };
     let mut at = |z: &[f64]| -> Result<VectorPoint<4>, ProbError> {
         let mut mean = g.mean.clone();
-        for (column, zk) in g.shared.iter().zip(z) {
+        for (column, zk) in outer.iter().zip(z) {
             for (m, c) in mean.iter_mut().zip(column) {
                 *m += c * zk;
             }
         }
         let cond = Conditional {
             mean: &mean,
-            sd: &g.own_sd,
+            sd: &own_sd,
             uniform: g.uniform,
         };
-        let r = conditional_figures(&cond, q, &inner_accuracy)?;
+        let r = match &q.output {
+            Output::Order(rank) => conditional_figures(&cond, q, rank, &inner_accuracy)?,
+            Output::Weighted(sum) => {
+                weighted::point(&cond, q, sum, output_variance, &inner_accuracy)?
+            }
+        };
         evaluations += r.evaluations;
         converged &= r.converged;
         Ok(r.point)
@@ -324,15 +364,35 @@ fn validate(g: &SharedGaussian, q: &Question) -> Result<(), ProbError> {
         }
     }
     let in_range = |i: &usize| *i < n;
-    let rank = &q.output;
-    let last = rank.k + usize::from(rank.paired);
-    if rank.of.is_empty() || !rank.of.iter().all(in_range) || rank.k == 0 || last > rank.of.len() {
-        return Err(ProbError::InvalidArgument(format!(
-            "order statistic {} of {} channels (indices {:?}) for {n} channels",
-            rank.k,
-            rank.of.len(),
-            rank.of
-        )));
+    match &q.output {
+        Output::Order(rank) => {
+            let last = rank.k + usize::from(rank.paired);
+            if rank.of.is_empty()
+                || !rank.of.iter().all(in_range)
+                || rank.k == 0
+                || last > rank.of.len()
+            {
+                return Err(ProbError::InvalidArgument(format!(
+                    "order statistic {} of {} channels (indices {:?}) for {n} channels",
+                    rank.k,
+                    rank.of.len(),
+                    rank.of
+                )));
+            }
+        }
+        Output::Weighted(sum) => {
+            if sum.weights.len() != n {
+                return Err(ProbError::DimensionMismatch {
+                    what: "output weights".into(),
+                    expected: n,
+                    found: sum.weights.len(),
+                });
+            }
+            for w in &sum.weights {
+                finite("output weight", *w)?;
+            }
+            finite("output constant", sum.constant)?;
+        }
     }
     match &q.agreement {
         Agreement::Always => {}
@@ -454,9 +514,9 @@ impl Conditional<'_> {
 
 /// How many of the output's channels must lie strictly below `lo` for `y < lo` (`k`), and
 /// strictly above `hi` for `y > hi` (`|O| - k + 1`).
-fn output_needs(q: &Question) -> (usize, usize) {
-    let n = q.output.of.len();
-    (q.output.k, n + 1 - q.output.k)
+fn output_needs(rank: &Rank) -> (usize, usize) {
+    let n = rank.of.len();
+    (rank.k, n + 1 - rank.k)
 }
 
 /// Adds one channel to a saturating count polynomial: `poly[c]` is the probability of `c`
@@ -491,13 +551,13 @@ fn add_shifted(into: &mut [f64], from: &[f64], w: f64, shift: bool) {
 
 /// `P(y < lo)` and `P(y > hi)` with every channel free: Poisson-binomial tails of the
 /// counts below `lo` and above `hi`.
-fn violation_tails(cond: &Conditional, q: &Question) -> (f64, f64) {
-    let (need_lo, need_hi) = output_needs(q);
+fn violation_tails(cond: &Conditional, q: &Question, rank: &Rank) -> (f64, f64) {
+    let (need_lo, need_hi) = output_needs(rank);
     let mut below = vec![0.0; need_lo + 1];
     let mut above = vec![0.0; need_hi + 1];
     below[0] = 1.0;
     above[0] = 1.0;
-    for &j in &q.output.of {
+    for &j in &rank.of {
         let [b, m, a] = cond.parts(
             j,
             f64::NEG_INFINITY,
@@ -591,12 +651,13 @@ impl Pivot {
 fn pivot_term(
     cond: &Conditional,
     q: &Question,
+    rank: &Rank,
     pivot: &Pivot,
     u: f64,
     weight: &dyn Fn(usize) -> f64,
     in_output: &[bool],
 ) -> [f64; 3] {
-    let (need_lo, need_hi) = output_needs(q);
+    let (need_lo, need_hi) = output_needs(rank);
     let sizes = [need_lo + 1, need_hi + 1, 1];
     // One buffer for the six polynomials: free and placed of each programme.
     let total: usize = sizes.iter().sum();
@@ -658,21 +719,23 @@ struct PointResult {
 fn conditional_figures(
     cond: &Conditional,
     q: &Question,
+    rank: &Rank,
     accuracy: &Accuracy,
 ) -> Result<PointResult, ProbError> {
     let mut in_output = vec![false; cond.mean.len()];
-    for &j in &q.output.of {
+    for &j in &rank.of {
         in_output[j] = true;
     }
     let mut evaluations = 1;
     let mut converged = true;
     // The violation with every channel free, and the bound of its integral (an even median).
-    let (v_lo, v_hi, e_v) = if q.output.paired {
-        let lower = paired_lower(cond, q, None, &in_output, accuracy)?;
+    let (v_lo, v_hi, e_v) = if rank.paired {
+        let lower = paired_lower(cond, q, rank, None, &in_output, accuracy)?;
         let mirror = Mirrored::of(cond, q);
         let upper = paired_lower(
             &mirror.conditional(),
             &mirror.question,
+            rank,
             None,
             &in_output,
             accuracy,
@@ -681,7 +744,7 @@ fn conditional_figures(
         converged &= lower.converged && upper.converged;
         (lower.value, upper.value, [lower.error, upper.error])
     } else {
-        let (v_lo, v_hi) = violation_tails(cond, q);
+        let (v_lo, v_hi) = violation_tails(cond, q, rank);
         (v_lo, v_hi, [0.0; 2])
     };
     // [A_lo, A_hi, Pass] with their errors.
@@ -695,7 +758,7 @@ fn conditional_figures(
                 if cond.is_point(j) {
                     let u = cond.mean[j];
                     let only = move |i: usize| f64::from(u8::from(i == j));
-                    let t = pivot_term(cond, q, &pivot, u, &only, &in_output);
+                    let t = pivot_term(cond, q, rank, &pivot, u, &only, &in_output);
                     for c in 0..3 {
                         value[c] += t[c];
                         error[c] += t[c] * ROUNDING_REL;
@@ -722,7 +785,7 @@ fn conditional_figures(
                 let r = integrate(
                     |u| {
                         let w = |i: usize| cond.density(i, u);
-                        let t = pivot_term(cond, q, &pivot, u, &w, &in_output);
+                        let t = pivot_term(cond, q, rank, &pivot, u, &w, &in_output);
                         Ok((t, t.map(|x| x * ROUNDING_REL)))
                     },
                     lo,
@@ -740,23 +803,29 @@ fn conditional_figures(
             for e in error.iter_mut() {
                 *e += truncated;
             }
-            if q.output.paired {
+            if rank.paired {
                 // The pass figure stands; the two joint tails of the pair replace those of
                 // one order statistic.
-                let lower = paired_lower(cond, q, Some(&pivot), &in_output, accuracy)?;
+                let lower = paired_lower(cond, q, rank, Some(&pivot), &in_output, accuracy)?;
                 let mirror = Mirrored::of(cond, q);
                 let mirror_cond = mirror.conditional();
                 let upper = match Pivot::of(&mirror.question, &mirror_cond) {
                     Some(p) => paired_lower(
                         &mirror_cond,
                         &mirror.question,
+                        rank,
                         Some(&p),
                         &in_output,
                         accuracy,
                     )?,
-                    None => {
-                        paired_lower(&mirror_cond, &mirror.question, None, &in_output, accuracy)?
-                    }
+                    None => paired_lower(
+                        &mirror_cond,
+                        &mirror.question,
+                        rank,
+                        None,
+                        &in_output,
+                        accuracy,
+                    )?,
                 };
                 evaluations += lower.evaluations + upper.evaluations;
                 converged &= lower.converged && upper.converged;
@@ -846,6 +915,7 @@ struct Integrated {
 fn paired_lower(
     cond: &Conditional,
     q: &Question,
+    rank: &Rank,
     pivot: Option<&Pivot>,
     in_output: &[bool],
     accuracy: &Accuracy,
@@ -853,7 +923,7 @@ fn paired_lower(
     let side = paired::LowerSide {
         cond,
         in_output,
-        k: q.output.k,
+        k: rank.k,
         lo: q.safe_lower,
     };
     let Some(pivot) = pivot else {
@@ -1002,7 +1072,7 @@ mod tests {
             uniform: None,
         };
         let q = Question {
-            output: Rank::single(vec![0, 1], 1),
+            output: Rank::single(vec![0, 1], 1).into(),
             safe_lower: f64::NEG_INFINITY,
             safe_upper: 0.5,
             agreement: Agreement::Always,
@@ -1036,7 +1106,7 @@ mod tests {
             }]),
         ] {
             let q = Question {
-                output: Rank::single(vec![0], 1),
+                output: Rank::single(vec![0], 1).into(),
                 safe_lower: f64::NEG_INFINITY,
                 safe_upper: f64::INFINITY,
                 agreement,
