@@ -74,8 +74,23 @@ const CLOSED: &str = "whole analysis, closed form";
 const MONTE_CARLO: &str = "whole analysis, Monte Carlo agreement";
 
 fn run_file(text: &str, name: &str) -> Result<Analysis, String> {
+    run_file_with(text, name, &AnalysisOptions::default())
+}
+
+fn run_file_with(text: &str, name: &str, options: &AnalysisOptions) -> Result<Analysis, String> {
     let arch = load_str(text, name).map_err(|e| e.to_string())?;
-    analyze(&arch.model, &AnalysisOptions::default(), false).map_err(|e| e.to_string())
+    analyze(&arch.model, options, false).map_err(|e| e.to_string())
+}
+
+/// The baseline residual of an analysis, if the order-statistic engine computed it.
+fn ordered_residual(analysis: Result<Analysis, String>) -> Result<(f64, f64), String> {
+    analysis.and_then(|a| {
+        if a.baseline_method == crate::analysis::engine::FigureMethod::OrderStatistics {
+            Ok((a.baseline.p_vu.value, a.baseline.p_vu.error))
+        } else {
+            Err("the order-statistic engine was not chosen".to_string())
+        }
+    })
 }
 
 fn scenario<'a>(analysis: &'a Analysis, site: &str) -> Option<&'a Outcome> {
@@ -243,13 +258,7 @@ pub fn order_statistic_cases(_data: &ReferenceData) -> Vec<Case> {
                 }
                 reference += c * q.powi(j as i32) * (1.0 - q).powi((n - j) as i32);
             }
-            let computed = run_file(&iid_median_file(n, t), "iid-median.toml").and_then(|a| {
-                if a.baseline_method == crate::analysis::engine::FigureMethod::OrderStatistics {
-                    Ok((a.baseline.p_vu.value, a.baseline.p_vu.error))
-                } else {
-                    Err("the order-statistic engine was not chosen".to_string())
-                }
-            });
+            let computed = ordered_residual(run_file(&iid_median_file(n, t), "iid-median.toml"));
             cases.push(Case::new(
                 ORDER,
                 format!("median of {n} > {t} / p_vu"),
@@ -261,7 +270,72 @@ pub fn order_statistic_cases(_data: &ReferenceData) -> Vec<Case> {
             ));
         }
     }
+    // The median of an even count n = 2m, the mean of the middle pair (U, V): their joint
+    // density is n! / ((m-1)!)^2 Phi(u)^(m-1) phi(u) phi(v) (1 - Phi(v))^(m-1) on u < v
+    // (David and Nagaraja 2003, Order Statistics, eq. 2.2.1); integrating v over
+    // (max(u, 2t - u), inf) in closed form leaves
+    // P(median > t) = n! / ((m-1)! m!) int Phi(u)^(m-1) phi(u) S(max(u, 2t - u))^m du,
+    // here by composite Simpson (h = 1e-3 on [-10, 10], split at t; error below 1e-12).
+    for n in [4usize, 6] {
+        let m = n / 2;
+        let factor = (1..=n).map(|i| i as f64).product::<f64>()
+            / ((1..m).map(|i| i as f64).product::<f64>()
+                * (1..=m).map(|i| i as f64).product::<f64>());
+        for t in ORDER_LIMITS {
+            let g = |u: f64| {
+                let density = (-0.5 * u * u).exp() / (2.0 * std::f64::consts::PI).sqrt();
+                phi(u).powi(m as i32 - 1) * density * (1.0 - phi(u.max(2.0 * t - u))).powi(m as i32)
+            };
+            let reference = factor * (simpson(&g, -10.0, t) + simpson(&g, t, 10.0));
+            let computed = ordered_residual(run_file(&iid_median_file(n, t), "iid-median.toml"));
+            cases.push(Case::new(
+                ORDER,
+                format!("median of {n} (even) > {t} / p_vu"),
+                "joint density of two order statistics (David and Nagaraja eq. 2.2.1), Simpson",
+                computed,
+                reference,
+                CLOSED_FORM_ABS + 1e-12,
+                Measure::Absolute,
+            ));
+        }
+    }
+    // The mean of two independent N(0, s^2) readings and their difference are independent
+    // (common practice: sum and difference of two iid normals), so a comparator passing
+    // (|D| <= T, D ~ N(0, 2 s^2)) and the mean outside the band (M ~ N(0, s^2 / 2)) multiply.
+    let (s, limit, band) = (0.5, 1.2, 0.6);
+    let reference =
+        (2.0 * phi(limit / (s * 2f64.sqrt())) - 1.0) * outside(0.0, s / 2f64.sqrt(), band);
+    let options = AnalysisOptions {
+        engine: crate::analysis::engine::EngineChoice::OrderStatistics,
+        ..AnalysisOptions::default()
+    };
+    let text = format!(
+        "name = \"pair\"\nunit = \"V\"\n\n[channels.a]\nsigma = {s}\n\n[channels.b]\nsigma = {s}\n\n\
+         [output]\nkind = \"mean\"\nof = [\"a\", \"b\"]\n\n\
+         [checks.ab]\nkind = \"difference\"\nof = [\"a\", \"b\"]\nlimit = {limit}\n\n\
+         [safety]\nlimit = {band}\n"
+    );
+    cases.push(Case::new(
+        ORDER,
+        "mean of two with a comparator / p_vu".to_string(),
+        "independence of sum and difference of iid normals (common practice); Phi by libm erfc",
+        ordered_residual(run_file_with(&text, "pair.toml", &options)),
+        reference,
+        CLOSED_FORM_ABS + CLOSED_FORM_REL * reference,
+        Measure::Absolute,
+    ));
     cases
+}
+
+/// Composite Simpson rule with 20,000 steps on `[a, b]`.
+fn simpson(f: &dyn Fn(f64) -> f64, a: f64, b: f64) -> f64 {
+    let steps = 20_000;
+    let h = (b - a) / steps as f64;
+    let mut sum = f(a) + f(b);
+    for i in 1..steps {
+        sum += f(a + h * i as f64) * if i % 2 == 1 { 4.0 } else { 2.0 };
+    }
+    sum * h / 3.0
 }
 
 /// An invented two-channel architecture whose sites exercise the unknown-sigma search and
