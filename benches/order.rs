@@ -27,6 +27,7 @@ fn median_question(n: usize) -> (SharedGaussian, Question) {
             of: (0..n).collect(),
             limit: 2.5,
         },
+        bands: Vec::new(),
     };
     (g, q)
 }

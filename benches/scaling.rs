@@ -49,7 +49,7 @@ fn main() {
         let site = &a.sites[0];
         let p = site.outcome.p_vu.value;
         // Both scenarios (baseline and site) are sampled: the cost per sample of one.
-        let t_mc = fastest(1, || {
+        let t_mc = fastest(5, || {
             analyze_montecarlo(&arch.model, &mc).expect("sampling")
         }) / (2.0 * mc.samples as f64);
         let needed = |r: f64| (1.0 - p) / (p * r * r);

@@ -101,6 +101,18 @@ fn without_supply(text: &str) -> String {
 }
 
 const RANGE: &str = "[checks.all]\nkind = \"range\"\nof = [ALL]\nupper = 1.8\n";
+/// Fixed windows on single channels: `c0` above -1.6 (a lower limit only), `c1` within
+/// [-1.3, 1.9] through a gain of 2 (`2 c1` within [-2.6, 3.8]).
+const BANDS: &str = "[checks.c0_low]\nkind = \"linear\"\nof = { c0 = 1.0 }\nlower = -1.6\nupper = 1e9\n\n\
+                     [checks.c1_window]\nkind = \"linear\"\nof = { c1 = 2.0 }\nlower = -2.6\nupper = 3.8\n";
+
+fn range_and_bands() -> String {
+    format!("{RANGE}\n{BANDS}")
+}
+
+fn star_and_bands() -> String {
+    format!("{STAR}\n{BANDS}")
+}
 const STAR: &str = "[checks.d1]\nkind = \"difference\"\nof = [\"c0\", \"c1\"]\nlimit = 1.5\n\n\
                     [checks.d2]\nkind = \"difference\"\nof = [\"c2\", \"c0\"]\nlower = -1.2\nupper = 1.6\n";
 
@@ -123,6 +135,12 @@ fn order_engine_matches_the_polytope_engine_on_shared_structures() {
         (4, "median", RANGE, None),
         (4, "median", STAR, Some(0.3)),
         (4, "median", "", None),
+        // Checks of single channels against fixed limits (a plausibility window per
+        // channel), alone and beside a range or star check.
+        (3, "max", BANDS, None),
+        (2, "median", BANDS, None),
+        (3, "median", &range_and_bands(), None),
+        (3, "min", &star_and_bands(), None),
     ];
     for (n, output, checks, rho) in cases {
         let mut text = chain(n, output, checks, rho);
@@ -400,6 +418,7 @@ fn range_exceeds(n: usize, r: f64) -> (f64, f64) {
             of: (0..n).collect(),
             limit: r,
         },
+        bands: Vec::new(),
     };
     let f = figures(
         &g,
@@ -465,6 +484,31 @@ fn wide_chain(n: usize) -> String {
     // Keep the two fault kinds the sampler and the exact engine treat alike in cost.
     let cut = text.find("[faults.frozen]").unwrap_or(text.len());
     text[..cut].to_string()
+}
+
+#[test]
+fn own_bands_agree_with_sampling_on_many_channels() {
+    // Independent path: the Monte Carlo engine with 99.9 % Wilson intervals (Wilson 1927):
+    // the median of 9 with a range check and own bands, the median of 8 with own bands.
+    let mc = MonteCarloOptions {
+        samples: 100_000,
+        seed: 0x5eed_0b0b,
+    };
+    for (n, checks) in [(9usize, range_and_bands()), (8, BANDS.to_string())] {
+        let text = chain(n, "median", &checks, None);
+        let cut = text.find("[faults.frozen]").unwrap_or(text.len());
+        let arch = load_str(&text[..cut], "bands.toml").expect("valid file");
+        let exact = analyze(&arch.model, &AnalysisOptions::default(), false).expect("analysis");
+        assert_eq!(
+            exact.baseline_method,
+            FigureMethod::OrderStatistics,
+            "n {n}"
+        );
+        let rows = verify(&arch.model, &exact, &mc).expect("sampling");
+        for r in &rows {
+            assert!(r.agrees, "n {n}: {r:?}");
+        }
+    }
 }
 
 #[test]

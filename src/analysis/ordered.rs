@@ -14,8 +14,8 @@
 
 use crate::model::{CompiledFault, CompiledModel, Detection, FaultMode, Formula, OrderStat};
 use crate::prob::order::{
-    Agreement, Difference, MAX_SHARED_TERMS, Output, Question, Rank, SharedGaussian, WeightedSum,
-    unsupported_reason,
+    Agreement, ChannelBand, Difference, MAX_SHARED_TERMS, Output, Question, Rank, SharedGaussian,
+    WeightedSum, unsupported_reason,
 };
 
 /// Relative tolerance of the tests that two shared terms are parallel and that a group's
@@ -53,6 +53,7 @@ pub fn question(model: &CompiledModel) -> Result<Question, String> {
     let n = model.channels.len();
     let mut range = None;
     let mut differences = Vec::new();
+    let mut bands = Vec::new();
     let mut firing_checks = 0usize;
     for check in &model.checks {
         let (lower, upper) = (check.lower, check.upper);
@@ -78,19 +79,32 @@ pub fn question(model: &CompiledModel) -> Result<Question, String> {
                     format!("check '{}' is neither a range nor linear", check.name)
                 })?;
                 let used: Vec<usize> = (0..n).filter(|i| form.coeffs[*i] != 0.0).collect();
+                if lower == f64::NEG_INFINITY && upper == f64::INFINITY {
+                    continue;
+                }
+                if let [i] = used.as_slice() {
+                    // One channel against fixed limits: lower <= c x + k <= upper.
+                    let c = form.coeffs[*i];
+                    let (l, h) = ((lower - form.constant) / c, (upper - form.constant) / c);
+                    bands.push(ChannelBand {
+                        channel: *i,
+                        lower: l.min(h),
+                        upper: l.max(h),
+                    });
+                    firing_checks += 1;
+                    continue;
+                }
                 let (a, b) = match used.as_slice() {
                     [i, j] if form.coeffs[*i] == 1.0 && form.coeffs[*j] == -1.0 => (*i, *j),
                     [i, j] if form.coeffs[*i] == -1.0 && form.coeffs[*j] == 1.0 => (*j, *i),
                     _ => {
                         return Err(format!(
-                            "check '{}' is not the difference of two channels",
+                            "check '{}' is neither the difference of two channels nor a \
+                             check of one channel",
                             check.name
                         ));
                     }
                 };
-                if lower == f64::NEG_INFINITY && upper == f64::INFINITY {
-                    continue;
-                }
                 differences.push(Difference {
                     a,
                     b,
@@ -123,6 +137,7 @@ pub fn question(model: &CompiledModel) -> Result<Question, String> {
         safe_lower: model.safety_lower,
         safe_upper: model.safety_upper,
         agreement,
+        bands,
     })
 }
 

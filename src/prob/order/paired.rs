@@ -77,8 +77,10 @@ impl LowerSide<'_> {
         let n = self.cond.mean.len();
         for j in 0..n {
             let counted = self.in_output[j];
-            let interval =
-                agreement.and_then(|a| a.pivot.interval_of[j].map(|(al, be)| (a.u + al, a.u + be)));
+            let relative = agreement.and_then(|a| a.pivot.interval_of[j]);
+            let interval = self
+                .cond
+                .confined(j, relative, agreement.map_or(0.0, |a| a.u));
             if !counted && interval.is_none() {
                 continue;
             }
@@ -112,6 +114,7 @@ impl LowerSide<'_> {
             // As the agreement's pivot, at u.
             if let Some(agr) = agreement
                 && agr.pivot.is_candidate[j]
+                && self.cond.band_admits(j, agr.u)
             {
                 let w = (agr.weight)(j);
                 if w != 0.0 {
@@ -182,9 +185,12 @@ impl LowerSide<'_> {
     /// every constrained channel in its interval.
     fn pass_density(&self, agr: AgreementAt) -> f64 {
         let (mut free, mut placed) = (1.0, 0.0);
-        for &(j, alpha, beta) in &agr.pivot.intervals {
-            let inside = self.cond.between(j, agr.u + alpha, agr.u + beta);
-            let w = if agr.pivot.is_candidate[j] {
+        for j in 0..self.cond.mean.len() {
+            let Some((a, b)) = self.cond.confined(j, agr.pivot.interval_of[j], agr.u) else {
+                continue;
+            };
+            let inside = self.cond.between(j, a, b);
+            let w = if agr.pivot.is_candidate[j] && self.cond.band_admits(j, agr.u) {
                 (agr.weight)(j)
             } else {
                 0.0
@@ -224,6 +230,9 @@ impl LowerSide<'_> {
     /// Values of `t` where the integrand steps or kinks.
     fn kth_breaks(&self, agreement: Option<AgreementAt>) -> Vec<f64> {
         let mut levels = vec![self.lo];
+        for (l, h) in self.cond.band.iter().flatten() {
+            levels.extend([*l, *h]);
+        }
         if let Some(g) = agreement {
             levels.push(g.u);
             for &(_, al, be) in &g.pivot.intervals {

@@ -80,6 +80,11 @@ pub(super) fn split(g: &SharedGaussian, q: &Question, sum: &WeightedSum) -> Resu
     {
         return Err("a uniform channel in a weighted-sum output (not normal)".into());
     }
+    if !q.bands.is_empty() {
+        return Err(
+            "checks of single channels against fixed limits with a weighted-sum output".into(),
+        );
+    }
     let s = checked(&q.agreement);
     let output_part = |column: &[f64]| -> f64 {
         let dot: f64 = column.iter().zip(&sum.weights).map(|(c, w)| c * w).sum();
@@ -160,6 +165,7 @@ pub(super) fn point(
                 safe_lower: f64::NEG_INFINITY,
                 safe_upper: f64::INFINITY,
                 agreement: q.agreement.clone(),
+                bands: Vec::new(),
             };
             let r = conditional_figures(cond, &pass_question, &rank, accuracy)?;
             let ([_, _, fail, pass], [_, _, e_fail, e_pass]) = r.point;
