@@ -313,10 +313,9 @@ fn validate_correlations(
                     format!(
                         "the correlations among channels {} are inconsistent: {} cannot hold \
                          together (the correlation matrix of this block is not positive \
-                         semi-definite, smallest eigenvalue {})",
+                         semi-definite, smallest eigenvalue {min:.3e})",
                         names.join(", "),
                         pairs.join(", "),
-                        super::text::short(min)
                     ),
                     "reduce the size of one or more of these rho values",
                 );

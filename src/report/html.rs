@@ -17,14 +17,17 @@
 use std::fmt::Write as _;
 
 use crate::analysis::metrics::{self, Asil, LFM_TARGETS, PMHF_TARGETS_FIT, SPFM_TARGETS};
-use crate::model::{Amplitude, Detection, FaultMode};
+use crate::model::{Detection, FaultMode};
 use crate::prob::Estimate;
 
 use super::ReportInput;
 use super::cautions::CAUTIONS;
 use super::date::Date;
 use super::diagram;
-use super::format::{bound, fit, number, percent_floor, probability, xml_escape as esc};
+use super::format::{
+    AmplitudeStyle, bound, describe_amplitude, fit, number, percent_floor, probability,
+    xml_escape as esc,
+};
 use super::json::{AnalysisJson, SiteJson, document};
 use super::plot::{self, Chart, Marker, ReferenceLine, Scale, Series};
 
@@ -505,7 +508,11 @@ fn inputs(o: &mut String, input: &ReportInput<'_>) {
             esc(&number(f.fit)),
             esc(mode),
             esc(&hits.join(", ")),
-            esc(&amplitude_words(&f.amplitude, f.uniform_is_full_scale)),
+            esc(&describe_amplitude(
+                &f.amplitude,
+                f.uniform_is_full_scale,
+                AmplitudeStyle::Prose
+            )),
             esc(&number(f.latent_coverage))
         );
     }
@@ -523,39 +530,6 @@ fn end(v: f64) -> String {
     }
 }
 
-fn amplitude_words(a: &Amplitude, full_scale: bool) -> String {
-    match a {
-        Amplitude::Gaussian { mean, sigma } => {
-            format!("gaussian, mean {}, σ {}", number(*mean), number(*sigma))
-        }
-        Amplitude::GaussianUnknownSigma {
-            mean,
-            sigma_lo,
-            sigma_hi,
-            defaulted,
-        } => format!(
-            "gaussian, mean {}, σ unknown in [{}, {}]{}",
-            number(*mean),
-            number(*sigma_lo),
-            number(*sigma_hi),
-            if *defaulted { " (default range)" } else { "" }
-        ),
-        Amplitude::Uniform { lower, upper } => format!(
-            "uniform on [{}, {}]{}",
-            number(*lower),
-            number(*upper),
-            if full_scale { " (full scale)" } else { "" }
-        ),
-        Amplitude::Points(points) => {
-            let list: Vec<String> = points
-                .iter()
-                .map(|(v, w)| format!("{} (weight {})", number(*v), number(*w)))
-                .collect();
-            format!("one of {}", list.join(", "))
-        }
-    }
-}
-
 fn assumptions(o: &mut String, input: &ReportInput<'_>, doc: &AnalysisJson) {
     let m = &input.architecture.model;
     section_start(o, "assumptions", 5, "Assumptions");
@@ -568,7 +542,11 @@ fn assumptions(o: &mut String, input: &ReportInput<'_>, doc: &AnalysisJson) {
             o,
             "<li><code>{}</code>: {} ({})</li>",
             esc(&f.name),
-            esc(&amplitude_words(&f.amplitude, f.uniform_is_full_scale)),
+            esc(&describe_amplitude(
+                &f.amplitude,
+                f.uniform_is_full_scale,
+                AmplitudeStyle::Prose
+            )),
             match f.mode {
                 FaultMode::Add { .. } => "added to what it hits",
                 FaultMode::Replace { .. } => "replaces the channel's reading",

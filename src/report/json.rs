@@ -37,6 +37,7 @@ use crate::analysis::engine::FigureMethod;
 use crate::analysis::site::SiteResult;
 
 use super::cautions::CAUTIONS;
+use super::format::{AmplitudeStyle, describe_amplitude};
 use super::{ReportInput, TOOL_VERSION, input_sha256};
 
 /// Error bounds of the four probabilities (and, for a site, of the coverage figures).
@@ -203,7 +204,7 @@ fn site_json(s: &SiteResult) -> SiteJson {
         name: s.name.clone(),
         fit: s.fit,
         mode: s.mode.to_string(),
-        amplitude: s.amplitude.clone(),
+        amplitude: describe_amplitude(&s.amplitude, false, AmplitudeStyle::Compact),
         dc: dc.map(|d| d.value),
         dc_all_dangerous: o.dc_all_dangerous().value,
         p_vd: o.p_vd.value,
