@@ -71,6 +71,8 @@ pub struct NumberStyle {
     pub exponent_decimals: Option<usize>,
     /// Whether trailing zeros (and a trailing point) of plain notation are dropped.
     pub trim: bool,
+    /// Whether those of the mantissa in exponent notation are dropped too (`2.5e3`).
+    pub trim_mantissa: bool,
 }
 
 /// As a file would write it: the shortest form that reads back to the same value, in
@@ -80,6 +82,7 @@ pub const AS_WRITTEN: NumberStyle = NumberStyle {
     plain: Some((1e-4, 1e6)),
     exponent_decimals: None,
     trim: false,
+    trim_mantissa: false,
 };
 
 /// Rust's own shortest plain form (`5400`, `0.002`), never an exponent: the amplitudes of
@@ -89,6 +92,7 @@ pub const PLAIN: NumberStyle = NumberStyle {
     plain: None,
     exponent_decimals: None,
     trim: false,
+    trim_mantissa: false,
 };
 
 /// Four decimals without trailing zeros from 1e-3 to 1e5, four significant digits in
@@ -98,6 +102,17 @@ pub const SHORT_DECIMALS: NumberStyle = NumberStyle {
     plain: Some((1e-3, 1e5)),
     exponent_decimals: Some(3),
     trim: true,
+    trim_mantissa: false,
+};
+
+/// The tick labels of the charts: like [`SHORT_DECIMALS`], but three significant digits
+/// without trailing zeros in exponent notation (`1e-6`, `2.5e5`).
+pub const TICK: NumberStyle = NumberStyle {
+    digits: Digits::Decimals(4),
+    plain: Some((1e-3, 1e5)),
+    exponent_decimals: Some(2),
+    trim: true,
+    trim_mantissa: true,
 };
 
 /// `digits` significant digits, in exponent notation below 1e-4 and from 1e6 on, trailing
@@ -108,6 +123,7 @@ pub const fn significant_style(digits: usize) -> NumberStyle {
         plain: Some((1e-4, 1e6)),
         exponent_decimals: Some(digits.saturating_sub(1)),
         trim: false,
+        trim_mantissa: false,
     }
 }
 
@@ -128,6 +144,7 @@ pub const fn plain_significant_style(digits: usize) -> NumberStyle {
         plain: None,
         exponent_decimals: None,
         trim: true,
+        trim_mantissa: false,
     }
 }
 
@@ -145,9 +162,16 @@ pub fn format_number(x: f64, style: &NumberStyle) -> String {
         .plain
         .is_none_or(|(low, high)| (low..high).contains(&magnitude));
     if !plain {
-        return match style.exponent_decimals {
+        let text = match style.exponent_decimals {
             Some(d) => format!("{x:.d$e}"),
             None => format!("{x:e}"),
+        };
+        return match text.split_once('e') {
+            Some((mantissa, exponent)) if style.trim_mantissa => {
+                let mantissa = mantissa.trim_end_matches('0').trim_end_matches('.');
+                format!("{mantissa}e{exponent}")
+            }
+            _ => text,
         };
     }
     let text = match style.digits {
@@ -380,6 +404,9 @@ mod tests {
         assert_eq!(format_number(1e-7, &PLAIN), "0.0000001");
         assert_eq!(number(3.1433547), "3.1434");
         assert_eq!(number(2e5), "2.000e5");
+        assert_eq!(format_number(2.5e5, &TICK), "2.5e5");
+        assert_eq!(format_number(1e-6, &TICK), "1e-6");
+        assert_eq!(format_number(0.25, &TICK), "0.25");
         assert_eq!(band(-2.0, f64::INFINITY), "[-2, inf]");
         assert_eq!(outside(f64::NEG_INFINITY, 3.0, "deg"), "above 3 deg");
     }

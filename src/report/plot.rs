@@ -19,7 +19,7 @@ use plotters::coord::types::RangedCoordf64;
 use plotters::prelude::*;
 use plotters::style::text_anchor::{HPos, Pos, VPos};
 
-use super::format::wrap;
+use super::format::{TICK, format_number, wrap};
 
 /// One named line of points.
 #[derive(Debug, Clone, PartialEq)]
@@ -313,26 +313,10 @@ fn max(values: impl Iterator<Item = f64>) -> Option<f64> {
     values.reduce(f64::max)
 }
 
-/// A tick label: plain decimals between 0.001 and 100 000, else `1e-6` style.
+/// A tick label: plain decimals between 0.001 and 100 000, else `1e-6` style
+/// ([`TICK`]).
 pub fn tick_label(value: f64) -> String {
-    if value == 0.0 {
-        return "0".to_string();
-    }
-    let a = value.abs();
-    if (1e-3..1e5).contains(&a) {
-        let s = format!("{value:.4}");
-        s.trim_end_matches('0').trim_end_matches('.').to_string()
-    } else {
-        let s = format!("{value:.2e}");
-        // 1.00e-6 -> 1e-6, 2.50e3 -> 2.5e3
-        match s.split_once('e') {
-            Some((mantissa, exponent)) => {
-                let m = mantissa.trim_end_matches('0').trim_end_matches('.');
-                format!("{m}e{exponent}")
-            }
-            None => s,
-        }
-    }
+    format_number(value, &TICK)
 }
 
 /// Draws `chart` as an SVG document (font sizes in the SVG are those of plotters, which
