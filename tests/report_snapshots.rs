@@ -1,5 +1,5 @@
 //! Golden-file (snapshot) tests of every output format of `analyze`, `compare`, `tune`,
-//! `sweep`, `check` and `report` on the bundled examples.
+//! `sweep`, `check` and `report` on the bundled examples, and of `selftest`.
 //!
 //! These are regression guards, not correctness checks: a golden file holds what concord
 //! wrote when it was last reviewed by eye, and the test fails on any byte that differs. The
@@ -270,4 +270,10 @@ fn report_html() {
         ]);
         assert_snapshot(&format!("report_{name}.html"), &read(&html));
     }
+}
+
+#[test]
+fn selftest_every_format() {
+    assert_snapshot("selftest.txt", &concord(&["selftest"]));
+    assert_snapshot("selftest.json", &concord(&["selftest", "--format", "json"]));
 }
