@@ -22,12 +22,12 @@ fn pieces(n: usize) -> String {
 
 /// Entry `i` of a vector, NaN when missing (a hand-built model with inconsistent sizes prints
 /// NaN instead of panicking).
-fn at(v: &[f64], i: usize) -> f64 {
+fn entry(v: &[f64], i: usize) -> f64 {
     v.get(i).copied().unwrap_or(f64::NAN)
 }
 
 /// Entry `(i, j)` of a matrix, NaN when missing.
-fn at2(m: &nalgebra::DMatrix<f64>, i: usize, j: usize) -> f64 {
+fn matrix_entry(m: &nalgebra::DMatrix<f64>, i: usize, j: usize) -> f64 {
     m.get((i, j)).copied().unwrap_or(f64::NAN)
 }
 
@@ -66,12 +66,12 @@ pub fn describe(arch: &Architecture) -> String {
         );
         for (j, s) in m.sources.iter().enumerate() {
             let feeds: Vec<String> = (0..m.channels.len())
-                .filter(|i| at2(&m.source_gains, *i, j) != 0.0)
+                .filter(|i| matrix_entry(&m.source_gains, *i, j) != 0.0)
                 .map(|i| {
                     format!(
                         "{} x {}",
                         m.channels[i],
-                        as_written(at2(&m.source_gains, i, j))
+                        as_written(matrix_entry(&m.source_gains, i, j))
                     )
                 })
                 .collect();
@@ -79,8 +79,8 @@ pub fn describe(arch: &Architecture) -> String {
                 o,
                 "  {:<w$}  {:>10}  {:>10}  {}",
                 s,
-                as_written(at(&m.source_means, j)),
-                as_written(at(&m.source_sigmas, j)),
+                as_written(entry(&m.source_means, j)),
+                as_written(entry(&m.source_sigmas, j)),
                 if feeds.is_empty() {
                     "(nothing)".into()
                 } else {
@@ -98,15 +98,15 @@ pub fn describe(arch: &Architecture) -> String {
         "name", "mean", "own sigma", "total sigma", "total mean"
     );
     for (i, c) in m.channels.iter().enumerate() {
-        let own_mean = at(&m.own_means, i);
+        let own_mean = entry(&m.own_means, i);
         let _ = writeln!(
             o,
             "  {:<w$}  {:>10}  {:>10}  {:>11}  {:>10}",
             c,
             as_written(own_mean),
-            as_written(at(&m.own_sigmas, i)),
-            format_number(at(&total, i), &significant_style(4)),
-            format_number(at(&m.mean, i), &short_style(4))
+            as_written(entry(&m.own_sigmas, i)),
+            format_number(entry(&total, i), &significant_style(4)),
+            format_number(entry(&m.mean, i), &short_style(4))
         );
     }
 
@@ -126,7 +126,7 @@ pub fn describe(arch: &Architecture) -> String {
         for (i, c) in m.channels.iter().enumerate() {
             let mut row = format!("  {:<w$}", truncate(c, w));
             for j in 0..n {
-                let _ = write!(row, " {:>6.3}", at2(&r, i, j));
+                let _ = write!(row, " {:>6.3}", matrix_entry(&r, i, j));
             }
             let _ = writeln!(o, "{row}");
         }

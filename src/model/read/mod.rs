@@ -49,11 +49,11 @@ pub(crate) fn read(root: &Node, sink: &mut Sink<'_>) -> RawModel {
         names_incomplete: false,
         channels_given: false,
     };
-    let Some(mut top) = Tbl::of(root, "", sink) else {
+    let Some(mut top) = TableReader::of(root, "", sink) else {
         return model;
     };
-    model.name = top.req_str(sink, "name", "name = \"Dual hall channels, averaged\"");
-    model.unit = top.req_str(sink, "unit", "unit = \"deg\"");
+    model.name = top.required_string(sink, "name", "name = \"Dual hall channels, averaged\"");
+    model.unit = top.required_string(sink, "unit", "unit = \"deg\"");
     if let Some(e) = top.take("full_scale") {
         model.full_scale = pair(sink, &e.value, "full_scale", "full_scale = [-540.0, 540.0]");
     }
@@ -131,7 +131,7 @@ pub(crate) fn read(root: &Node, sink: &mut Sink<'_>) -> RawModel {
     }
     match top.take("safety") {
         Some(e) => {
-            if let Some(mut t) = Tbl::of(&e.value, "safety", sink) {
+            if let Some(mut t) = TableReader::of(&e.value, "safety", sink) {
                 let band = read_band(sink, &mut t, "safety");
                 t.finish(sink, &["limit", "lower", "upper"]);
                 model.safety = Some(band);

@@ -8,10 +8,10 @@ use crate::model::raw::*;
 use crate::model::tree::{Entry, Node, Value};
 
 /// The `of` of a signal, output or check: a name, a list of names or a table of weights.
-pub(super) fn args(sink: &mut Sink<'_>, node: &Node, key: &str) -> Option<Sp<Args>> {
+pub(super) fn args(sink: &mut Sink<'_>, node: &Node, key: &str) -> Option<Spanned<Args>> {
     let example = "of = [\"a\", \"b\"], of = \"a\" or of = { a = 0.5, b = 0.5 }";
     match &node.value {
-        Value::Str(s) => Some(sp(Args::One(sp(s.clone(), node, key)), node, key)),
+        Value::Str(s) => Some(spanned(Args::One(spanned(s.clone(), node, key)), node, key)),
         Value::Array(items) => {
             if items.len() > limits::MAX_ARGS {
                 sink.error(
@@ -39,10 +39,10 @@ pub(super) fn args(sink: &mut Sink<'_>, node: &Node, key: &str) -> Option<Sp<Arg
                     None => ok = false,
                 }
             }
-            ok.then(|| sp(Args::List(names), node, key))
+            ok.then(|| spanned(Args::List(names), node, key))
         }
         Value::Table(_) => {
-            weights(sink, node, key, example).map(|w| sp(Args::Weights(w), node, key))
+            weights(sink, node, key, example).map(|w| spanned(Args::Weights(w), node, key))
         }
         _ => {
             type_error(sink, node, key, "names", example);
@@ -58,32 +58,32 @@ pub(super) const RENAMED_CHECK_KINDS: [(&str, &str, &str); 1] =
 
 pub(super) fn read_source(
     sink: &mut Sink<'_>,
-    name: Sp<String>,
-    mut t: Tbl<'_>,
+    name: Spanned<String>,
+    mut t: TableReader<'_>,
 ) -> Option<RawSource> {
     let mean = t
-        .opt_num(sink, "mean", "mean = 0.0")
-        .unwrap_or_else(|| Sp::new(0.0, t.span, t.path("mean")));
+        .optional_number(sink, "mean", "mean = 0.0")
+        .unwrap_or_else(|| Spanned::new(0.0, t.span, t.path("mean")));
     // a missing or unreadable sigma is reported; 0 stands in so that the name stays defined
     let sigma = t
-        .req_num(sink, "sigma", "sigma = 0.1")
-        .unwrap_or_else(|| Sp::new(0.0, t.span, t.path("sigma")));
+        .required_number(sink, "sigma", "sigma = 0.1")
+        .unwrap_or_else(|| Spanned::new(0.0, t.span, t.path("sigma")));
     t.finish(sink, &["mean", "sigma"]);
     Some(RawSource { name, mean, sigma })
 }
 
 pub(super) fn read_channel(
     sink: &mut Sink<'_>,
-    name: Sp<String>,
-    mut t: Tbl<'_>,
+    name: Spanned<String>,
+    mut t: TableReader<'_>,
 ) -> Option<RawChannel> {
     let mean = t
-        .opt_num(sink, "mean", "mean = 0.0")
-        .unwrap_or_else(|| Sp::new(0.0, t.span, t.path("mean")));
+        .optional_number(sink, "mean", "mean = 0.0")
+        .unwrap_or_else(|| Spanned::new(0.0, t.span, t.path("mean")));
     // a missing or unreadable sigma is reported; 0 stands in so that the name stays defined
     let sigma = t
-        .req_num(sink, "sigma", "sigma = 0.5")
-        .unwrap_or_else(|| Sp::new(0.0, t.span, t.path("sigma")));
+        .required_number(sink, "sigma", "sigma = 0.5")
+        .unwrap_or_else(|| Spanned::new(0.0, t.span, t.path("sigma")));
     let from = match t.take("from") {
         Some(e) => {
             weights(sink, &e.value, &t.path("from"), "from = { vref = 1.0 }").unwrap_or_default()
@@ -122,7 +122,7 @@ pub(super) fn read_correlations(sink: &mut Sink<'_>, node: &Node) -> Vec<RawCorr
     let mut out = Vec::new();
     for (i, item) in items.iter().enumerate() {
         let key = format!("correlations[{i}]");
-        let Some(mut t) = Tbl::of(item, &key, sink) else {
+        let Some(mut t) = TableReader::of(item, &key, sink) else {
             continue;
         };
         let between_key = t.path("between");
@@ -163,7 +163,7 @@ pub(super) fn read_correlations(sink: &mut Sink<'_>, node: &Node) -> Vec<RawCorr
                 None
             }
         };
-        let rho = t.req_num(sink, "rho", "rho = 0.2");
+        let rho = t.required_number(sink, "rho", "rho = 0.2");
         t.finish(sink, &["between", "rho"]);
         out.push(RawCorrelation {
             key,
@@ -175,7 +175,11 @@ pub(super) fn read_correlations(sink: &mut Sink<'_>, node: &Node) -> Vec<RawCorr
     out
 }
 
-pub(super) fn read_signal(sink: &mut Sink<'_>, name: Sp<String>, mut t: Tbl<'_>) -> RawSignal {
+pub(super) fn read_signal(
+    sink: &mut Sink<'_>,
+    name: Spanned<String>,
+    mut t: TableReader<'_>,
+) -> RawSignal {
     let kind = kind(
         sink,
         &mut t,
@@ -188,7 +192,7 @@ pub(super) fn read_signal(sink: &mut Sink<'_>, name: Sp<String>, mut t: Tbl<'_>)
         &[],
     );
     let of = read_of(sink, &mut t);
-    let constant = t.opt_num(sink, "constant", "constant = 0.0");
+    let constant = t.optional_number(sink, "constant", "constant = 0.0");
     t.finish(sink, &["kind", "of", "constant"]);
     RawSignal {
         name,
@@ -198,7 +202,7 @@ pub(super) fn read_signal(sink: &mut Sink<'_>, name: Sp<String>, mut t: Tbl<'_>)
     }
 }
 
-pub(super) fn read_of(sink: &mut Sink<'_>, t: &mut Tbl<'_>) -> Option<Sp<Args>> {
+pub(super) fn read_of(sink: &mut Sink<'_>, t: &mut TableReader<'_>) -> Option<Spanned<Args>> {
     let key = t.path("of");
     match t.take("of") {
         Some(e) => args(sink, &e.value, &key),
@@ -215,7 +219,7 @@ pub(super) fn read_of(sink: &mut Sink<'_>, t: &mut Tbl<'_>) -> Option<Sp<Args>> 
 }
 
 pub(super) fn read_output(sink: &mut Sink<'_>, node: &Node) -> Option<RawOutput> {
-    let mut t = Tbl::of(node, "output", sink)?;
+    let mut t = TableReader::of(node, "output", sink)?;
     let kind = kind(
         sink,
         &mut t,
@@ -231,7 +235,7 @@ pub(super) fn read_output(sink: &mut Sink<'_>, node: &Node) -> Option<RawOutput>
         &[],
     );
     let of = read_of(sink, &mut t);
-    let constant = t.opt_num(sink, "constant", "constant = 0.0");
+    let constant = t.optional_number(sink, "constant", "constant = 0.0");
     t.finish(sink, &["kind", "of", "constant"]);
     Some(RawOutput {
         span: node.span,
@@ -241,11 +245,11 @@ pub(super) fn read_output(sink: &mut Sink<'_>, node: &Node) -> Option<RawOutput>
     })
 }
 
-pub(super) fn read_band(sink: &mut Sink<'_>, t: &mut Tbl<'_>, key: &str) -> RawBand {
+pub(super) fn read_band(sink: &mut Sink<'_>, t: &mut TableReader<'_>, key: &str) -> RawBand {
     let present = ["limit", "lower", "upper"].map(|k| t.entries.iter().any(|e| e.key == k));
-    let limit = t.opt_num(sink, "limit", "limit = 2.0");
-    let lower = t.opt_num(sink, "lower", "lower = -2.0");
-    let upper = t.opt_num(sink, "upper", "upper = 2.0");
+    let limit = t.optional_number(sink, "limit", "limit = 2.0");
+    let lower = t.optional_number(sink, "lower", "lower = -2.0");
+    let upper = t.optional_number(sink, "upper", "upper = 2.0");
     let broken = (present[0] && limit.is_none())
         || (present[1] && lower.is_none())
         || (present[2] && upper.is_none());
@@ -259,7 +263,11 @@ pub(super) fn read_band(sink: &mut Sink<'_>, t: &mut Tbl<'_>, key: &str) -> RawB
     }
 }
 
-pub(super) fn read_check(sink: &mut Sink<'_>, name: Sp<String>, mut t: Tbl<'_>) -> RawCheck {
+pub(super) fn read_check(
+    sink: &mut Sink<'_>,
+    name: Spanned<String>,
+    mut t: TableReader<'_>,
+) -> RawCheck {
     let kind = kind(
         sink,
         &mut t,
@@ -272,7 +280,7 @@ pub(super) fn read_check(sink: &mut Sink<'_>, name: Sp<String>, mut t: Tbl<'_>) 
         &RENAMED_CHECK_KINDS,
     );
     let of = read_of(sink, &mut t);
-    let constant = t.opt_num(sink, "constant", "constant = 0.0");
+    let constant = t.optional_number(sink, "constant", "constant = 0.0");
     let band = read_band(sink, &mut t, &name.key);
     t.finish(sink, &["kind", "of", "constant", "limit", "lower", "upper"]);
     RawCheck {
@@ -284,14 +292,14 @@ pub(super) fn read_check(sink: &mut Sink<'_>, name: Sp<String>, mut t: Tbl<'_>) 
     }
 }
 
-pub(super) fn read_detection(sink: &mut Sink<'_>, node: &Node) -> Option<Sp<RawFires>> {
-    let mut t = Tbl::of(node, "detection", sink)?;
+pub(super) fn read_detection(sink: &mut Sink<'_>, node: &Node) -> Option<Spanned<RawFires>> {
+    let mut t = TableReader::of(node, "detection", sink)?;
     let key = t.path("fires");
     let example = "fires = \"any\" or fires = { at_least = 2 }";
     let fires = match t.take("fires") {
-        None => Some(Sp::new(RawFires::Any, t.span, key.clone())),
+        None => Some(Spanned::new(RawFires::Any, t.span, key.clone())),
         Some(e) => match &e.value.value {
-            Value::Str(s) if s == "any" => Some(sp(RawFires::Any, &e.value, &key)),
+            Value::Str(s) if s == "any" => Some(spanned(RawFires::Any, &e.value, &key)),
             Value::Str(s) => {
                 sink.error(
                     e.value.span,
@@ -302,10 +310,10 @@ pub(super) fn read_detection(sink: &mut Sink<'_>, node: &Node) -> Option<Sp<RawF
                 None
             }
             Value::Table(_) => {
-                let mut ft = Tbl::of(&e.value, &key, sink)?;
+                let mut ft = TableReader::of(&e.value, &key, sink)?;
                 let k = ft
                     .take("at_least")
-                    .and_then(|a| int(sink, &a.value, &join(&key, "at_least"), "at_least = 2"));
+                    .and_then(|a| integer(sink, &a.value, &join(&key, "at_least"), "at_least = 2"));
                 if k.is_none() && ft.entries.iter().all(|x| x.key != "at_least") {
                     sink.error(
                         e.value.span,
@@ -315,7 +323,7 @@ pub(super) fn read_detection(sink: &mut Sink<'_>, node: &Node) -> Option<Sp<RawF
                     );
                 }
                 ft.finish(sink, &["at_least"]);
-                k.map(|k| sp(RawFires::AtLeast(k), &e.value, &key))
+                k.map(|k| spanned(RawFires::AtLeast(k), &e.value, &key))
             }
             _ => {
                 type_error(sink, &e.value, &key, "\"any\" or { at_least = k }", example);
@@ -327,12 +335,16 @@ pub(super) fn read_detection(sink: &mut Sink<'_>, node: &Node) -> Option<Sp<RawF
     fires
 }
 
-pub(super) fn read_fault(sink: &mut Sink<'_>, name: Sp<String>, mut t: Tbl<'_>) -> RawFault {
-    let fit = t.req_num(sink, "fit", "fit = 10.0");
+pub(super) fn read_fault(
+    sink: &mut Sink<'_>,
+    name: Spanned<String>,
+    mut t: TableReader<'_>,
+) -> RawFault {
+    let fit = t.required_number(sink, "fit", "fit = 10.0");
     let hits_key = t.path("hits");
     let hits = match t.take("hits") {
         Some(e) => weights(sink, &e.value, &hits_key, "hits = { a = 1.0 }")
-            .map(|w| sp(w, &e.value, &hits_key)),
+            .map(|w| spanned(w, &e.value, &hits_key)),
         None => {
             sink.error(
                 t.span,
@@ -346,7 +358,7 @@ pub(super) fn read_fault(sink: &mut Sink<'_>, name: Sp<String>, mut t: Tbl<'_>) 
     let mode_key = t.path("mode");
     let mode = match t.take("mode") {
         Some(e) => string(sink, &e.value, &mode_key, "mode = \"add\"").and_then(|s| {
-            match s.v.as_str() {
+            match s.value.as_str() {
                 "add" => Some(Mode::Add),
                 "replace" => Some(Mode::Replace),
                 other => {
@@ -359,8 +371,8 @@ pub(super) fn read_fault(sink: &mut Sink<'_>, name: Sp<String>, mut t: Tbl<'_>) 
                     None
                 }
             }
-            .map(|m| Sp {
-                v: m,
+            .map(|m| Spanned {
+                value: m,
                 span: s.span,
                 key: s.key.clone(),
                 overridden: false,
@@ -389,7 +401,7 @@ pub(super) fn read_fault(sink: &mut Sink<'_>, name: Sp<String>, mut t: Tbl<'_>) 
             None
         }
     };
-    let latent_coverage = t.opt_num(sink, "latent_coverage", "latent_coverage = 0.9");
+    let latent_coverage = t.optional_number(sink, "latent_coverage", "latent_coverage = 0.9");
     t.finish(
         sink,
         &["fit", "hits", "mode", "amplitude", "latent_coverage"],
@@ -410,7 +422,7 @@ pub(super) fn read_amplitude(
     sink: &mut Sink<'_>,
     node: &Node,
     key: &str,
-) -> Option<Sp<RawAmplitude>> {
+) -> Option<Spanned<RawAmplitude>> {
     let example = "amplitude = { gaussian = { mean = 0.0, sigma = 1.5 } }, \
                    amplitude = { uniform = \"full_scale\" } or \
                    amplitude = { points = [[540.0, 0.5], [-540.0, 0.5]] }";
@@ -422,7 +434,7 @@ pub(super) fn read_amplitude(
         .iter()
         .filter(|e| AMPLITUDE_KINDS.contains(&e.key.as_str()))
         .collect();
-    let mut t = Tbl::of(node, key, sink)?;
+    let mut t = TableReader::of(node, key, sink)?;
     if known.len() != 1 {
         let message = if known.is_empty() {
             "gives no amplitude model".to_string()
@@ -464,21 +476,21 @@ pub(super) fn read_amplitude(
             _ => {
                 let p = pair(sink, &e.value, &sub, "uniform = [-10.0, 10.0]")?;
                 RawAmplitude::Uniform(
-                    Sp::new(p.v.0, p.span, format!("{sub}[0]")),
-                    Sp::new(p.v.1, p.span, format!("{sub}[1]")),
+                    Spanned::new(p.value.0, p.span, format!("{sub}[0]")),
+                    Spanned::new(p.value.1, p.span, format!("{sub}[1]")),
                 )
             }
         },
         _ => read_points(sink, &e.value, &sub)?,
     };
-    Some(sp(amp, &e.value, &sub))
+    Some(spanned(amp, &e.value, &sub))
 }
 
 pub(super) fn read_gaussian(sink: &mut Sink<'_>, node: &Node, key: &str) -> Option<RawAmplitude> {
-    let mut t = Tbl::of(node, key, sink)?;
+    let mut t = TableReader::of(node, key, sink)?;
     let mean = t
-        .opt_num(sink, "mean", "mean = 0.0")
-        .unwrap_or_else(|| Sp::new(0.0, t.span, t.path("mean")));
+        .optional_number(sink, "mean", "mean = 0.0")
+        .unwrap_or_else(|| Spanned::new(0.0, t.span, t.path("mean")));
     let sigma_key = t.path("sigma");
     let example = "sigma = 1.5, sigma = \"unknown\" or sigma = { unknown = [0.01, 1000.0] }";
     let sigma = match t.take("sigma") {
@@ -503,7 +515,7 @@ pub(super) fn read_gaussian(sink: &mut Sink<'_>, node: &Node, key: &str) -> Opti
                 None
             }
             Value::Table(_) => {
-                let mut st = Tbl::of(&e.value, &sigma_key, sink)?;
+                let mut st = TableReader::of(&e.value, &sigma_key, sink)?;
                 let r = match st.take("unknown") {
                     Some(u) => pair(
                         sink,
@@ -513,8 +525,8 @@ pub(super) fn read_gaussian(sink: &mut Sink<'_>, node: &Node, key: &str) -> Opti
                     )
                     .map(|p| {
                         RawSigma::UnknownRange(
-                            Sp::new(p.v.0, p.span, format!("{}[0]", p.key)),
-                            Sp::new(p.v.1, p.span, format!("{}[1]", p.key)),
+                            Spanned::new(p.value.0, p.span, format!("{}[0]", p.key)),
+                            Spanned::new(p.value.1, p.span, format!("{}[1]", p.key)),
                         )
                     }),
                     None => {
@@ -530,9 +542,9 @@ pub(super) fn read_gaussian(sink: &mut Sink<'_>, node: &Node, key: &str) -> Opti
                 st.finish(sink, &["unknown"]);
                 r
             }
-            _ => num(sink, &e.value, &sigma_key, example).map(RawSigma::Known),
+            _ => number(sink, &e.value, &sigma_key, example).map(RawSigma::Known),
         }
-        .map(|s| sp(s, &e.value, &sigma_key)),
+        .map(|s| spanned(s, &e.value, &sigma_key)),
     };
     t.finish(sink, &["mean", "sigma"]);
     Some(RawAmplitude::Gaussian {
@@ -572,8 +584,8 @@ pub(super) fn read_points(sink: &mut Sink<'_>, node: &Node, key: &str) -> Option
         let k = format!("{key}[{i}]");
         match &item.value {
             Value::Array(vw) if vw.len() == 2 => {
-                let v = num(sink, &vw[0], &format!("{k}[0]"), example);
-                let w = num(sink, &vw[1], &format!("{k}[1]"), example);
+                let v = number(sink, &vw[0], &format!("{k}[0]"), example);
+                let w = number(sink, &vw[1], &format!("{k}[1]"), example);
                 match v.zip(w) {
                     Some(p) => points.push(p),
                     None => ok = false,

@@ -1,4 +1,4 @@
-//! The reading toolkit: a table being read ([`Tbl`], which reports unknown keys), typed
+//! The reading toolkit: a table being read ([`TableReader`], which reports unknown keys), typed
 //! values with their spans (numbers, integers, strings, pairs, weights, kind keywords),
 //! named sub-tables, and the suggestions for misspelt keys. Nothing here knows a section of
 //! the file; `sections.rs` reads those with it.
@@ -18,18 +18,18 @@ pub(super) fn join(parent: &str, key: &str) -> String {
 }
 
 /// A table being read: remembers which keys were used, to report the others.
-pub(crate) struct Tbl<'n> {
+pub(crate) struct TableReader<'n> {
     pub(super) entries: &'n [Entry],
     used: Vec<bool>,
     pub key: String,
     pub span: Span,
 }
 
-impl<'n> Tbl<'n> {
+impl<'n> TableReader<'n> {
     /// The node as a table, or an error saying it must be one.
-    pub(super) fn of(node: &'n Node, key: &str, sink: &mut Sink<'_>) -> Option<Tbl<'n>> {
+    pub(super) fn of(node: &'n Node, key: &str, sink: &mut Sink<'_>) -> Option<TableReader<'n>> {
         match &node.value {
-            Value::Table(entries) => Some(Tbl {
+            Value::Table(entries) => Some(TableReader {
                 entries,
                 used: vec![false; entries.len()],
                 key: key.to_string(),
@@ -76,14 +76,14 @@ impl<'n> Tbl<'n> {
         }
     }
 
-    pub(super) fn req_num(
+    pub(super) fn required_number(
         &mut self,
         sink: &mut Sink<'_>,
         k: &str,
         example: &str,
-    ) -> Option<Sp<f64>> {
+    ) -> Option<Spanned<f64>> {
         match self.take(k) {
-            Some(e) => num(sink, &e.value, &self.path(k), example),
+            Some(e) => number(sink, &e.value, &self.path(k), example),
             None => {
                 sink.error(
                     self.span,
@@ -96,22 +96,22 @@ impl<'n> Tbl<'n> {
         }
     }
 
-    pub(super) fn opt_num(
+    pub(super) fn optional_number(
         &mut self,
         sink: &mut Sink<'_>,
         k: &str,
         example: &str,
-    ) -> Option<Sp<f64>> {
+    ) -> Option<Spanned<f64>> {
         let e = self.take(k)?;
-        num(sink, &e.value, &self.path(k), example)
+        number(sink, &e.value, &self.path(k), example)
     }
 
-    pub(super) fn req_str(
+    pub(super) fn required_string(
         &mut self,
         sink: &mut Sink<'_>,
         k: &str,
         example: &str,
-    ) -> Option<Sp<String>> {
+    ) -> Option<Spanned<String>> {
         match self.take(k) {
             Some(e) => string(sink, &e.value, &self.path(k), example),
             None => {
@@ -153,9 +153,9 @@ pub(crate) fn edit_distance(a: &str, b: &str) -> usize {
     prev[b.len()]
 }
 
-pub(super) fn sp<T>(v: T, node: &Node, key: &str) -> Sp<T> {
-    Sp {
-        v,
+pub(super) fn spanned<T>(v: T, node: &Node, key: &str) -> Spanned<T> {
+    Spanned {
+        value: v,
         span: node.span,
         key: key.to_string(),
         overridden: node.overridden,
@@ -177,13 +177,18 @@ pub(super) fn type_error(
 }
 
 /// A finite number (TOML integer or float).
-pub(super) fn num(sink: &mut Sink<'_>, node: &Node, key: &str, example: &str) -> Option<Sp<f64>> {
+pub(super) fn number(
+    sink: &mut Sink<'_>,
+    node: &Node,
+    key: &str,
+    example: &str,
+) -> Option<Spanned<f64>> {
     match &node.value {
         Value::Int(Some(i)) if (*i as f64).abs() <= limits::MAX_MAGNITUDE => {
-            Some(sp(*i as f64, node, key))
+            Some(spanned(*i as f64, node, key))
         }
         Value::Float(x) if x.is_finite() && x.abs() <= limits::MAX_MAGNITUDE => {
-            Some(sp(*x, node, key))
+            Some(spanned(*x, node, key))
         }
         Value::Int(Some(_)) | Value::Float(_) if value_is_finite(&node.value) => {
             let shown = match &node.value {
@@ -213,7 +218,7 @@ pub(super) fn num(sink: &mut Sink<'_>, node: &Node, key: &str, example: &str) ->
             None
         }
         Value::Float(x) => {
-            let s = sp(*x, node, key);
+            let s = spanned(*x, node, key);
             s.error(
                 sink,
                 format!("{x} is not a finite number"),
@@ -237,13 +242,18 @@ pub(super) fn value_is_finite(value: &Value) -> bool {
 }
 
 /// An integer (an override may give it as an integral float).
-pub(super) fn int(sink: &mut Sink<'_>, node: &Node, key: &str, example: &str) -> Option<Sp<i64>> {
+pub(super) fn integer(
+    sink: &mut Sink<'_>,
+    node: &Node,
+    key: &str,
+    example: &str,
+) -> Option<Spanned<i64>> {
     match &node.value {
-        Value::Int(Some(i)) => Some(sp(*i, node, key)),
+        Value::Int(Some(i)) => Some(spanned(*i, node, key)),
         Value::Float(x)
             if node.overridden && x.fract() == 0.0 && x.abs() < limits::MAX_EXACT_INT =>
         {
-            Some(sp(*x as i64, node, key))
+            Some(spanned(*x as i64, node, key))
         }
         _ => {
             type_error(sink, node, key, "an integer", example);
@@ -257,9 +267,9 @@ pub(super) fn string(
     node: &Node,
     key: &str,
     example: &str,
-) -> Option<Sp<String>> {
+) -> Option<Spanned<String>> {
     match &node.value {
-        Value::Str(s) => Some(sp(s.clone(), node, key)),
+        Value::Str(s) => Some(spanned(s.clone(), node, key)),
         _ => {
             type_error(sink, node, key, "a string", example);
             None
@@ -273,7 +283,7 @@ pub(super) fn pair(
     node: &Node,
     key: &str,
     example: &str,
-) -> Option<Sp<(f64, f64)>> {
+) -> Option<Spanned<(f64, f64)>> {
     let Value::Array(items) = &node.value else {
         type_error(sink, node, key, "an array of two numbers", example);
         return None;
@@ -290,23 +300,23 @@ pub(super) fn pair(
         );
         return None;
     }
-    let a = num(sink, &items[0], &format!("{key}[0]"), example);
-    let b = num(sink, &items[1], &format!("{key}[1]"), example);
-    Some(sp((a?.v, b?.v), node, key))
+    let a = number(sink, &items[0], &format!("{key}[0]"), example);
+    let b = number(sink, &items[1], &format!("{key}[1]"), example);
+    Some(spanned((a?.value, b?.value), node, key))
 }
 
 /// A name used as a table key (channel, source, signal, check, fault).
-pub(super) fn name_of(sink: &mut Sink<'_>, e: &Entry, section: &str) -> Sp<String> {
+pub(super) fn name_of(sink: &mut Sink<'_>, e: &Entry, section: &str) -> Spanned<String> {
     let key = join(section, &e.key);
-    let name = Sp::new(e.key.clone(), e.key_span, key);
+    let name = Spanned::new(e.key.clone(), e.key_span, key);
     check_name(sink, &name);
     name
 }
 
 /// Names are letters, digits and `_`, starting with a letter or `_`, at most 64 characters,
 /// so that they read well in formulas and in Graphviz.
-pub(crate) fn check_name(sink: &mut Sink<'_>, name: &Sp<String>) {
-    let s = &name.v;
+pub(crate) fn check_name(sink: &mut Sink<'_>, name: &Spanned<String>) {
+    let s = &name.value;
     let mut chars = s.chars();
     let first_ok = chars
         .next()
@@ -333,7 +343,7 @@ pub(super) fn named_tables<'n>(
     section: &str,
     incomplete: &mut bool,
     example: &str,
-) -> Vec<(Sp<String>, Tbl<'n>)> {
+) -> Vec<(Spanned<String>, TableReader<'n>)> {
     let Some(entries) = e.value.entries() else {
         *incomplete = true;
         sink.error(
@@ -350,7 +360,7 @@ pub(super) fn named_tables<'n>(
     let mut out = Vec::new();
     for entry in entries {
         let name = name_of(sink, entry, section);
-        match Tbl::of(&entry.value, &name.key, sink) {
+        match TableReader::of(&entry.value, &name.key, sink) {
             Some(t) => out.push((name, t)),
             None => *incomplete = true,
         }
@@ -385,13 +395,13 @@ pub(super) fn weights(
     let mut out = Vec::new();
     for e in entries {
         let k = join(key, &e.key);
-        let name = Sp {
-            v: e.key.clone(),
+        let name = Spanned {
+            value: e.key.clone(),
             span: e.key_span,
             key: k.clone(),
             overridden: false,
         };
-        if let Some(w) = num(sink, &e.value, &k, example) {
+        if let Some(w) = number(sink, &e.value, &k, example) {
             out.push((name, w));
         }
     }
@@ -401,10 +411,10 @@ pub(super) fn weights(
 /// A kind keyword out of `allowed`.
 pub(super) fn kind<T: Copy>(
     sink: &mut Sink<'_>,
-    t: &mut Tbl<'_>,
+    t: &mut TableReader<'_>,
     allowed: &[(&str, T)],
     renamed: &[(&str, &str, &str)],
-) -> Option<Sp<T>> {
+) -> Option<Spanned<T>> {
     let key = t.path("kind");
     let names: Vec<&str> = allowed.iter().map(|(n, _)| *n).collect();
     let example = format!("kind = \"{}\"", names.first().copied().unwrap_or(""));
@@ -418,15 +428,15 @@ pub(super) fn kind<T: Copy>(
         return None;
     };
     let s = string(sink, &e.value, &key, &example)?;
-    match allowed.iter().find(|(n, _)| *n == s.v) {
-        Some((_, k)) => Some(Sp {
-            v: *k,
+    match allowed.iter().find(|(n, _)| *n == s.value) {
+        Some((_, k)) => Some(Spanned {
+            value: *k,
             span: s.span,
             key: s.key,
             overridden: false,
         }),
         None => {
-            if let Some((old, new, what)) = renamed.iter().find(|(o, _, _)| *o == s.v) {
+            if let Some((old, new, what)) = renamed.iter().find(|(o, _, _)| *o == s.value) {
                 s.error(
                     sink,
                     format!("the kind \"{old}\" was renamed to \"{new}\" ({what})"),
@@ -435,10 +445,10 @@ pub(super) fn kind<T: Copy>(
                 return None;
             }
             let mut fix = format!("use one of {}", quoted(&names));
-            if let Some(g) = suggest(&s.v, &names) {
+            if let Some(g) = suggest(&s.value, &names) {
                 fix = format!("did you mean \"{g}\"? Kinds: {}", quoted(&names));
             }
-            s.error(sink, format!("unknown kind \"{}\"", s.v), fix);
+            s.error(sink, format!("unknown kind \"{}\"", s.value), fix);
             None
         }
     }

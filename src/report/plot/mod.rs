@@ -184,7 +184,7 @@ const CAPTION_CHAR: u32 = 6;
 const TITLE_BAND: u32 = 30;
 
 /// The drawable data of a chart after skipping what cannot be drawn.
-struct Prepared {
+struct DrawableChart {
     series: Vec<(String, Vec<(f64, f64)>)>,
     reference_lines: Vec<ReferenceLine>,
     markers: Vec<Marker>,
@@ -246,7 +246,7 @@ fn padded(
     }
 }
 
-fn prepare(chart: &Chart) -> Result<Prepared, PlotError> {
+fn prepare(chart: &Chart) -> Result<DrawableChart, PlotError> {
     let series: Vec<(String, Vec<(f64, f64)>)> = chart
         .series
         .iter()
@@ -290,7 +290,7 @@ fn prepare(chart: &Chart) -> Result<Prepared, PlotError> {
     if series.iter().all(|(_, p)| p.is_empty()) {
         return Err(no_data(chart));
     }
-    Ok(Prepared {
+    Ok(DrawableChart {
         x: padded(x_lo, x_hi, chart.x_scale, &chart.title, "x")?,
         y: padded(y_lo, y_hi, chart.y_scale, &chart.title, "y")?,
         series,
@@ -477,7 +477,7 @@ fn glyph_element<'b, DB: DrawingBackend + 'b, C: Clone + 'b>(
 fn draw_plot<X, Y>(
     area: &DrawingArea<SVGBackend<'_>, Shift>,
     chart: &Chart,
-    data: &Prepared,
+    data: &DrawableChart,
     x: X,
     y: Y,
 ) -> DrawResult
@@ -609,7 +609,7 @@ where
 
 fn draw_legend(
     area: &DrawingArea<SVGBackend<'_>, Shift>,
-    data: &Prepared,
+    data: &DrawableChart,
     per_row: usize,
 ) -> DrawResult {
     let (width, _) = area.dim_in_pixel();
