@@ -5,22 +5,15 @@
 use crate::model::Amplitude;
 use crate::prob::Estimate;
 
-/// A probability in scientific form with four significant digits, e.g. `1.234e-05`.
+/// A probability in scientific form with four significant digits, e.g. `1.234e-5`
+/// ([`PROBABILITY`]).
 pub fn probability(p: f64) -> String {
-    if p == 0.0 {
-        "0".to_string()
-    } else {
-        format!("{p:.3e}")
-    }
+    format_number(p, &PROBABILITY)
 }
 
-/// An error bound in short scientific form, e.g. `2e-12`.
+/// An error bound in short scientific form, e.g. `2e-12` ([`BOUND`]).
 pub fn bound(e: f64) -> String {
-    if e == 0.0 {
-        "0".to_string()
-    } else {
-        format!("{e:.0e}")
-    }
+    format_number(e, &BOUND)
 }
 
 /// A coverage as a percentage with two decimals, truncated (never rounded up, so that
@@ -36,15 +29,9 @@ pub fn percent_with_bound(e: Estimate) -> String {
     format!("{} ± {}", percent_floor(e.value), bound(e.error * 100.0))
 }
 
-/// A rate in FIT with four significant digits.
+/// A rate in FIT with four significant digits ([`FIT`]).
 pub fn fit(value: f64) -> String {
-    if value == 0.0 {
-        "0".to_string()
-    } else if value.abs() >= 0.01 && value.abs() < 1e5 {
-        format!("{value:.4}")
-    } else {
-        format!("{value:.3e}")
-    }
+    format_number(value, &FIT)
 }
 
 /// How many digits a number keeps in plain (not exponent) notation.
@@ -58,15 +45,25 @@ pub enum Digits {
     Decimals(usize),
 }
 
+/// When a number is written in plain notation rather than with an exponent.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum Notation {
+    /// Always plain.
+    Plain,
+    /// Always with an exponent.
+    Scientific,
+    /// Plain for magnitudes in `[low, high)`, with an exponent otherwise.
+    PlainWithin(f64, f64),
+}
+
 /// A way of writing numbers: the one number formatter of the outputs ([`format_number`])
 /// takes it, and each output keeps its own style.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct NumberStyle {
     /// Digits in plain notation.
     pub digits: Digits,
-    /// Magnitudes `[low, high)` written in plain notation; others in exponent notation.
-    /// `None`: always plain.
-    pub plain: Option<(f64, f64)>,
+    /// When plain notation is used.
+    pub notation: Notation,
     /// Digits after the point of the mantissa in exponent notation (`None`: shortest).
     pub exponent_decimals: Option<usize>,
     /// Whether trailing zeros (and a trailing point) of plain notation are dropped.
@@ -79,7 +76,7 @@ pub struct NumberStyle {
 /// exponent notation below 1e-4 and from 1e6 on (`5400`, `0.5`, `1e-5`).
 pub const AS_WRITTEN: NumberStyle = NumberStyle {
     digits: Digits::Shortest,
-    plain: Some((1e-4, 1e6)),
+    notation: Notation::PlainWithin(1e-4, 1e6),
     exponent_decimals: None,
     trim: false,
     trim_mantissa: false,
@@ -89,7 +86,7 @@ pub const AS_WRITTEN: NumberStyle = NumberStyle {
 /// the table, JSON and CSV.
 pub const PLAIN: NumberStyle = NumberStyle {
     digits: Digits::Shortest,
-    plain: None,
+    notation: Notation::Plain,
     exponent_decimals: None,
     trim: false,
     trim_mantissa: false,
@@ -99,7 +96,7 @@ pub const PLAIN: NumberStyle = NumberStyle {
 /// exponent notation outside: sigmas and other plain numbers of the reports.
 pub const SHORT_DECIMALS: NumberStyle = NumberStyle {
     digits: Digits::Decimals(4),
-    plain: Some((1e-3, 1e5)),
+    notation: Notation::PlainWithin(1e-3, 1e5),
     exponent_decimals: Some(3),
     trim: true,
     trim_mantissa: false,
@@ -109,18 +106,45 @@ pub const SHORT_DECIMALS: NumberStyle = NumberStyle {
 /// without trailing zeros in exponent notation (`1e-6`, `2.5e5`).
 pub const TICK: NumberStyle = NumberStyle {
     digits: Digits::Decimals(4),
-    plain: Some((1e-3, 1e5)),
+    notation: Notation::PlainWithin(1e-3, 1e5),
     exponent_decimals: Some(2),
     trim: true,
     trim_mantissa: true,
 };
+
+/// Four significant digits, always with an exponent (`7.598e-4`): probabilities.
+pub const PROBABILITY: NumberStyle = scientific(3);
+
+/// One significant digit, always with an exponent (`2e-12`): error bounds.
+pub const BOUND: NumberStyle = scientific(0);
+
+/// Four decimals from 0.01 to 1e5 (`0.1564`), four significant digits with an exponent
+/// outside: rates in FIT.
+pub const FIT: NumberStyle = NumberStyle {
+    digits: Digits::Decimals(4),
+    notation: Notation::PlainWithin(0.01, 1e5),
+    exponent_decimals: Some(3),
+    trim: false,
+    trim_mantissa: false,
+};
+
+/// Always with an exponent, `decimals` digits after the mantissa's point.
+pub const fn scientific(decimals: usize) -> NumberStyle {
+    NumberStyle {
+        digits: Digits::Shortest,
+        notation: Notation::Scientific,
+        exponent_decimals: Some(decimals),
+        trim: false,
+        trim_mantissa: false,
+    }
+}
 
 /// `digits` significant digits, in exponent notation below 1e-4 and from 1e6 on, trailing
 /// zeros kept (`0.5000`): the columns of the `check` summary.
 pub const fn significant_style(digits: usize) -> NumberStyle {
     NumberStyle {
         digits: Digits::Significant(digits),
-        plain: Some((1e-4, 1e6)),
+        notation: Notation::PlainWithin(1e-4, 1e6),
         exponent_decimals: Some(digits.saturating_sub(1)),
         trim: false,
         trim_mantissa: false,
@@ -141,7 +165,7 @@ pub const fn short_style(digits: usize) -> NumberStyle {
 pub const fn plain_significant_style(digits: usize) -> NumberStyle {
     NumberStyle {
         digits: Digits::Significant(digits),
-        plain: None,
+        notation: Notation::Plain,
         exponent_decimals: None,
         trim: true,
         trim_mantissa: false,
@@ -158,9 +182,11 @@ pub fn format_number(x: f64, style: &NumberStyle) -> String {
         return format!("{x}");
     }
     let magnitude = x.abs();
-    let plain = style
-        .plain
-        .is_none_or(|(low, high)| (low..high).contains(&magnitude));
+    let plain = match style.notation {
+        Notation::Plain => true,
+        Notation::Scientific => false,
+        Notation::PlainWithin(low, high) => (low..high).contains(&magnitude),
+    };
     if !plain {
         let text = match style.exponent_decimals {
             Some(d) => format!("{x:.d$e}"),

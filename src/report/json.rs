@@ -37,6 +37,7 @@ use crate::analysis::engine::FigureMethod;
 use crate::analysis::site::SiteResult;
 
 use super::cautions::CAUTIONS;
+use super::error::ReportError;
 use super::format::{AmplitudeStyle, describe_amplitude};
 use super::{ReportInput, TOOL_VERSION, input_sha256};
 
@@ -328,7 +329,7 @@ pub fn document(input: &ReportInput<'_>) -> AnalysisJson {
 /// # Errors
 /// Serialisation errors (a non-finite number would be written as null by serde_json, so in
 /// practice none).
-pub fn render(input: &ReportInput<'_>) -> Result<String, serde_json::Error> {
+pub fn render(input: &ReportInput<'_>) -> Result<String, ReportError> {
     let mut text = serde_json::to_string_pretty(&document(input))?;
     text.push('\n');
     Ok(text)

@@ -21,6 +21,7 @@ pub mod date;
 pub mod describe;
 pub mod diagram;
 pub mod dot;
+pub mod error;
 pub mod format;
 pub mod html;
 pub mod json;

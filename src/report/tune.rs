@@ -7,6 +7,7 @@ use crate::analysis::tune::{TradeOffPoint, TuneResult};
 
 use super::cautions::{CAUTIONS, csv_comment_block, plot_caption};
 use super::csv::field as csv_field;
+use super::error::ReportError;
 use super::format::{format_number, percent_with_bound, plain_significant_style, probability};
 use super::plot::{Chart, Marker, PlotError, ReferenceLine, Scale, Series, render_svg};
 use super::sweep::{PLOT_SIZE, dc_levels};
@@ -117,7 +118,7 @@ struct TuneJson<'a> {
 ///
 /// # Errors
 /// Serialisation errors (none expected).
-pub fn json(result: &TuneResult, file: &str, text: &str) -> Result<String, String> {
+pub fn json(result: &TuneResult, file: &str, text: &str) -> Result<String, ReportError> {
     let j = TuneJson {
         tool_version: TOOL_VERSION,
         file,
@@ -125,12 +126,9 @@ pub fn json(result: &TuneResult, file: &str, text: &str) -> Result<String, Strin
         result,
         cautions: &CAUTIONS,
     };
-    serde_json::to_string_pretty(&j)
-        .map(|mut s| {
-            s.push('\n');
-            s
-        })
-        .map_err(|e| e.to_string())
+    let mut text = serde_json::to_string_pretty(&j)?;
+    text.push('\n');
+    Ok(text)
 }
 
 /// The trade-off curve as CSV, after the comment block of the cautions (lines starting with
