@@ -7,7 +7,7 @@
 //! - [`table`]: the table for a terminal, 100 columns wide.
 //! - [`csv`]: one row per scenario, for spreadsheets.
 //! - [`selftest`]: the validation summary of `concord selftest` (table and JSON).
-//! - [`format`]: the one number formatter and the one amplitude describer, a style per
+//! - [`format`](mod@format): the one number formatter and the one amplitude describer, a style per
 //!   output (analysis results carry data; only this layer writes text).
 //! - [`describe`], [`dot`]: the summary of `concord check` and its Graphviz DOT graph.
 //! - [`error`]: [`error::ReportError`], why an output cannot be made.
