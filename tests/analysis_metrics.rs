@@ -21,7 +21,7 @@ use concord::analysis::metrics::{
 };
 use concord::analysis::site::SiteResult;
 use concord::analysis::{AnalysisOptions, Outcome, analyze};
-use concord::model::load_str;
+use concord::model::{Amplitude, load_str};
 use concord::prob::Estimate;
 
 /// A site with given figures; each `(value, error)`.
@@ -35,7 +35,11 @@ fn site(
         name: name.to_string(),
         fit,
         mode: "add",
-        amplitude: "by hand".to_string(),
+        // The figures are given by hand; the amplitude only names the kind of site.
+        amplitude: Amplitude::Gaussian {
+            mean: 0.0,
+            sigma: 1.0,
+        },
         outcome: Outcome {
             p_vd: Estimate::new(vd.0, vd.1),
             p_vu: Estimate::new(vu.0, vu.1),

@@ -21,7 +21,7 @@ fn examples() -> Vec<Architecture> {
 #[test]
 fn summary_fits_in_100_columns_and_names_everything() {
     for a in examples() {
-        let s = model::describe(&a);
+        let s = concord::report::describe::describe(&a);
         for line in s.lines() {
             // a file path or a warning (which names the file) may be longer
             let exempt = line.starts_with("  file: ") || line.contains("warning");
@@ -53,7 +53,7 @@ fn summary_shows_total_sigma_and_induced_correlation() {
         .into_iter()
         .find(|a| a.path.ends_with("plovrant_swa2_shared_ref.toml"))
         .expect("example present");
-    let s = model::describe(&a);
+    let s = concord::report::describe::describe(&a);
     // total sigma of ch_a: sqrt(0.2425) = 0.49244...; correlation 0.036 / sqrt(0.2425 * 0.2349)
     // = 0.036 / 0.238672... = 0.15083...
     assert!(s.contains("0.4924"), "{s}");
@@ -73,7 +73,7 @@ fn dot_has_a_node_per_element_and_an_edge_per_gain() {
             + m.checks.len()
             + m.faults.len();
         assert_eq!(g.node_count(), expected_nodes);
-        let dot = model::to_dot(&a);
+        let dot = concord::report::dot::to_dot(&a);
         assert_eq!(dot.matches(" -> ").count(), g.edge_count());
         assert_eq!(dot.matches("shape=").count(), expected_nodes);
         // sources feed channels with their gains

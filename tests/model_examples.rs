@@ -52,8 +52,8 @@ fn every_example_file_loads_without_warnings() {
         if p.extension().is_some_and(|x| x == "toml") {
             let a = model::load(&p).unwrap_or_else(|e| panic!("{}:\n{e}", p.display()));
             assert!(a.warnings.is_empty(), "{}: {:?}", p.display(), a.warnings);
-            assert!(!model::describe(&a).is_empty());
-            assert!(model::to_dot(&a).starts_with("digraph"));
+            assert!(!concord::report::describe::describe(&a).is_empty());
+            assert!(concord::report::dot::to_dot(&a).starts_with("digraph"));
             n += 1;
         }
     }

@@ -314,9 +314,9 @@ fn exercise(name: &str, text: &str) -> Result<Result<(), ModelError>, String> {
 }
 
 fn use_compiled(arch: &Architecture) {
-    let summary = model::describe(arch);
+    let summary = concord::report::describe::describe(arch);
     assert!(!summary.is_empty());
-    let dot = model::to_dot(arch);
+    let dot = concord::report::dot::to_dot(arch);
     assert!(dot.starts_with("digraph"), "{dot}");
     if arch.model.channels.len() <= ANALYSE_MAX_CHANNELS {
         // any outcome but a panic: figures, or an error that says what went wrong

@@ -22,7 +22,7 @@ use super::metrics::metrics;
 use super::options::AnalysisOptions;
 use super::outcome::{Figure, Outcome};
 use super::run::Analysis;
-use super::site::{LocalWorst, SiteResult, WorstCase, describe_amplitude};
+use super::site::{LocalWorst, SiteResult, WorstCase};
 
 /// Two-sided 99.9 % standard normal quantile (Phi^-1(0.9995) = 3.2905, from memory; also in
 /// any table of the normal distribution).
@@ -399,7 +399,7 @@ pub fn analyze_montecarlo(
                 FaultMode::Add { .. } => "add",
                 FaultMode::Replace { .. } => "replace",
             },
-            amplitude: describe_amplitude(&fault.amplitude),
+            amplitude: fault.amplitude.clone(),
             outcome,
             worst,
             curve: None,

@@ -62,8 +62,8 @@ pub struct SiteResult {
     pub fit: f64,
     /// `add` or `replace`.
     pub mode: &'static str,
-    /// The amplitude model in words, e.g. `gaussian(mean 0, sigma unknown in [0.001, 5400])`.
-    pub amplitude: String,
+    /// The amplitude model of the file (the report puts it in words).
+    pub amplitude: Amplitude,
     /// The four outcome probabilities (at the worst sigma when searched).
     pub outcome: Outcome,
     /// The worst case when the sigma is unknown.
@@ -89,26 +89,6 @@ impl SiteResult {
         self.outcome
             .p_sq
             .scale(self.fit * (1.0 - self.latent_coverage))
-    }
-}
-
-/// The amplitude model in words.
-pub fn describe_amplitude(amplitude: &Amplitude) -> String {
-    match amplitude {
-        Amplitude::Gaussian { mean, sigma } => format!("gaussian(mean {mean}, sigma {sigma})"),
-        Amplitude::GaussianUnknownSigma {
-            mean,
-            sigma_lo,
-            sigma_hi,
-            ..
-        } => {
-            format!("gaussian(mean {mean}, sigma unknown in [{sigma_lo}, {sigma_hi}])")
-        }
-        Amplitude::Uniform { lower, upper } => format!("uniform[{lower}, {upper}]"),
-        Amplitude::Points(points) => {
-            let list: Vec<String> = points.iter().map(|(v, w)| format!("{v} w {w}")).collect();
-            format!("points({})", list.join("; "))
-        }
     }
 }
 
@@ -217,7 +197,7 @@ pub fn analyze_site(
             FaultMode::Add { .. } => "add",
             FaultMode::Replace { .. } => "replace",
         },
-        amplitude: describe_amplitude(&fault.amplitude),
+        amplitude: fault.amplitude.clone(),
         outcome,
         worst,
         curve,

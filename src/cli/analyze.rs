@@ -4,7 +4,7 @@ use crate::analysis::analyze;
 use crate::analysis::montecarlo::{MonteCarloOptions, analyze_montecarlo, verify};
 use crate::report::{ReportInput, csv, json, table};
 
-use super::args::{AnalyzeArgs, Format, Method};
+use super::args::{AnalyzeArgs, Format, MethodArg};
 use super::{CliError, load};
 
 /// Runs the analysis and renders it; a disagreeing cross-check is a failure that carries the
@@ -13,8 +13,8 @@ pub fn run(args: &AnalyzeArgs) -> Result<String, CliError> {
     let arch = load(&args.file)?;
     let options = args.accuracy.options()?;
     let (analysis, method) = match args.method {
-        Method::Exact => (analyze(&arch.model, &options, args.curve)?, "exact"),
-        Method::Montecarlo => {
+        MethodArg::Exact => (analyze(&arch.model, &options, args.curve)?, "exact"),
+        MethodArg::Montecarlo => {
             let sampling = MonteCarloOptions {
                 samples: args.samples,
                 seed: args.seed,

@@ -59,7 +59,7 @@ pub enum Format {
 
 /// Computation methods.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
-pub enum Method {
+pub enum MethodArg {
     /// Exact integration with error bounds.
     Exact,
     /// Plain Monte Carlo sampling (for verification; slower and less accurate).
@@ -85,7 +85,7 @@ pub struct AnalyzeArgs {
     pub format: Format,
     /// Computation method.
     #[arg(long, value_enum, default_value = "exact")]
-    pub method: Method,
+    pub method: MethodArg,
     /// Samples per scenario for `--method montecarlo`.
     #[arg(long, default_value_t = 1_000_000)]
     pub samples: u64,

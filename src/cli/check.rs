@@ -7,8 +7,8 @@ use super::{CliError, load};
 pub fn run(args: &CheckArgs) -> Result<String, CliError> {
     let arch = load(&args.file)?;
     Ok(if args.dot {
-        crate::model::to_dot(&arch)
+        crate::report::dot::to_dot(&arch)
     } else {
-        crate::model::describe(&arch)
+        crate::report::describe::describe(&arch)
     })
 }

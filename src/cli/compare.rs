@@ -20,7 +20,7 @@ pub fn run(args: &CompareArgs) -> Result<String, CliError> {
     }
     match args.format {
         Format::Table => Ok(table(&rows, all_dangerous)),
-        Format::Json => json(&rows, all_dangerous).map_err(CliError::Json),
+        Format::Json => Ok(json(&rows, all_dangerous)?),
         Format::Csv => Ok(csv(&rows, all_dangerous)),
     }
 }

@@ -18,7 +18,7 @@ use crate::analysis::tune::{CoverageFigure, TuneRequest, TuneResult, tune};
 use crate::report::format::probability;
 use crate::report::tune::{curve_csv, summary, trade_off_svg};
 
-use super::args::{AccuracyArgs, AnalyzeArgs, CompareArgs, CoverageArg, Format, Method};
+use super::args::{AccuracyArgs, AnalyzeArgs, CompareArgs, CoverageArg, Format, MethodArg};
 use super::{CliError, analyze, compare, load, report, write_output};
 
 /// The scenario's architecture files, bundled into the binary: (file name, text).
@@ -152,7 +152,7 @@ pub fn run(args: &super::args::DemoArgs) -> Result<String, CliError> {
                 accuracy: AccuracyArgs { tolerance: None },
                 file: file.clone(),
                 format,
-                method: Method::Exact,
+                method: MethodArg::Exact,
                 samples: 1_000_000,
                 seed: REPORT_SEED,
                 verify: None,

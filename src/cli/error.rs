@@ -19,6 +19,7 @@ use thiserror::Error;
 use crate::analysis::{AnalysisError, RequestField};
 use crate::model::ModelError;
 use crate::report::date::DateError;
+use crate::report::error::ReportError;
 use crate::report::plot::PlotError;
 
 /// Exit code for success.
@@ -83,9 +84,9 @@ pub enum CliError {
     /// A picture could not be drawn.
     #[error("the plot failed: {0}")]
     Plot(#[from] PlotError),
-    /// JSON output could not be made (not expected for finite figures).
-    #[error("JSON output failed: {0}")]
-    Json(String),
+    /// An output could not be made (JSON serialisation; not expected for finite figures).
+    #[error("{0}")]
+    Report(#[from] ReportError),
     /// The Monte Carlo cross-check disagrees on some figures; `output` holds what was made all
     /// the same (the figures, or what was written).
     #[error("the Monte Carlo cross-check disagrees on some figures (see {shown_in})")]
@@ -105,12 +106,6 @@ pub enum CliError {
         /// The whole summary, printed on standard output all the same.
         output: String,
     },
-}
-
-impl From<serde_json::Error> for CliError {
-    fn from(e: serde_json::Error) -> Self {
-        CliError::Json(e.to_string())
-    }
 }
 
 impl CliError {
@@ -135,8 +130,11 @@ impl CliError {
                 | AnalysisError::InconsistentModel { .. }
                 | AnalysisError::ReferenceData(_) => EXIT_FINDING,
             },
+            CliError::Report(error) => match error {
+                ReportError::UnknownSite { .. } => EXIT_INPUT,
+                ReportError::Json(_) => EXIT_FINDING,
+            },
             CliError::Plot(_)
-            | CliError::Json(_)
             | CliError::CrossCheckDisagrees { .. }
             | CliError::SelftestFailed { .. } => EXIT_FINDING,
         }

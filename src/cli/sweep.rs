@@ -97,10 +97,10 @@ fn parameter_sweep(args: &SweepArgs, vary: &str) -> Result<String, CliError> {
     // The picture keeps two numbers per point and line, and only when one is asked for.
     let mut plot = match &args.plot {
         Some(_) => Some(
-            SweepPicture::new(&plan, &sites, args.site.as_deref()).map_err(|message| {
+            SweepPicture::new(&plan, &sites, args.site.as_deref()).map_err(|error| {
                 CliError::Value {
                     flag: "--site".into(),
-                    message,
+                    message: error.to_string(),
                 }
             })?,
         ),
@@ -149,9 +149,7 @@ fn spread_sweep(args: &SweepArgs, site: &str) -> Result<String, CliError> {
     let curve = spread_curve(&arch.model, site, &sigmas, &options)?;
     let text = match args.format {
         SweepFormatArg::Csv => spread_csv(&curve),
-        SweepFormatArg::Json => {
-            spread_json(&curve, &arch.path, &arch.source).map_err(CliError::Json)?
-        }
+        SweepFormatArg::Json => spread_json(&curve, &arch.path, &arch.source)?,
     };
     if let Some(path) = &args.plot {
         write_output(path, spread_svg(&curve, &arch.model.unit)?)?;

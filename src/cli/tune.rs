@@ -38,6 +38,6 @@ pub fn run(args: &TuneArgs) -> Result<String, CliError> {
     }
     match args.format {
         TuneFormat::Text => Ok(summary(&result, &arch.path)),
-        TuneFormat::Json => json(&result, &arch.path, &arch.source).map_err(CliError::Json),
+        TuneFormat::Json => Ok(json(&result, &arch.path, &arch.source)?),
     }
 }

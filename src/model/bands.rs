@@ -70,7 +70,7 @@ pub(crate) fn written_bands(raw: &RawModel) -> Vec<CheckBand> {
     raw.checks
         .iter()
         .map(|check| CheckBand {
-            name: check.name.v.clone(),
+            name: check.name.value.clone(),
             band: form(&check.band),
         })
         .collect()
@@ -80,10 +80,10 @@ pub(crate) fn written_bands(raw: &RawModel) -> Vec<CheckBand> {
 /// present (validation refuses that file before a band is ever used).
 fn form(band: &RawBand) -> BandForm {
     match &band.limit {
-        Some(limit) => BandForm::Limit(limit.v),
+        Some(limit) => BandForm::Limit(limit.value),
         None => BandForm::Sides {
-            lower: band.lower.as_ref().map(|lower| lower.v),
-            upper: band.upper.as_ref().map(|upper| upper.v),
+            lower: band.lower.as_ref().map(|lower| lower.value),
+            upper: band.upper.as_ref().map(|upper| upper.value),
         },
     }
 }

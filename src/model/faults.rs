@@ -59,7 +59,7 @@ pub(crate) fn validate_faults(
     let default_range = default_sigma_range(
         safety.unwrap_or((-1.0, 1.0)),
         &bands,
-        raw.full_scale.as_ref().map(|f| f.v),
+        raw.full_scale.as_ref().map(|f| f.value),
     );
     if raw.faults.is_empty() {
         sink.warning(
@@ -84,17 +84,17 @@ fn fault(
 ) -> Option<VFault> {
     let mut ok = true;
     if let Some(fit) = &f.fit {
-        if fit.v < 0.0 {
+        if fit.value < 0.0 {
             fit.error(
                 sink,
                 format!(
                     "the failure rate is {} FIT, but it cannot be negative",
-                    fit.v
+                    fit.value
                 ),
                 "give the rate in FIT (failures per 1e9 hours), >= 0",
             );
             ok = false;
-        } else if fit.v == 0.0 {
+        } else if fit.value == 0.0 {
             fit.warning(
                 sink,
                 "a failure rate of 0 FIT: the site contributes nothing to the metrics",
@@ -104,7 +104,7 @@ fn fault(
     }
     let mut hits = Vec::new();
     if let Some(h) = &f.hits {
-        if h.v.is_empty() {
+        if h.value.is_empty() {
             h.error(
                 sink,
                 "the fault hits nothing",
@@ -112,7 +112,7 @@ fn fault(
             );
             ok = false;
         }
-        for (name, gain) in &h.v {
+        for (name, gain) in &h.value {
             match ns.resolve(
                 sink,
                 name,
@@ -121,41 +121,45 @@ fn fault(
                 "a fault hits channels or shared sources; a derived signal is computed from \
                  them and fails only through them",
             ) {
-                Some(NameRef::Channel(i)) => hits.push((Site::Channel(i), gain.v, name.v.clone())),
-                Some(NameRef::Source(i)) => hits.push((Site::Source(i), gain.v, name.v.clone())),
+                Some(NameRef::Channel(i)) => {
+                    hits.push((Site::Channel(i), gain.value, name.value.clone()))
+                }
+                Some(NameRef::Source(i)) => {
+                    hits.push((Site::Source(i), gain.value, name.value.clone()))
+                }
                 _ => ok = false,
             }
-            if gain.v == 0.0 {
+            if gain.value == 0.0 {
                 gain.warning(
                     sink,
-                    format!("gain 0: the fault has no effect on `{}`", name.v),
+                    format!("gain 0: the fault has no effect on `{}`", name.value),
                     "give the gain, or drop the entry",
                 );
             }
         }
     }
     if let (Some(mode), Some(h)) = (&f.mode, &f.hits)
-        && mode.v == Mode::Replace
+        && mode.value == Mode::Replace
     {
-        if h.v.len() > 1 {
+        if h.value.len() > 1 {
             h.error(
                 sink,
                 format!(
                     "a replace-mode fault must hit exactly one channel, this one hits {}",
-                    h.v.len()
+                    h.value.len()
                 ),
                 "split it into one site per channel, or use mode = \"add\"",
             );
             ok = false;
         }
-        for (name, _) in &h.v {
-            if let Some(NameRef::Source(_)) = ns.get(&name.v) {
+        for (name, _) in &h.value {
+            if let Some(NameRef::Source(_)) = ns.get(&name.value) {
                 name.error(
                     sink,
                     format!(
                         "a replace-mode fault cannot hit the shared source `{}`: only a \
                              channel reading can be replaced",
-                        name.v
+                        name.value
                     ),
                     "hit the channel whose reading is replaced, or use mode = \"add\" \
                          for a fault of the source",
@@ -169,16 +173,16 @@ fn fault(
         .as_ref()
         .and_then(|a| amplitude(a, raw, default_range, sink));
     if let Some(lc) = &f.latent_coverage
-        && !(0.0..=1.0).contains(&lc.v)
+        && !(0.0..=1.0).contains(&lc.value)
     {
         lc.error(
             sink,
-            format!("latent_coverage is {}, outside [0, 1]", lc.v),
+            format!("latent_coverage is {}, outside [0, 1]", lc.value),
             "give the share of latent faults found by other means, from 0 to 1",
         );
         ok = false;
     }
-    let mode = match f.mode.as_ref()?.v {
+    let mode = match f.mode.as_ref()?.value {
         Mode::Add => VMode::Add,
         Mode::Replace => VMode::Replace,
     };
@@ -186,12 +190,12 @@ fn fault(
         return None;
     }
     Some(VFault {
-        name: f.name.v.clone(),
-        fit: f.fit.as_ref()?.v,
+        name: f.name.value.clone(),
+        fit: f.fit.as_ref()?.value,
         hits,
         mode,
         amplitude: amplitude?,
-        latent_coverage: f.latent_coverage.as_ref().map_or(0.0, |l| l.v),
+        latent_coverage: f.latent_coverage.as_ref().map_or(0.0, |l| l.value),
         loc: Loc {
             span: f.name.span,
             key: f.name.key.clone(),
@@ -200,24 +204,24 @@ fn fault(
 }
 
 fn amplitude(
-    a: &Sp<RawAmplitude>,
+    a: &Spanned<RawAmplitude>,
     raw: &RawModel,
     default_range: (f64, f64),
     sink: &mut Sink<'_>,
 ) -> Option<VAmplitude> {
-    match &a.v {
+    match &a.value {
         RawAmplitude::Gaussian { mean, sigma } => {
-            let sigma = match &sigma.v {
+            let sigma = match &sigma.value {
                 RawSigma::Known(s) => {
-                    if s.v < 0.0 {
+                    if s.value < 0.0 {
                         s.error(
                             sink,
-                            format!("sigma is {}, but it cannot be negative", s.v),
+                            format!("sigma is {}, but it cannot be negative", s.value),
                             "give a value >= 0, or sigma = \"unknown\" for a worst case",
                         );
                         return None;
                     }
-                    VSigma::Known(s.v)
+                    VSigma::Known(s.value)
                 }
                 RawSigma::Unknown => VSigma::Unknown {
                     lo: default_range.0,
@@ -225,41 +229,41 @@ fn amplitude(
                     defaulted: true,
                 },
                 RawSigma::UnknownRange(lo, hi) => {
-                    if lo.v <= 0.0 {
+                    if lo.value <= 0.0 {
                         lo.error(
                             sink,
                             format!(
                                 "the search range starts at {}, but must start above 0",
-                                lo.v
+                                lo.value
                             ),
                             "give a small positive lower end, e.g. unknown = [0.01, 1000.0]",
                         );
                         return None;
                     }
-                    if lo.v >= hi.v {
+                    if lo.value >= hi.value {
                         lo.error(
                             sink,
-                            format!("the search range [{}, {}] is empty", lo.v, hi.v),
+                            format!("the search range [{}, {}] is empty", lo.value, hi.value),
                             "give unknown = [lower, upper] with lower < upper",
                         );
                         return None;
                     }
                     VSigma::Unknown {
-                        lo: lo.v,
-                        hi: hi.v,
+                        lo: lo.value,
+                        hi: hi.value,
                         defaulted: false,
                     }
                 }
             };
             Some(VAmplitude::Gaussian {
-                mean: mean.v,
+                mean: mean.value,
                 sigma,
             })
         }
         RawAmplitude::UniformFullScale => match &raw.full_scale {
-            Some(fs) if fs.v.0 < fs.v.1 => Some(VAmplitude::Uniform {
-                lower: fs.v.0,
-                upper: fs.v.1,
+            Some(fs) if fs.value.0 < fs.value.1 => Some(VAmplitude::Uniform {
+                lower: fs.value.0,
+                upper: fs.value.1,
                 full_scale: true,
             }),
             Some(_) => None, // full_scale itself is reported
@@ -274,17 +278,17 @@ fn amplitude(
             }
         },
         RawAmplitude::Uniform(lo, hi) => {
-            if lo.v >= hi.v {
+            if lo.value >= hi.value {
                 lo.error(
                     sink,
-                    format!("the range [{}, {}] is empty", lo.v, hi.v),
+                    format!("the range [{}, {}] is empty", lo.value, hi.value),
                     "give uniform = [lower, upper] with lower < upper",
                 );
                 return None;
             }
             Some(VAmplitude::Uniform {
-                lower: lo.v,
-                upper: hi.v,
+                lower: lo.value,
+                upper: hi.value,
                 full_scale: false,
             })
         }
@@ -299,16 +303,16 @@ fn amplitude(
             }
             let mut ok = true;
             for (_, w) in points {
-                if w.v <= 0.0 {
+                if w.value <= 0.0 {
                     w.error(
                         sink,
-                        format!("the weight is {}, but weights must be positive", w.v),
+                        format!("the weight is {}, but weights must be positive", w.value),
                         "give each point a positive weight, or drop the point",
                     );
                     ok = false;
                 }
             }
-            let sum: f64 = points.iter().map(|(_, w)| w.v).sum();
+            let sum: f64 = points.iter().map(|(_, w)| w.value).sum();
             if ok && (sum - 1.0).abs() > WEIGHT_SUM_ABS {
                 a.error(
                     sink,
@@ -317,7 +321,7 @@ fn amplitude(
                 );
                 ok = false;
             }
-            ok.then(|| VAmplitude::Points(points.iter().map(|(v, w)| (v.v, w.v)).collect()))
+            ok.then(|| VAmplitude::Points(points.iter().map(|(v, w)| (v.value, w.value)).collect()))
         }
     }
 }

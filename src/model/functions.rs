@@ -16,7 +16,7 @@ fn is_reading(r: NameRef) -> bool {
     matches!(r, NameRef::Channel(_) | NameRef::Signal(_))
 }
 
-fn reading(ns: &Namespace, sink: &mut Sink<'_>, name: &Sp<String>) -> Option<Reading> {
+fn reading(ns: &Namespace, sink: &mut Sink<'_>, name: &Spanned<String>) -> Option<Reading> {
     match ns.resolve(
         sink,
         name,
@@ -34,21 +34,21 @@ fn reading(ns: &Namespace, sink: &mut Sink<'_>, name: &Sp<String>) -> Option<Rea
 fn list(
     ns: &Namespace,
     sink: &mut Sink<'_>,
-    of: &Sp<Args>,
+    of: &Spanned<Args>,
     what: &str,
     min: usize,
     max: usize,
 ) -> Option<Vec<Reading>> {
-    let names = match &of.v {
+    let names = match &of.value {
         Args::List(names) => names,
         Args::One(name) => {
             of.error(
                 sink,
                 format!(
                     "{what} takes a list of names, found the single name \"{}\"",
-                    name.v
+                    name.value
                 ),
-                format!("write of = [\"{}\", ...]", name.v),
+                format!("write of = [\"{}\", ...]", name.value),
             );
             return None;
         }
@@ -97,10 +97,10 @@ fn list(
     let mut out = Vec::new();
     let mut ok = true;
     for (i, n) in names.iter().enumerate() {
-        if names[..i].iter().any(|m| m.v == n.v) {
+        if names[..i].iter().any(|m| m.value == n.value) {
             n.error(
                 sink,
-                format!("`{}` is listed twice", n.v),
+                format!("`{}` is listed twice", n.value),
                 "list each name once (use kind = \"linear\" to weight one more than another)",
             );
             ok = false;
@@ -115,8 +115,8 @@ fn list(
 }
 
 /// Exactly one reading: `of = "a"` (or a list of one).
-fn one(ns: &Namespace, sink: &mut Sink<'_>, of: &Sp<Args>, what: &str) -> Option<Reading> {
-    match &of.v {
+fn one(ns: &Namespace, sink: &mut Sink<'_>, of: &Spanned<Args>, what: &str) -> Option<Reading> {
+    match &of.value {
         Args::One(name) => reading(ns, sink, name),
         Args::List(names) if names.len() == 1 => reading(ns, sink, &names[0]),
         Args::List(names) => {
@@ -142,10 +142,10 @@ fn one(ns: &Namespace, sink: &mut Sink<'_>, of: &Sp<Args>, what: &str) -> Option
 fn weights(
     ns: &Namespace,
     sink: &mut Sink<'_>,
-    of: &Sp<Args>,
+    of: &Spanned<Args>,
     what: &str,
 ) -> Option<Vec<(Reading, f64)>> {
-    let table = match &of.v {
+    let table = match &of.value {
         Args::Weights(w) => w,
         _ => {
             of.error(
@@ -167,15 +167,15 @@ fn weights(
     let mut out = Vec::new();
     let mut ok = true;
     for (name, w) in table {
-        if w.v == 0.0 {
+        if w.value == 0.0 {
             w.warning(
                 sink,
-                format!("weight 0: `{}` has no effect", name.v),
+                format!("weight 0: `{}` has no effect", name.value),
                 "drop the entry or give its weight",
             );
         }
         match reading(ns, sink, name) {
-            Some(r) => out.push((r, w.v)),
+            Some(r) => out.push((r, w.value)),
             None => ok = false,
         }
     }
@@ -183,7 +183,7 @@ fn weights(
 }
 
 /// Errors for a `constant` given to a kind that takes none.
-fn no_constant(sink: &mut Sink<'_>, constant: &Option<Sp<f64>>, kind: &str) -> bool {
+fn no_constant(sink: &mut Sink<'_>, constant: &Option<Spanned<f64>>, kind: &str) -> bool {
     if let Some(c) = constant {
         c.error(
             sink,
@@ -195,7 +195,7 @@ fn no_constant(sink: &mut Sink<'_>, constant: &Option<Sp<f64>>, kind: &str) -> b
     true
 }
 
-fn loc_of<T>(name_key: &str, s: &Sp<T>) -> Loc {
+fn loc_of<T>(name_key: &str, s: &Spanned<T>) -> Loc {
     Loc {
         span: s.span,
         key: name_key.to_string(),
@@ -204,17 +204,17 @@ fn loc_of<T>(name_key: &str, s: &Sp<T>) -> Loc {
 
 pub(crate) fn signal_fn(s: &RawSignal, ns: &Namespace, sink: &mut Sink<'_>) -> Option<VFunction> {
     let (kind, of) = (s.kind.as_ref()?, s.of.as_ref()?);
-    let what = format!("the {} signal `{}`", word_signal(kind.v), s.name.v);
-    let def = match kind.v {
+    let what = format!("the {} signal `{}`", word_signal(kind.value), s.name.value);
+    let def = match kind.value {
         SignalKind::Linear => FnDef::Linear {
             terms: weights(ns, sink, of, &what)?,
-            constant: s.constant.as_ref().map_or(0.0, |c| c.v),
+            constant: s.constant.as_ref().map_or(0.0, |c| c.value),
             weighted: false,
         },
         SignalKind::Median | SignalKind::Min | SignalKind::Max => {
-            let ok = no_constant(sink, &s.constant, word_signal(kind.v));
+            let ok = no_constant(sink, &s.constant, word_signal(kind.value));
             let args = list(ns, sink, of, &what, 2, max_order_args())?;
-            let stat = match kind.v {
+            let stat = match kind.value {
                 SignalKind::Median => Stat::Median,
                 SignalKind::Min => Stat::Min,
                 _ => Stat::Max,
@@ -223,7 +223,7 @@ pub(crate) fn signal_fn(s: &RawSignal, ns: &Namespace, sink: &mut Sink<'_>) -> O
         }
     };
     Some(VFunction {
-        name: s.name.v.clone(),
+        name: s.name.value.clone(),
         def,
         loc: loc_of(&s.name.key, &s.name),
     })
@@ -240,7 +240,7 @@ fn word_signal(k: SignalKind) -> &'static str {
 
 pub(crate) fn output_fn(o: &RawOutput, ns: &Namespace, sink: &mut Sink<'_>) -> Option<VFunction> {
     let (kind, of) = (o.kind.as_ref()?, o.of.as_ref()?);
-    let word = match kind.v {
+    let word = match kind.value {
         OutputKind::Mean => "mean",
         OutputKind::Weighted => "weighted",
         OutputKind::Select => "select",
@@ -250,10 +250,10 @@ pub(crate) fn output_fn(o: &RawOutput, ns: &Namespace, sink: &mut Sink<'_>) -> O
         OutputKind::Linear => "linear",
     };
     let what = format!("the {word} output");
-    if kind.v != OutputKind::Linear && !no_constant(sink, &o.constant, word) {
+    if kind.value != OutputKind::Linear && !no_constant(sink, &o.constant, word) {
         return None;
     }
-    let def = match kind.v {
+    let def = match kind.value {
         OutputKind::Mean => FnDef::Mean(list(ns, sink, of, &what, 1, limits::MAX_ARGS)?),
         OutputKind::Select => FnDef::Select(one(ns, sink, of, &what)?),
         OutputKind::Median => FnDef::Order(
@@ -285,7 +285,7 @@ pub(crate) fn output_fn(o: &RawOutput, ns: &Namespace, sink: &mut Sink<'_>) -> O
         }
         OutputKind::Linear => FnDef::Linear {
             terms: weights(ns, sink, of, &what)?,
-            constant: o.constant.as_ref().map_or(0.0, |c| c.v),
+            constant: o.constant.as_ref().map_or(0.0, |c| c.value),
             weighted: false,
         },
     };
@@ -301,19 +301,19 @@ pub(crate) fn output_fn(o: &RawOutput, ns: &Namespace, sink: &mut Sink<'_>) -> O
 
 pub(crate) fn check_fn(c: &RawCheck, ns: &Namespace, sink: &mut Sink<'_>) -> Option<VFunction> {
     let (kind, of) = (c.kind.as_ref()?, c.of.as_ref()?);
-    let word = match kind.v {
+    let word = match kind.value {
         CheckKind::Difference => "difference",
         CheckKind::Range => "range",
         CheckKind::FromOutput => "from_output",
         CheckKind::Linear => "linear",
     };
-    let what = format!("the {word} check `{}`", c.name.v);
-    if kind.v != CheckKind::Linear && !no_constant(sink, &c.constant, word) {
+    let what = format!("the {word} check `{}`", c.name.value);
+    if kind.value != CheckKind::Linear && !no_constant(sink, &c.constant, word) {
         return None;
     }
-    let def = match kind.v {
+    let def = match kind.value {
         CheckKind::Difference => {
-            if let Args::List(names) = &of.v
+            if let Args::List(names) = &of.value
                 && names.len() != 2
             {
                 of.error(
@@ -331,12 +331,12 @@ pub(crate) fn check_fn(c: &RawCheck, ns: &Namespace, sink: &mut Sink<'_>) -> Opt
         CheckKind::FromOutput => FnDef::FromOutput(one(ns, sink, of, &what)?),
         CheckKind::Linear => FnDef::Linear {
             terms: weights(ns, sink, of, &what)?,
-            constant: c.constant.as_ref().map_or(0.0, |c| c.v),
+            constant: c.constant.as_ref().map_or(0.0, |c| c.value),
             weighted: false,
         },
     };
     Some(VFunction {
-        name: c.name.v.clone(),
+        name: c.name.value.clone(),
         def,
         loc: loc_of(&c.name.key, &c.name),
     })

@@ -16,8 +16,6 @@
 mod bands;
 mod compile;
 mod compiled;
-mod describe;
-mod dot;
 mod error;
 mod faults;
 mod functions;
@@ -41,8 +39,6 @@ pub use compiled::{
     Amplitude, Architecture, CompiledCheck, CompiledFault, CompiledModel, Detection, FaultMode,
     Formula, Guard, LinearForm, OrderStat, Piece, PiecewiseLinear,
 };
-pub use describe::describe;
-pub use dot::to_dot;
 pub use error::{Diagnostic, ModelError, Severity};
 pub use faults::default_sigma_range;
 pub use graph::{GraphNode, ModelGraph, NodeKind};

@@ -6,7 +6,7 @@
 use std::collections::HashMap;
 
 use super::error::{Sink, Span};
-use super::raw::{RawModel, Sp};
+use super::raw::{RawModel, Spanned};
 use super::read::edit_distance;
 
 /// What a name in the shared namespace of sources, channels and signals refers to.
@@ -78,19 +78,19 @@ impl Namespace {
     pub(crate) fn resolve(
         &self,
         sink: &mut Sink<'_>,
-        name: &Sp<String>,
+        name: &Spanned<String>,
         expected: &str,
         accept: impl Fn(NameRef) -> bool + Copy,
         fix_wrong_kind: &str,
     ) -> Option<NameRef> {
-        match self.get(&name.v) {
+        match self.get(&name.value) {
             Some(r) if accept(r) => Some(r),
             Some(r) => {
                 name.error(
                     sink,
                     format!(
                         "`{}` is {}, but {expected} is expected here",
-                        name.v,
+                        name.value,
                         r.word()
                     ),
                     fix_wrong_kind,
@@ -100,12 +100,15 @@ impl Namespace {
             None if self.incomplete => None,
             None => {
                 let mut fix = format!("use one of the defined names: {}", self.list(accept));
-                if let Some(s) = self.suggest(&name.v, accept) {
+                if let Some(s) = self.suggest(&name.value, accept) {
                     fix = format!("did you mean `{s}`? Defined: {}", self.list(accept));
                 }
                 name.error(
                     sink,
-                    format!("unknown name `{}` ({expected} is expected here)", name.v),
+                    format!(
+                        "unknown name `{}` ({expected} is expected here)",
+                        name.value
+                    ),
                     fix,
                 );
                 None
@@ -116,21 +119,21 @@ impl Namespace {
 
 pub(crate) fn build_namespace(raw: &RawModel, sink: &mut Sink<'_>) -> Namespace {
     let mut map: HashMap<String, (NameRef, Span)> = HashMap::new();
-    let mut add = |sink: &mut Sink<'_>, name: &Sp<String>, r: NameRef| {
-        if let Some((prev, span)) = map.get(&name.v) {
+    let mut add = |sink: &mut Sink<'_>, name: &Spanned<String>, r: NameRef| {
+        if let Some((prev, span)) = map.get(&name.value) {
             let (line, _) = sink.line_col(span.start);
             name.error(
                 sink,
                 format!(
                     "`{}` is already defined as {} (line {line}); sources, channels and \
                      signals share one namespace",
-                    name.v,
+                    name.value,
                     prev.word()
                 ),
                 "give every source, channel and signal its own name",
             );
         } else {
-            map.insert(name.v.clone(), (r, name.span));
+            map.insert(name.value.clone(), (r, name.span));
         }
     };
     for (i, s) in raw.sources.iter().enumerate() {

@@ -6,8 +6,8 @@ use super::error::{Sink, Span};
 
 /// A value with where it came from.
 #[derive(Debug, Clone, PartialEq)]
-pub(crate) struct Sp<T> {
-    pub v: T,
+pub(crate) struct Spanned<T> {
+    pub value: T,
     pub span: Span,
     /// Key path for messages, e.g. `channels.a.sigma`.
     pub key: String,
@@ -15,10 +15,10 @@ pub(crate) struct Sp<T> {
     pub overridden: bool,
 }
 
-impl<T> Sp<T> {
-    pub(crate) fn new(v: T, span: Span, key: impl Into<String>) -> Sp<T> {
-        Sp {
-            v,
+impl<T> Spanned<T> {
+    pub(crate) fn new(value: T, span: Span, key: impl Into<String>) -> Spanned<T> {
+        Spanned {
+            value,
             span,
             key: key.into(),
             overridden: false,
@@ -51,15 +51,15 @@ impl<T> Sp<T> {
 }
 
 /// Names with gains or weights: `{ a = 0.5, b = 0.5 }`.
-pub(crate) type Weights = Vec<(Sp<String>, Sp<f64>)>;
+pub(crate) type Weights = Vec<(Spanned<String>, Spanned<f64>)>;
 
 /// The `of` of a signal, output or check, in whichever form the file wrote it.
 #[derive(Debug, Clone, PartialEq)]
 pub(crate) enum Args {
     /// `of = "a"`
-    One(Sp<String>),
+    One(Spanned<String>),
     /// `of = ["a", "b"]`
-    List(Vec<Sp<String>>),
+    List(Vec<Spanned<String>>),
     /// `of = { a = 0.5, b = 0.5 }`
     Weights(Weights),
 }
@@ -99,16 +99,16 @@ pub(crate) enum Mode {
 
 #[derive(Debug, Clone, PartialEq)]
 pub(crate) struct RawSource {
-    pub name: Sp<String>,
-    pub mean: Sp<f64>,
-    pub sigma: Sp<f64>,
+    pub name: Spanned<String>,
+    pub mean: Spanned<f64>,
+    pub sigma: Spanned<f64>,
 }
 
 #[derive(Debug, Clone, PartialEq)]
 pub(crate) struct RawChannel {
-    pub name: Sp<String>,
-    pub mean: Sp<f64>,
-    pub sigma: Sp<f64>,
+    pub name: Spanned<String>,
+    pub mean: Spanned<f64>,
+    pub sigma: Spanned<f64>,
     pub from: Weights,
 }
 
@@ -117,24 +117,24 @@ pub(crate) struct RawCorrelation {
     /// `correlations[i]` (0-based, as in the file order).
     pub key: String,
     pub span: Span,
-    pub between: Option<(Sp<String>, Sp<String>)>,
-    pub rho: Option<Sp<f64>>,
+    pub between: Option<(Spanned<String>, Spanned<String>)>,
+    pub rho: Option<Spanned<f64>>,
 }
 
 #[derive(Debug, Clone, PartialEq)]
 pub(crate) struct RawSignal {
-    pub name: Sp<String>,
-    pub kind: Option<Sp<SignalKind>>,
-    pub of: Option<Sp<Args>>,
-    pub constant: Option<Sp<f64>>,
+    pub name: Spanned<String>,
+    pub kind: Option<Spanned<SignalKind>>,
+    pub of: Option<Spanned<Args>>,
+    pub constant: Option<Spanned<f64>>,
 }
 
 #[derive(Debug, Clone, PartialEq)]
 pub(crate) struct RawOutput {
     pub span: Span,
-    pub kind: Option<Sp<OutputKind>>,
-    pub of: Option<Sp<Args>>,
-    pub constant: Option<Sp<f64>>,
+    pub kind: Option<Spanned<OutputKind>>,
+    pub of: Option<Spanned<Args>>,
+    pub constant: Option<Spanned<f64>>,
 }
 
 /// `limit = L` or `lower = .., upper = ..` (either may be omitted for a one-sided band).
@@ -143,70 +143,70 @@ pub(crate) struct RawBand {
     /// Key path of the table holding the band (`safety`, `checks.ab`).
     pub key: String,
     pub span: Span,
-    pub limit: Option<Sp<f64>>,
-    pub lower: Option<Sp<f64>>,
-    pub upper: Option<Sp<f64>>,
+    pub limit: Option<Spanned<f64>>,
+    pub lower: Option<Spanned<f64>>,
+    pub upper: Option<Spanned<f64>>,
     /// True when one of `limit`, `lower`, `upper` is present but could not be read.
     pub broken: bool,
 }
 
 #[derive(Debug, Clone, PartialEq)]
 pub(crate) struct RawCheck {
-    pub name: Sp<String>,
-    pub kind: Option<Sp<CheckKind>>,
-    pub of: Option<Sp<Args>>,
-    pub constant: Option<Sp<f64>>,
+    pub name: Spanned<String>,
+    pub kind: Option<Spanned<CheckKind>>,
+    pub of: Option<Spanned<Args>>,
+    pub constant: Option<Spanned<f64>>,
     pub band: RawBand,
 }
 
 #[derive(Debug, Clone, PartialEq)]
 pub(crate) enum RawFires {
     Any,
-    AtLeast(Sp<i64>),
+    AtLeast(Spanned<i64>),
 }
 
 #[derive(Debug, Clone, PartialEq)]
 pub(crate) enum RawSigma {
-    Known(Sp<f64>),
+    Known(Spanned<f64>),
     Unknown,
-    UnknownRange(Sp<f64>, Sp<f64>),
+    UnknownRange(Spanned<f64>, Spanned<f64>),
 }
 
 #[derive(Debug, Clone, PartialEq)]
 pub(crate) enum RawAmplitude {
     Gaussian {
-        mean: Sp<f64>,
-        sigma: Sp<RawSigma>,
+        mean: Spanned<f64>,
+        sigma: Spanned<RawSigma>,
     },
     UniformFullScale,
-    Uniform(Sp<f64>, Sp<f64>),
+    Uniform(Spanned<f64>, Spanned<f64>),
     /// `(value, weight)` pairs.
-    Points(Vec<(Sp<f64>, Sp<f64>)>),
+    Points(Vec<(Spanned<f64>, Spanned<f64>)>),
 }
 
 #[derive(Debug, Clone, PartialEq)]
 pub(crate) struct RawFault {
-    pub name: Sp<String>,
-    pub fit: Option<Sp<f64>>,
-    pub hits: Option<Sp<Weights>>,
-    pub mode: Option<Sp<Mode>>,
-    pub amplitude: Option<Sp<RawAmplitude>>,
-    pub latent_coverage: Option<Sp<f64>>,
+    pub name: Spanned<String>,
+    pub fit: Option<Spanned<f64>>,
+    pub hits: Option<Spanned<Weights>>,
+    pub mode: Option<Spanned<Mode>>,
+    pub amplitude: Option<Spanned<RawAmplitude>>,
+    pub latent_coverage: Option<Spanned<f64>>,
 }
 
 /// The whole file as read.
 #[derive(Debug, Clone, PartialEq)]
 pub(crate) struct RawModel {
-    pub name: Option<Sp<String>>,
-    pub unit: Option<Sp<String>>,
-    pub full_scale: Option<Sp<(f64, f64)>>,
+    pub name: Option<Spanned<String>>,
+    pub unit: Option<Spanned<String>>,
+    pub full_scale: Option<Spanned<(f64, f64)>>,
     pub sources: Vec<RawSource>,
     pub channels: Vec<RawChannel>,
     pub correlations: Vec<RawCorrelation>,
     pub signals: Vec<RawSignal>,
     pub output: Option<RawOutput>,
     pub checks: Vec<RawCheck>,
-    pub detection: Option<Sp<RawFires>>,
+    pub detection: Option<Spanned<RawFires>>,
     pub safety: Option<RawBand>,
     pub faults: Vec<RawFault>,
     /// True when a section of names (sources, channels, signals) or one of its entries could

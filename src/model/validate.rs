@@ -27,11 +27,11 @@ fn too_many(sink: &mut Sink<'_>, spans: &[Span], key: &str, what: &str, limit: u
     }
 }
 
-fn non_negative(sink: &mut Sink<'_>, v: &Sp<f64>, what: &str) {
-    if v.v < 0.0 {
+fn non_negative(sink: &mut Sink<'_>, v: &Spanned<f64>, what: &str) {
+    if v.value < 0.0 {
         v.error(
             sink,
-            format!("{what} is {}, but it cannot be negative", v.v),
+            format!("{what} is {}, but it cannot be negative", v.value),
             "give a value >= 0 (0 means no random part)",
         );
     }
@@ -42,7 +42,7 @@ pub(crate) fn validate(raw: &RawModel, sink: &mut Sink<'_>) -> Option<Resolved> 
     let errors_before = sink.error_count();
     for (v, what) in [(&raw.name, "the name"), (&raw.unit, "the unit")] {
         if let Some(v) = v
-            && v.v.trim().is_empty()
+            && v.value.trim().is_empty()
         {
             v.error(
                 sink,
@@ -52,13 +52,13 @@ pub(crate) fn validate(raw: &RawModel, sink: &mut Sink<'_>) -> Option<Resolved> 
         }
     }
     if let Some(fs) = &raw.full_scale
-        && fs.v.0 >= fs.v.1
+        && fs.value.0 >= fs.value.1
     {
         fs.error(
             sink,
             format!(
                 "the lower end {} is not below the upper end {}",
-                fs.v.0, fs.v.1
+                fs.value.0, fs.value.1
             ),
             "write full_scale = [lower, upper] with lower < upper",
         );
@@ -109,9 +109,9 @@ pub(crate) fn validate(raw: &RawModel, sink: &mut Sink<'_>) -> Option<Resolved> 
         .map(|s| {
             non_negative(sink, &s.sigma, "sigma");
             VSource {
-                name: s.name.v.clone(),
-                mean: s.mean.v,
-                sigma: s.sigma.v,
+                name: s.name.value.clone(),
+                mean: s.mean.value,
+                sigma: s.sigma.value,
             }
         })
         .collect();
@@ -131,20 +131,20 @@ pub(crate) fn validate(raw: &RawModel, sink: &mut Sink<'_>) -> Option<Resolved> 
                     "`from` lists shared sources ([sources.X]); correlate channels with \
                      [[correlations]] instead",
                 ) {
-                    if gain.v == 0.0 {
+                    if gain.value == 0.0 {
                         gain.warning(
                             sink,
                             "gain 0: the source has no effect on this channel",
                             "drop the entry or give the gain",
                         );
                     }
-                    from.push((s, gain.v));
+                    from.push((s, gain.value));
                 }
             }
             VChannel {
-                name: c.name.v.clone(),
-                mean: c.mean.v,
-                sigma: c.sigma.v,
+                name: c.name.value.clone(),
+                mean: c.mean.value,
+                sigma: c.sigma.value,
                 from,
             }
         })
@@ -174,7 +174,7 @@ pub(crate) fn validate(raw: &RawModel, sink: &mut Sink<'_>) -> Option<Resolved> 
             let band = band(sink, &c.band, "the check");
             let (def, (lower, upper)) = (def?, band?);
             Some(VCheck {
-                name: c.name.v.clone(),
+                name: c.name.value.clone(),
                 def: def.def,
                 loc: def.loc,
                 lower,
@@ -194,9 +194,9 @@ pub(crate) fn validate(raw: &RawModel, sink: &mut Sink<'_>) -> Option<Resolved> 
         return None;
     }
     Some(Resolved {
-        name: raw.name.as_ref()?.v.clone(),
-        unit: raw.unit.as_ref()?.v.clone(),
-        full_scale: raw.full_scale.as_ref().map(|f| f.v),
+        name: raw.name.as_ref()?.value.clone(),
+        unit: raw.unit.as_ref()?.value.clone(),
+        full_scale: raw.full_scale.as_ref().map(|f| f.value),
         sources,
         channels,
         correlations,
@@ -232,10 +232,10 @@ fn validate_correlations(
         let ra = ns.resolve(sink, a, "a channel", is_channel, fix);
         let rb = ns.resolve(sink, b, "a channel", is_channel, fix);
         let mut ok = true;
-        if !(-1.0..=1.0).contains(&rho.v) {
+        if !(-1.0..=1.0).contains(&rho.value) {
             rho.error(
                 sink,
-                format!("rho is {}, outside [-1, 1]", rho.v),
+                format!("rho is {}, outside [-1, 1]", rho.value),
                 "give a correlation coefficient between -1 and 1",
             );
             ok = false;
@@ -247,7 +247,7 @@ fn validate_correlations(
         if i == j {
             b.error(
                 sink,
-                format!("a correlation of `{}` with itself", a.v),
+                format!("a correlation of `{}` with itself", a.value),
                 "name two different channels (a channel is always fully correlated with itself)",
             );
             ok = false;
@@ -263,7 +263,7 @@ fn validate_correlations(
                 &c.key,
                 format!(
                     "the pair ({}, {}) is correlated a second time (first at line {prev_line})",
-                    a.v, b.v
+                    a.value, b.value
                 ),
                 "keep one [[correlations]] entry per pair",
             );
@@ -272,7 +272,7 @@ fn validate_correlations(
         if ok {
             seen.insert(pair, out.len());
             spans.push(c.span);
-            out.push((i, j, rho.v));
+            out.push((i, j, rho.value));
         } else {
             all_ok = false;
         }
@@ -313,10 +313,9 @@ fn validate_correlations(
                     format!(
                         "the correlations among channels {} are inconsistent: {} cannot hold \
                          together (the correlation matrix of this block is not positive \
-                         semi-definite, smallest eigenvalue {})",
+                         semi-definite, smallest eigenvalue {min:.3e})",
                         names.join(", "),
                         pairs.join(", "),
-                        super::text::short(min)
                     ),
                     "reduce the size of one or more of these rho values",
                 );
@@ -333,7 +332,7 @@ pub(crate) fn band(sink: &mut Sink<'_>, b: &RawBand, what: &str) -> Option<(f64,
     }
     match (&b.limit, &b.lower, &b.upper) {
         (Some(l), None, None) => {
-            if l.v == 0.0 {
+            if l.value == 0.0 {
                 l.error(
                     sink,
                     format!(
@@ -347,15 +346,15 @@ pub(crate) fn band(sink: &mut Sink<'_>, b: &RawBand, what: &str) -> Option<(f64,
                     "give a positive limit in the file's unit",
                 );
                 None
-            } else if l.v < 0.0 {
+            } else if l.value < 0.0 {
                 l.error(
                     sink,
-                    format!("the limit is {}, but it must be positive", l.v),
+                    format!("the limit is {}, but it must be positive", l.value),
                     "give the half-width of the band, e.g. limit = 2.0 for [-2, 2]",
                 );
                 None
             } else {
-                Some((-l.v, l.v))
+                Some((-l.value, l.value))
             }
         }
         (Some(l), _, _) => {
@@ -376,8 +375,8 @@ pub(crate) fn band(sink: &mut Sink<'_>, b: &RawBand, what: &str) -> Option<(f64,
             None
         }
         (None, lo, hi) => {
-            let lower = lo.as_ref().map_or(f64::NEG_INFINITY, |x| x.v);
-            let upper = hi.as_ref().map_or(f64::INFINITY, |x| x.v);
+            let lower = lo.as_ref().map_or(f64::NEG_INFINITY, |x| x.value);
+            let upper = hi.as_ref().map_or(f64::INFINITY, |x| x.value);
             if lower >= upper {
                 if let Some(lo) = lo {
                     lo.error(
@@ -408,7 +407,7 @@ fn detection(raw: &RawModel, sink: &mut Sink<'_>) -> Option<VDetection> {
             }
             Some(VDetection::Any)
         }
-        Some(d) => match &d.v {
+        Some(d) => match &d.value {
             RawFires::Any => {
                 if n == 0 {
                     d.warning(
@@ -420,12 +419,12 @@ fn detection(raw: &RawModel, sink: &mut Sink<'_>) -> Option<VDetection> {
                 Some(VDetection::Any)
             }
             RawFires::AtLeast(k) => {
-                if k.v < 1 || k.v as u64 > n as u64 {
+                if k.value < 1 || k.value as u64 > n as u64 {
                     k.error(
                         sink,
                         format!(
                             "at_least = {} but the file defines {n} check{}",
-                            k.v,
+                            k.value,
                             if n == 1 { "" } else { "s" }
                         ),
                         if n == 0 {
@@ -436,7 +435,7 @@ fn detection(raw: &RawModel, sink: &mut Sink<'_>) -> Option<VDetection> {
                     );
                     None
                 } else {
-                    Some(VDetection::AtLeast(k.v as usize))
+                    Some(VDetection::AtLeast(k.value as usize))
                 }
             }
         },

@@ -15,6 +15,7 @@ use crate::analysis::metrics::Asil;
 use super::TOOL_VERSION;
 use super::cautions::{CAUTIONS, csv_comment_block};
 use super::csv::field as csv_field;
+use super::error::ReportError;
 use super::format::{fit, percent_floor, probability};
 
 /// The ASIL reached on both single-point and latent fault metrics (the lower of the two).
@@ -170,7 +171,7 @@ struct ArchitectureJson<'a> {
 ///
 /// # Errors
 /// Serialisation errors (none expected).
-pub fn json(rows: &[ArchitectureSummary], all_dangerous: bool) -> Result<String, String> {
+pub fn json(rows: &[ArchitectureSummary], all_dangerous: bool) -> Result<String, ReportError> {
     let j = CompareJson {
         tool_version: TOOL_VERSION,
         coverage_figure: if all_dangerous {
@@ -188,12 +189,9 @@ pub fn json(rows: &[ArchitectureSummary], all_dangerous: bool) -> Result<String,
             .collect(),
         cautions: &CAUTIONS,
     };
-    serde_json::to_string_pretty(&j)
-        .map(|mut s| {
-            s.push('\n');
-            s
-        })
-        .map_err(|e| e.to_string())
+    let mut text = serde_json::to_string_pretty(&j)?;
+    text.push('\n');
+    Ok(text)
 }
 
 /// The comparison as CSV, one row per architecture, after the comment block of the cautions.

@@ -3,6 +3,7 @@
 
 use super::ReportInput;
 use super::cautions::csv_comment_block;
+use super::format::{AmplitudeStyle, describe_amplitude};
 
 /// The CSV header.
 pub const HEADER: &str = "scenario,fit,mode,amplitude,dc,dc_error,dc_all_dangerous,p_vd,p_vd_error,\
@@ -50,7 +51,11 @@ pub fn render(input: &ReportInput<'_>) -> String {
             field(&s.name),
             s.fit,
             s.mode,
-            field(&s.amplitude),
+            field(&describe_amplitude(
+                &s.amplitude,
+                false,
+                AmplitudeStyle::Compact
+            )),
             opt(o.dc().map(|d| d.value)),
             opt(o.dc().map(|d| d.error)),
             o.dc_all_dangerous().value,

@@ -37,6 +37,8 @@ use crate::analysis::engine::FigureMethod;
 use crate::analysis::site::SiteResult;
 
 use super::cautions::CAUTIONS;
+use super::error::ReportError;
+use super::format::{AmplitudeStyle, describe_amplitude};
 use super::{ReportInput, TOOL_VERSION, input_sha256};
 
 /// Error bounds of the four probabilities (and, for a site, of the coverage figures).
@@ -203,7 +205,7 @@ fn site_json(s: &SiteResult) -> SiteJson {
         name: s.name.clone(),
         fit: s.fit,
         mode: s.mode.to_string(),
-        amplitude: s.amplitude.clone(),
+        amplitude: describe_amplitude(&s.amplitude, false, AmplitudeStyle::Compact),
         dc: dc.map(|d| d.value),
         dc_all_dangerous: o.dc_all_dangerous().value,
         p_vd: o.p_vd.value,
@@ -327,7 +329,7 @@ pub fn document(input: &ReportInput<'_>) -> AnalysisJson {
 /// # Errors
 /// Serialisation errors (a non-finite number would be written as null by serde_json, so in
 /// practice none).
-pub fn render(input: &ReportInput<'_>) -> Result<String, serde_json::Error> {
+pub fn render(input: &ReportInput<'_>) -> Result<String, ReportError> {
     let mut text = serde_json::to_string_pretty(&document(input))?;
     text.push('\n');
     Ok(text)

@@ -1,12 +1,16 @@
 //! The report layer: everything concord writes. The figures of an analysis as a terminal
 //! table, JSON and CSV; the HTML report with its SVG charts and architecture diagram; the
-//! selftest summary; and the outputs of sweep, tune and compare.
+//! selftest summary; the `check` summary and DOT graph; and the outputs of sweep, tune and
+//! compare.
 //!
 //! - [`json`]: the JSON object that scripts rely on (the contract of README.md "JSON output").
 //! - [`table`]: the table for a terminal, 100 columns wide.
 //! - [`csv`]: one row per scenario, for spreadsheets.
 //! - [`selftest`]: the validation summary of `concord selftest` (table and JSON).
-//! - [`format`]: number formatting shared by the text formats.
+//! - [`format`](mod@format): the one number formatter and the one amplitude describer, a style per
+//!   output (analysis results carry data; only this layer writes text).
+//! - [`describe`], [`dot`]: the summary of `concord check` and its Graphviz DOT graph.
+//! - [`error`]: [`error::ReportError`], why an output cannot be made.
 //! - [`plot`]: line charts as SVG (curves over sigma, sweeps, tuning).
 //! - [`diagram`]: the architecture drawn from the model graph, as SVG.
 //! - [`html`]: the self-contained HTML report for a safety case.
@@ -18,7 +22,10 @@ pub mod cautions;
 pub mod compare;
 pub mod csv;
 pub mod date;
+pub mod describe;
 pub mod diagram;
+pub mod dot;
+pub mod error;
 pub mod format;
 pub mod html;
 pub mod json;

@@ -18,7 +18,8 @@ use serde::{Deserialize, Serialize};
 use crate::analysis::selftest::{Case, REFERENCE_JSON, SelfTest};
 
 use super::cautions::CAUTIONS;
-use super::format::wrap;
+use super::error::ReportError;
+use super::format::{format_number, scientific, wrap};
 use super::{TOOL_VERSION, input_sha256};
 
 /// The name of the suite as reports print it.
@@ -136,18 +137,15 @@ pub fn document(suite: &SelfTest) -> SelfTestJson {
 ///
 /// # Errors
 /// Serialisation errors (none in practice: non-finite numbers are written as null).
-pub fn render_json(suite: &SelfTest) -> Result<String, serde_json::Error> {
+pub fn render_json(suite: &SelfTest) -> Result<String, ReportError> {
     let mut text = serde_json::to_string_pretty(&document(suite))?;
     text.push('\n');
     Ok(text)
 }
 
+/// Seven significant digits, always with an exponent.
 fn short(v: f64) -> String {
-    if v == 0.0 {
-        "0".to_string()
-    } else {
-        format!("{v:.6e}")
-    }
+    format_number(v, &scientific(6))
 }
 
 /// The table: per group its sources, then one line per case, then the summary.

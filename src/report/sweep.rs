@@ -23,6 +23,7 @@ use crate::prob::Estimate;
 
 use super::cautions::{CAUTIONS, csv_comment_block, plot_caption};
 use super::csv::field as csv_field;
+use super::error::ReportError;
 use super::plot::{Chart, Marker, PlotError, ReferenceLine, Scale, Series, render_svg};
 use super::{TOOL_VERSION, input_sha256};
 
@@ -239,7 +240,7 @@ pub fn spread_csv(curve: &SpreadCurve) -> String {
 ///
 /// # Errors
 /// Serialisation errors (none expected for finite numbers).
-pub fn spread_json(curve: &SpreadCurve, file: &str, text: &str) -> Result<String, String> {
+pub fn spread_json(curve: &SpreadCurve, file: &str, text: &str) -> Result<String, ReportError> {
     let worst = curve.worst.as_ref().and_then(|site| {
         site.worst.as_ref().map(|w| SpreadWorstJson {
             sigma: w.sigma,
@@ -271,12 +272,9 @@ pub fn spread_json(curve: &SpreadCurve, file: &str, text: &str) -> Result<String
             .collect(),
         cautions: &CAUTIONS,
     };
-    serde_json::to_string_pretty(&json)
-        .map(|mut s| {
-            s.push('\n');
-            s
-        })
-        .map_err(|e| e.to_string())
+    let mut text = serde_json::to_string_pretty(&json)?;
+    text.push('\n');
+    Ok(text)
 }
 
 /// One line for the terminal naming the worst case of a spread curve.
@@ -340,14 +338,18 @@ impl SweepPicture {
     /// An empty picture for `plan`; `site` picks the site shown (it must exist).
     ///
     /// # Errors
-    /// A message naming the sites when `site` is not one of them.
-    pub fn new(plan: &SweepPlan, sites: &[String], site: Option<&str>) -> Result<Self, String> {
+    /// [`ReportError::UnknownSite`] when `site` is not one of `sites`.
+    pub fn new(
+        plan: &SweepPlan,
+        sites: &[String],
+        site: Option<&str>,
+    ) -> Result<Self, ReportError> {
         let site = match site {
             Some(name) => Some(sites.iter().position(|s| s == name).ok_or_else(|| {
-                format!(
-                    "no fault site '{name}' to plot; the sites are: {}",
-                    sites.join(", ")
-                )
+                ReportError::UnknownSite {
+                    site: name.to_string(),
+                    sites: sites.to_vec(),
+                }
             })?),
             None if plan.series.is_some() => Some(0),
             None => None,

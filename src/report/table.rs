@@ -6,7 +6,10 @@ use crate::analysis::engine::FigureMethod;
 use crate::analysis::metrics::{LFM_TARGETS, SPFM_TARGETS};
 
 use super::cautions::CAUTIONS;
-use super::format::{bound, fit, number, percent_floor, percent_with_bound, probability, wrap};
+use super::format::{
+    AmplitudeStyle, bound, describe_amplitude, fit, number, percent_floor, percent_with_bound,
+    probability, wrap,
+};
 use super::{ReportInput, TOOL_VERSION, input_sha256};
 
 /// The table text.
@@ -135,7 +138,10 @@ pub fn render(input: &ReportInput<'_>) -> String {
             "  {:<16} {:<7} {}",
             clip(&s.name, 16),
             s.mode,
-            clip(&s.amplitude, 74)
+            clip(
+                &describe_amplitude(&s.amplitude, false, AmplitudeStyle::Compact),
+                74
+            )
         );
     }
     let _ = writeln!(out);

@@ -7,7 +7,8 @@ use crate::analysis::tune::{TradeOffPoint, TuneResult};
 
 use super::cautions::{CAUTIONS, csv_comment_block, plot_caption};
 use super::csv::field as csv_field;
-use super::format::{percent_with_bound, probability};
+use super::error::ReportError;
+use super::format::{format_number, percent_with_bound, plain_significant_style, probability};
 use super::plot::{Chart, Marker, PlotError, ReferenceLine, Scale, Series, render_svg};
 use super::sweep::{PLOT_SIZE, dc_levels};
 use super::{TOOL_VERSION, input_sha256};
@@ -18,24 +19,9 @@ pub fn short_point(point: &TradeOffPoint) -> String {
     point
         .limits
         .iter()
-        .map(|(k, v)| format!("{k} = {}", significant(*v, 6)))
+        .map(|(k, v)| format!("{k} = {}", format_number(*v, &plain_significant_style(6))))
         .collect::<Vec<_>>()
         .join(", ")
-}
-
-/// `v` with `digits` significant digits, trailing zeros dropped.
-fn significant(v: f64, digits: usize) -> String {
-    if v == 0.0 || !v.is_finite() {
-        return format!("{v}");
-    }
-    let magnitude = v.abs().log10().floor() as i32;
-    let decimals = (digits as i32 - 1 - magnitude).max(0) as usize;
-    let s = format!("{v:.decimals$}");
-    if s.contains('.') {
-        s.trim_end_matches('0').trim_end_matches('.').to_string()
-    } else {
-        s
-    }
 }
 
 /// The summary for the terminal: the chosen limit, what it reaches, the price, and plain
@@ -132,7 +118,7 @@ struct TuneJson<'a> {
 ///
 /// # Errors
 /// Serialisation errors (none expected).
-pub fn json(result: &TuneResult, file: &str, text: &str) -> Result<String, String> {
+pub fn json(result: &TuneResult, file: &str, text: &str) -> Result<String, ReportError> {
     let j = TuneJson {
         tool_version: TOOL_VERSION,
         file,
@@ -140,12 +126,9 @@ pub fn json(result: &TuneResult, file: &str, text: &str) -> Result<String, Strin
         result,
         cautions: &CAUTIONS,
     };
-    serde_json::to_string_pretty(&j)
-        .map(|mut s| {
-            s.push('\n');
-            s
-        })
-        .map_err(|e| e.to_string())
+    let mut text = serde_json::to_string_pretty(&j)?;
+    text.push('\n');
+    Ok(text)
 }
 
 /// The trade-off curve as CSV, after the comment block of the cautions (lines starting with

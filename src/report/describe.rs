@@ -5,8 +5,12 @@
 
 use std::fmt::Write;
 
-use super::compiled::{Amplitude, Architecture, Detection, FaultMode};
-use super::text::{band, num, outside, short, sig};
+use crate::model::{Architecture, Detection, FaultMode};
+
+use super::format::{
+    AmplitudeStyle, as_written, band, describe_amplitude, format_number, outside, short_style,
+    significant_style,
+};
 
 fn pieces(n: usize) -> String {
     if n == 1 {
@@ -18,12 +22,12 @@ fn pieces(n: usize) -> String {
 
 /// Entry `i` of a vector, NaN when missing (a hand-built model with inconsistent sizes prints
 /// NaN instead of panicking).
-fn at(v: &[f64], i: usize) -> f64 {
+fn entry(v: &[f64], i: usize) -> f64 {
     v.get(i).copied().unwrap_or(f64::NAN)
 }
 
 /// Entry `(i, j)` of a matrix, NaN when missing.
-fn at2(m: &nalgebra::DMatrix<f64>, i: usize, j: usize) -> f64 {
+fn matrix_entry(m: &nalgebra::DMatrix<f64>, i: usize, j: usize) -> f64 {
     m.get((i, j)).copied().unwrap_or(f64::NAN)
 }
 
@@ -62,15 +66,21 @@ pub fn describe(arch: &Architecture) -> String {
         );
         for (j, s) in m.sources.iter().enumerate() {
             let feeds: Vec<String> = (0..m.channels.len())
-                .filter(|i| at2(&m.source_gains, *i, j) != 0.0)
-                .map(|i| format!("{} x {}", m.channels[i], num(at2(&m.source_gains, i, j))))
+                .filter(|i| matrix_entry(&m.source_gains, *i, j) != 0.0)
+                .map(|i| {
+                    format!(
+                        "{} x {}",
+                        m.channels[i],
+                        as_written(matrix_entry(&m.source_gains, i, j))
+                    )
+                })
                 .collect();
             let _ = writeln!(
                 o,
                 "  {:<w$}  {:>10}  {:>10}  {}",
                 s,
-                num(at(&m.source_means, j)),
-                num(at(&m.source_sigmas, j)),
+                as_written(entry(&m.source_means, j)),
+                as_written(entry(&m.source_sigmas, j)),
                 if feeds.is_empty() {
                     "(nothing)".into()
                 } else {
@@ -88,15 +98,15 @@ pub fn describe(arch: &Architecture) -> String {
         "name", "mean", "own sigma", "total sigma", "total mean"
     );
     for (i, c) in m.channels.iter().enumerate() {
-        let own_mean = at(&m.own_means, i);
+        let own_mean = entry(&m.own_means, i);
         let _ = writeln!(
             o,
             "  {:<w$}  {:>10}  {:>10}  {:>11}  {:>10}",
             c,
-            num(own_mean),
-            num(at(&m.own_sigmas, i)),
-            sig(at(&total, i), 4),
-            short(at(&m.mean, i))
+            as_written(own_mean),
+            as_written(entry(&m.own_sigmas, i)),
+            format_number(entry(&total, i), &significant_style(4)),
+            format_number(entry(&m.mean, i), &short_style(4))
         );
     }
 
@@ -116,7 +126,7 @@ pub fn describe(arch: &Architecture) -> String {
         for (i, c) in m.channels.iter().enumerate() {
             let mut row = format!("  {:<w$}", truncate(c, w));
             for j in 0..n {
-                let _ = write!(row, " {:>6.3}", at2(&r, i, j));
+                let _ = write!(row, " {:>6.3}", matrix_entry(&r, i, j));
             }
             let _ = writeln!(o, "{row}");
         }
@@ -166,13 +176,13 @@ pub fn describe(arch: &Architecture) -> String {
         o,
         "\nFault sites ({}, {} FIT in total)",
         m.faults.len(),
-        num(total_fit)
+        as_written(total_fit)
     );
     for f in &m.faults {
         let hits: Vec<String> = f
             .hits
             .iter()
-            .map(|(h, g)| format!("{h} x {}", num(*g)))
+            .map(|(h, g)| format!("{h} x {}", as_written(*g)))
             .collect();
         let mode = match &f.mode {
             FaultMode::Add { .. } => "add",
@@ -182,11 +192,11 @@ pub fn describe(arch: &Architecture) -> String {
             o,
             "  {}: {} FIT, {mode}, hits {}",
             f.name,
-            num(f.fit),
+            as_written(f.fit),
             hits.join(", ")
         );
         if f.latent_coverage > 0.0 {
-            let _ = write!(o, ", latent coverage {}", num(f.latent_coverage));
+            let _ = write!(o, ", latent coverage {}", as_written(f.latent_coverage));
         }
         o.push('\n');
         if let FaultMode::Add { direction } = &f.mode
@@ -196,14 +206,18 @@ pub fn describe(arch: &Architecture) -> String {
                 .iter()
                 .zip(&m.channels)
                 .filter(|(d, _)| **d != 0.0)
-                .map(|(d, c)| format!("{c} x {}", num(*d)))
+                .map(|(d, c)| format!("{c} x {}", as_written(*d)))
                 .collect();
             let _ = writeln!(o, "      reaches {}", d.join(", "));
         }
         let _ = writeln!(
             o,
             "      amplitude: {}",
-            amplitude(&f.amplitude, f.uniform_is_full_scale, unit)
+            describe_amplitude(
+                &f.amplitude,
+                f.uniform_is_full_scale,
+                AmplitudeStyle::Summary { unit }
+            )
         );
     }
 
@@ -212,47 +226,4 @@ pub fn describe(arch: &Architecture) -> String {
         let _ = writeln!(o, "  {w}");
     }
     o
-}
-
-/// One line describing an amplitude model.
-pub(crate) fn amplitude(a: &Amplitude, full_scale: bool, unit: &str) -> String {
-    match a {
-        Amplitude::Gaussian { mean, sigma } => {
-            format!(
-                "gaussian, mean {} {unit}, sigma {} {unit}",
-                num(*mean),
-                num(*sigma)
-            )
-        }
-        Amplitude::GaussianUnknownSigma {
-            mean,
-            sigma_lo,
-            sigma_hi,
-            defaulted,
-        } => format!(
-            "gaussian, mean {} {unit}, sigma unknown in [{}, {}] {unit}{}",
-            num(*mean),
-            short(*sigma_lo),
-            short(*sigma_hi),
-            if *defaulted { " (default range)" } else { "" }
-        ),
-        Amplitude::Uniform { lower, upper } => format!(
-            "uniform on {} {unit}{}",
-            band(*lower, *upper),
-            if full_scale { " (full scale)" } else { "" }
-        ),
-        Amplitude::Points(p) => {
-            let shown: Vec<String> = p
-                .iter()
-                .take(6)
-                .map(|(v, w)| format!("{} (p {})", num(*v), num(*w)))
-                .collect();
-            let more = if p.len() > 6 {
-                format!(", ... ({} points)", p.len())
-            } else {
-                String::new()
-            };
-            format!("points {}{more} {unit}", shown.join(", "))
-        }
-    }
 }

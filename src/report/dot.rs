@@ -3,10 +3,9 @@
 
 use std::fmt::Write;
 
-use super::compiled::{Architecture, FaultMode};
-use super::describe::amplitude;
-use super::graph::NodeKind;
-use super::text::{num, outside};
+use crate::model::{Architecture, FaultMode, NodeKind};
+
+use super::format::{AmplitudeStyle, as_written, describe_amplitude, outside};
 
 /// Quotes a string for DOT (backslash and double quote escaped, newlines as `\n`).
 fn quote(s: &str) -> String {
@@ -42,7 +41,7 @@ pub fn to_dot(arch: &Architecture) -> String {
                 let j = m.sources.iter().position(|s| *s == node.name);
                 let sigma = j
                     .and_then(|j| m.source_sigmas.get(j))
-                    .map(|s| num(*s))
+                    .map(|s| as_written(*s))
                     .unwrap_or_default();
                 (
                     format!("{}\nsource, sigma {sigma} {unit}", node.name),
@@ -53,7 +52,7 @@ pub fn to_dot(arch: &Architecture) -> String {
                 let i = m.channels.iter().position(|s| *s == node.name);
                 let sigma = i
                     .and_then(|i| m.own_sigmas.get(i))
-                    .map(|s| num(*s))
+                    .map(|s| as_written(*s))
                     .unwrap_or_default();
                 (
                     format!("{}\nchannel, own sigma {sigma} {unit}", node.name),
@@ -101,8 +100,12 @@ pub fn to_dot(arch: &Architecture) -> String {
                         };
                         format!(
                             "{} FIT, {mode}\n{}",
-                            num(f.fit),
-                            amplitude(&f.amplitude, f.uniform_is_full_scale, unit)
+                            as_written(f.fit),
+                            describe_amplitude(
+                                &f.amplitude,
+                                f.uniform_is_full_scale,
+                                AmplitudeStyle::Summary { unit }
+                            )
                         )
                     })
                     .unwrap_or_default();
@@ -137,7 +140,7 @@ pub fn to_dot(arch: &Architecture) -> String {
             "  {} -> {} [label={}{style}];",
             quote(&ida),
             quote(&idb),
-            quote(&num(g[e]))
+            quote(&as_written(g[e]))
         );
     }
     o.push_str("}\n");
