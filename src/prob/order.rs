@@ -825,16 +825,7 @@ fn conditional_figures(
     // The violation with every channel free, and the bound of its integral (an even median).
     let (v_lo, v_hi, e_v) = if rank.paired {
         let free = Conditional { band: &[], ..*cond };
-        let lower = paired_lower(&free, q, rank, None, &in_output, accuracy)?;
-        let mirror = Mirrored::of(&free, q);
-        let upper = paired_lower(
-            &mirror.conditional(),
-            &mirror.question,
-            rank,
-            None,
-            &in_output,
-            accuracy,
-        )?;
+        let [lower, upper] = paired_tails(&free, q, rank, false, &in_output, accuracy)?;
         evaluations += lower.evaluations + upper.evaluations;
         converged &= lower.converged && upper.converged;
         (lower.value, upper.value, [lower.error, upper.error])
@@ -848,16 +839,7 @@ fn conditional_figures(
         None if !banded => ([v_lo, v_hi, 1.0], [e_v[0], e_v[1], 0.0]),
         None if rank.paired => {
             // Own bands only: the pair's tails with every channel in its band.
-            let lower = paired_lower(cond, q, rank, None, &in_output, accuracy)?;
-            let mirror = Mirrored::of(cond, q);
-            let upper = paired_lower(
-                &mirror.conditional(),
-                &mirror.question,
-                rank,
-                None,
-                &in_output,
-                accuracy,
-            )?;
+            let [lower, upper] = paired_tails(cond, q, rank, false, &in_output, accuracy)?;
             evaluations += lower.evaluations + upper.evaluations;
             converged &= lower.converged && upper.converged;
             let [_, _, pass] = banded_tails(cond, rank, q, &in_output);
@@ -926,27 +908,7 @@ fn conditional_figures(
             if rank.paired {
                 // The pass figure stands; the two joint tails of the pair replace those of
                 // one order statistic.
-                let lower = paired_lower(cond, q, rank, Some(&pivot), &in_output, accuracy)?;
-                let mirror = Mirrored::of(cond, q);
-                let mirror_cond = mirror.conditional();
-                let upper = match Pivot::of(&mirror.question, &mirror_cond) {
-                    Some(p) => paired_lower(
-                        &mirror_cond,
-                        &mirror.question,
-                        rank,
-                        Some(&p),
-                        &in_output,
-                        accuracy,
-                    )?,
-                    None => paired_lower(
-                        &mirror_cond,
-                        &mirror.question,
-                        rank,
-                        None,
-                        &in_output,
-                        accuracy,
-                    )?,
-                };
+                let [lower, upper] = paired_tails(cond, q, rank, true, &in_output, accuracy)?;
                 evaluations += lower.evaluations + upper.evaluations;
                 converged &= lower.converged && upper.converged;
                 value[0] = lower.value;
@@ -1030,6 +992,35 @@ impl Mirrored {
             band: &self.band,
         }
     }
+}
+
+/// Both tails of an even median, `P(y < lo)` and `P(y > hi)` (the second as the lower tail
+/// of the mirrored channels), jointly with the agreement when `with_agreement` (its pivot
+/// found anew for each side) and with the channels' own bands as `cond` carries them.
+fn paired_tails(
+    cond: &Conditional,
+    q: &Question,
+    rank: &Rank,
+    with_agreement: bool,
+    in_output: &[bool],
+    accuracy: &Accuracy,
+) -> Result<[Integrated; 2], ProbError> {
+    let pivot = with_agreement.then(|| Pivot::of(q, cond)).flatten();
+    let lower = paired_lower(cond, q, rank, pivot.as_ref(), in_output, accuracy)?;
+    let mirror = Mirrored::of(cond, q);
+    let mirror_cond = mirror.conditional();
+    let mirror_pivot = with_agreement
+        .then(|| Pivot::of(&mirror.question, &mirror_cond))
+        .flatten();
+    let upper = paired_lower(
+        &mirror_cond,
+        &mirror.question,
+        rank,
+        mirror_pivot.as_ref(),
+        in_output,
+        accuracy,
+    )?;
+    Ok([lower, upper])
 }
 
 /// One integrated figure with its bound and cost.
