@@ -15,6 +15,8 @@
 //!   independent once a few shared terms are fixed, at polynomial cost in the number of
 //!   channels (counts and one-dimensional integrals instead of orderings).
 //! - [`vector_quadrature`]: adaptive Gauss–Kronrod over several integrands at once.
+//! - [`debounce`]: confirmation rules over a run of samples (consecutive, m of the last n,
+//!   up/down counters) as small Markov chains, and their fault-free alarm rates.
 //! - [`feasibility`]: a verified bound on how deep a point can lie inside a polytope (a
 //!   small simplex search checked by duality): proves a polytope empty, or thin.
 //! - [`cholesky`]: pivoted Cholesky factor of a (possibly singular) covariance.
@@ -28,6 +30,7 @@
 
 pub mod bivariate;
 pub mod cholesky;
+pub mod debounce;
 pub mod error;
 pub mod estimate;
 pub(crate) mod feasibility;
