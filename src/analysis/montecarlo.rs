@@ -409,6 +409,7 @@ pub fn analyze_montecarlo(
         });
     }
     Ok(Analysis {
+        timed: None,
         baseline,
         metrics: metrics(&sites),
         sites,

@@ -12,6 +12,7 @@ use super::metrics::{Metrics, metrics};
 use super::options::AnalysisOptions;
 use super::outcome::Outcome;
 use super::site::{SiteResult, analyze_site};
+use super::timing::{TimedAnalysis, analyze_timed};
 
 /// The result of analysing one architecture.
 #[derive(Debug, Clone, PartialEq)]
@@ -32,6 +33,8 @@ pub struct Analysis {
     pub warnings: Vec<String>,
     /// The settings used.
     pub options: AnalysisOptions,
+    /// The figures over time, when the file has a timing section.
+    pub timed: Option<TimedAnalysis>,
 }
 
 /// Precomputed state shared by every scenario of one architecture.
@@ -95,7 +98,23 @@ pub fn analyze(
             options,
         ));
     }
+    let timed = match &model.timing {
+        Some(timing) => {
+            let evaluator = engine.evaluator().map_err(|e| match e {
+                AnalysisError::TooLarge { .. } => AnalysisError::Unsupported {
+                    message: format!(
+                        "the timed analysis needs the polytope engine, which does not fit: {e}; \
+                         drop the [timing] section to analyse one sample"
+                    ),
+                },
+                other => other,
+            })?;
+            Some(analyze_timed(model, evaluator, timing, &sites, options)?)
+        }
+        None => None,
+    };
     Ok(Analysis {
+        timed,
         baseline: baseline_outcome,
         metrics: metrics(&sites),
         sites,

@@ -131,6 +131,7 @@ pub(crate) fn compile(v: &Resolved, order: &[usize], sink: &mut Sink<'_>) -> Opt
         safety_lower: v.safety.0,
         safety_upper: v.safety.1,
         faults,
+        timing: v.timing.clone(),
     })
 }
 

@@ -4,6 +4,8 @@
 
 use nalgebra::DMatrix;
 
+use crate::prob::debounce::Debounce;
+
 use super::bands::CheckBand;
 use super::error::Diagnostic;
 use super::graph::ModelGraph;
@@ -296,6 +298,31 @@ pub struct CompiledFault {
     pub uniform_is_full_scale: bool,
 }
 
+/// The timing section: the samples within the detection deadline and how the diagnostic
+/// confirms a fault over them (docs/architecture-format.md, "Timing").
+#[derive(Debug, Clone, PartialEq)]
+pub struct Timing {
+    /// Seconds between two samples.
+    pub sample_period: f64,
+    /// Seconds from the fault to the end of the detection deadline (the fault detection time
+    /// interval of ISO 26262-1:2018, at most the FTTI minus the fault reaction time).
+    pub deadline: f64,
+    /// Samples that fall within the deadline: `floor(deadline / sample_period)` (the fault
+    /// is taken to strike just after a sample, the least favourable alignment).
+    pub samples: usize,
+    /// How the diagnostic confirms a fault.
+    pub confirm: Debounce,
+    /// The output counts as dangerous when it leaves the safety band in at least this many
+    /// samples of the interval.
+    pub danger_samples: usize,
+    /// Per source (file order): true when its term is drawn anew every sample (default:
+    /// constant over the interval).
+    pub fresh_sources: Vec<bool>,
+    /// Per channel (file order): true when its own noise stays constant over the interval
+    /// (default: drawn anew every sample).
+    pub constant_channels: Vec<bool>,
+}
+
 /// The model the analysis integrates.
 #[derive(Debug, Clone, PartialEq)]
 pub struct CompiledModel {
@@ -337,6 +364,8 @@ pub struct CompiledModel {
     pub safety_lower: f64,
     pub safety_upper: f64,
     pub faults: Vec<CompiledFault>,
+    /// The timing section, when the file has one.
+    pub timing: Option<Timing>,
 }
 
 impl CompiledModel {

@@ -29,6 +29,7 @@ mod raw;
 mod read;
 mod resolved;
 mod text;
+mod timing;
 mod tree;
 mod validate;
 
@@ -37,7 +38,7 @@ use std::path::Path;
 pub use bands::{BandForm, CheckBand};
 pub use compiled::{
     Amplitude, Architecture, CompiledCheck, CompiledFault, CompiledModel, Detection, FaultMode,
-    Formula, Guard, LinearForm, OrderStat, Piece, PiecewiseLinear,
+    Formula, Guard, LinearForm, OrderStat, Piece, PiecewiseLinear, Timing,
 };
 pub use error::{Diagnostic, ModelError, Severity};
 pub use faults::default_sigma_range;

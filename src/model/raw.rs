@@ -194,6 +194,36 @@ pub(crate) struct RawFault {
     pub latent_coverage: Option<Spanned<f64>>,
 }
 
+/// `confirm` of the timing section: how the diagnostic confirms a fault over samples.
+#[derive(Debug, Clone, PartialEq)]
+pub(crate) enum RawConfirm {
+    /// `{ consecutive = n }`
+    Consecutive(Spanned<i64>),
+    /// `{ at_least = m, of_last = n }`
+    Window {
+        count: Spanned<i64>,
+        window: Spanned<i64>,
+    },
+    /// `{ up = u, down = d, trip = level }`
+    Counter {
+        up: Spanned<i64>,
+        down: Spanned<i64>,
+        trip: Spanned<i64>,
+    },
+}
+
+/// The `[timing]` section.
+#[derive(Debug, Clone, PartialEq)]
+pub(crate) struct RawTiming {
+    pub span: Span,
+    pub sample_period: Option<Spanned<f64>>,
+    pub deadline: Option<Spanned<f64>>,
+    pub confirm: Option<Spanned<RawConfirm>>,
+    pub danger_samples: Option<Spanned<i64>>,
+    pub fresh_sources: Vec<Spanned<String>>,
+    pub constant_channels: Vec<Spanned<String>>,
+}
+
 /// The whole file as read.
 #[derive(Debug, Clone, PartialEq)]
 pub(crate) struct RawModel {
@@ -209,6 +239,7 @@ pub(crate) struct RawModel {
     pub detection: Option<Spanned<RawFires>>,
     pub safety: Option<RawBand>,
     pub faults: Vec<RawFault>,
+    pub timing: Option<RawTiming>,
     /// True when a section of names (sources, channels, signals) or one of its entries could
     /// not be read: references to unknown names are then not reported (they would only echo
     /// the error already reported).

@@ -189,6 +189,10 @@ pub(crate) fn validate(raw: &RawModel, sink: &mut Sink<'_>) -> Option<Resolved> 
         .and_then(|b| band(sink, b, "the safety requirement"));
     let valid_checks: Vec<&VCheck> = checks.iter().flatten().collect();
     let faults = validate_faults(raw, &ns, safety, &valid_checks, sink);
+    let timing = raw
+        .timing
+        .as_ref()
+        .and_then(|t| super::timing::validate_timing(t, &ns, raw, sink));
 
     if sink.error_count() > errors_before {
         return None;
@@ -206,6 +210,7 @@ pub(crate) fn validate(raw: &RawModel, sink: &mut Sink<'_>) -> Option<Resolved> 
         detection: detection?,
         safety: safety?,
         faults,
+        timing,
         source_spans: raw.sources.iter().map(|s| s.name.span).collect(),
         channel_spans: raw.channels.iter().map(|c| c.name.span).collect(),
     })

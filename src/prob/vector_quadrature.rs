@@ -49,26 +49,42 @@ pub struct VectorIntegral<const K: usize> {
     pub evaluations: usize,
 }
 
-#[derive(Debug, Clone, Copy)]
-struct Interval<const K: usize> {
-    lo: f64,
-    hi: f64,
-    value: [f64; K],
-    error: [f64; K],
-    /// The part of `error` from the integrand's own errors, which bisection cannot shrink.
-    own: [f64; K],
+/// The integrals of a vector of run-time length with their error bounds ([`integrate_many`]).
+#[derive(Debug, Clone, PartialEq)]
+pub struct ManyIntegral {
+    /// The integral of each component.
+    pub value: Vec<f64>,
+    /// A bound on the error of each component.
+    pub error: Vec<f64>,
+    /// True when every component met its target.
+    pub converged: bool,
+    /// Integrand evaluations spent.
+    pub evaluations: usize,
 }
 
-fn rule<const K: usize, F>(f: &mut F, lo: f64, hi: f64) -> Result<Interval<K>, ProbError>
+/// One integrand evaluation of [`integrate_many`]: the values and a bound on the error of each.
+pub type ManyPoint = (Vec<f64>, Vec<f64>);
+
+#[derive(Debug, Clone)]
+struct Interval {
+    lo: f64,
+    hi: f64,
+    value: Vec<f64>,
+    error: Vec<f64>,
+    /// The part of `error` from the integrand's own errors, which bisection cannot shrink.
+    own: Vec<f64>,
+}
+
+fn rule<F>(f: &mut F, k: usize, lo: f64, hi: f64) -> Result<Interval, ProbError>
 where
-    F: FnMut(f64) -> Result<VectorPoint<K>, ProbError>,
+    F: FnMut(f64) -> Result<ManyPoint, ProbError>,
 {
     let centre = 0.5 * lo + 0.5 * hi;
     let half = 0.5 * hi - 0.5 * lo;
-    let mut kronrod = [0.0; K];
-    let mut gauss = [0.0; K];
-    let mut own = [0.0; K];
-    let mut magnitude = [0.0; K];
+    let mut kronrod = vec![0.0; k];
+    let mut gauss = vec![0.0; k];
+    let mut own = vec![0.0; k];
+    let mut magnitude = vec![0.0; k];
     for (i, &(node, wk, wg)) in GK21.iter().enumerate() {
         let xs: &[f64] = if i == 0 {
             &[centre]
@@ -77,7 +93,14 @@ where
         };
         for &x in xs {
             let (v, e) = f(x)?;
-            for c in 0..K {
+            if v.len() != k || e.len() != k {
+                return Err(ProbError::DimensionMismatch {
+                    what: "integrand of a vector integral".into(),
+                    expected: k,
+                    found: v.len().min(e.len()),
+                });
+            }
+            for c in 0..k {
                 if !v[c].is_finite() {
                     return Err(ProbError::NonFinite {
                         what: "integrand value".into(),
@@ -91,9 +114,9 @@ where
             }
         }
     }
-    let mut value = [0.0; K];
-    let mut error = [0.0; K];
-    for c in 0..K {
+    let mut value = vec![0.0; k];
+    let mut error = vec![0.0; k];
+    for c in 0..k {
         own[c] *= half.abs();
         value[c] = kronrod[c] * half;
         error[c] = ((kronrod[c] - gauss[c]).abs() + QUADPACK_ROUNDOFF_REL * magnitude[c])
@@ -125,6 +148,44 @@ pub fn integrate<const K: usize, F>(
 where
     F: FnMut(f64) -> Result<VectorPoint<K>, ProbError>,
 {
+    let r = integrate_many(
+        |x| f(x).map(|(v, e)| (v.to_vec(), e.to_vec())),
+        K,
+        a,
+        b,
+        breakpoints,
+        tol.abs,
+        &tol.rel,
+        tol.max_intervals,
+    )?;
+    Ok(VectorIntegral {
+        value: std::array::from_fn(|c| r.value.get(c).copied().unwrap_or(0.0)),
+        error: std::array::from_fn(|c| r.error.get(c).copied().unwrap_or(0.0)),
+        converged: r.converged,
+        evaluations: r.evaluations,
+    })
+}
+
+/// [`integrate`] for a vector whose length `k` is known only at run time (a detection
+/// curve with one point per sample, say): `rel` gives each component's relative target
+/// (missing entries count as 0), `abs` the absolute one of all.
+///
+/// # Errors
+/// As [`integrate`]; [`ProbError::DimensionMismatch`] when `f` returns another length.
+#[allow(clippy::too_many_arguments)]
+pub fn integrate_many<F>(
+    mut f: F,
+    k: usize,
+    a: f64,
+    b: f64,
+    breakpoints: &[f64],
+    abs: f64,
+    rel: &[f64],
+    max_intervals: usize,
+) -> Result<ManyIntegral, ProbError>
+where
+    F: FnMut(f64) -> Result<ManyPoint, ProbError>,
+{
     for (what, v) in [("lower end", a), ("upper end", b)] {
         if !v.is_finite() {
             return Err(ProbError::NonFinite {
@@ -134,13 +195,14 @@ where
         }
     }
     if b <= a {
-        return Ok(VectorIntegral {
-            value: [0.0; K],
-            error: [0.0; K],
+        return Ok(ManyIntegral {
+            value: vec![0.0; k],
+            error: vec![0.0; k],
             converged: true,
             evaluations: 0,
         });
     }
+    let rel_of = |c: usize| rel.get(c).copied().unwrap_or(0.0);
     let mut ends: Vec<f64> = breakpoints
         .iter()
         .copied()
@@ -153,30 +215,30 @@ where
     let mut pieces = Vec::with_capacity(ends.len() + 16);
     let mut evaluations = 0;
     for w in ends.windows(2) {
-        pieces.push(rule(&mut f, w[0], w[1])?);
+        pieces.push(rule(&mut f, k, w[0], w[1])?);
         evaluations += 21;
     }
-    let budget = tol.max_intervals.max(pieces.len());
+    let budget = max_intervals.max(pieces.len());
     loop {
-        let mut value = [0.0; K];
-        let mut error = [0.0; K];
+        let mut value = vec![0.0; k];
+        let mut error = vec![0.0; k];
         for p in &pieces {
-            for c in 0..K {
+            for c in 0..k {
                 value[c] += p.value[c];
                 error[c] += p.error[c];
             }
         }
-        let targets: [f64; K] = std::array::from_fn(|c| tol.abs.max(tol.rel[c] * value[c].abs()));
-        let met = (0..K).all(|c| error[c] <= targets[c]);
+        let targets: Vec<f64> = (0..k).map(|c| abs.max(rel_of(c) * value[c].abs())).collect();
+        let met = (0..k).all(|c| error[c] <= targets[c]);
         // Bisection shrinks only the rule's part of the error: once the integrand's own
         // errors alone miss a target and outweigh the rule's part, more pieces cannot help.
         let futile = !met
-            && (0..K).filter(|&c| error[c] > targets[c]).all(|c| {
+            && (0..k).filter(|&c| error[c] > targets[c]).all(|c| {
                 let own: f64 = pieces.iter().map(|p| p.own[c]).sum();
                 own >= targets[c] && error[c] - own <= own
             });
         if met || futile || pieces.len() >= budget {
-            return Ok(VectorIntegral {
+            return Ok(ManyIntegral {
                 value,
                 error,
                 converged: met,
@@ -191,7 +253,7 @@ where
             if width <= 4.0 * f64::EPSILON * p.lo.abs().max(p.hi.abs()).max(f64::MIN_POSITIVE) {
                 continue;
             }
-            let score = (0..K)
+            let score = (0..k)
                 .map(|c| (p.error[c] - p.own[c]) / targets[c].max(f64::MIN_POSITIVE))
                 .fold(0.0, f64::max);
             if score > worst_score {
@@ -200,7 +262,7 @@ where
             }
         }
         let Some(i) = worst else {
-            return Ok(VectorIntegral {
+            return Ok(ManyIntegral {
                 value,
                 error,
                 converged: false,
@@ -209,8 +271,8 @@ where
         };
         let p = pieces.swap_remove(i);
         let mid = 0.5 * p.lo + 0.5 * p.hi;
-        pieces.push(rule(&mut f, p.lo, mid)?);
-        pieces.push(rule(&mut f, mid, p.hi)?);
+        pieces.push(rule(&mut f, k, p.lo, mid)?);
+        pieces.push(rule(&mut f, k, mid, p.hi)?);
         evaluations += 42;
         // Keep the summation order independent of the bisection history's swaps.
         pieces.sort_by(|x, y| x.lo.total_cmp(&y.lo));

@@ -22,6 +22,16 @@
 //!   figures: `order_statistics` (counts of channels independent given a shared term),
 //!   `polytopes` (the general engine) or `monte_carlo`.
 //!
+//! - `timing` (only when the file has a `[timing]` section): `sample_period`, `deadline`,
+//!   `samples`, `confirm` (`{"rule": "consecutive", "count"}`, `{"rule": "count_of_last",
+//!   "count", "window"}` or `{"rule": "counter", "up", "down", "trip"}`), `danger_samples`,
+//!   `fresh_sources`, `constant_channels`, `false_alarms_per_sample`,
+//!   `false_alarms_per_hour`, `hours_between_false_alarms` (null when none occur), `error`
+//!   (their bounds), `sites` (per site over the interval: `dc`, `dc_all_dangerous`, the four
+//!   probabilities, `residual_fit`, `error`, `worst_sigma`, `constant_terms`,
+//!   `detection_curve`: `sample`, `time`, `p_detected`, `error`) and `metrics` (the metrics
+//!   with the timed outcomes, same keys as `metrics`).
+//!
 //! Fields may be added in later versions; none is dropped, and none is renamed except as
 //! listed here.
 //!
@@ -34,7 +44,11 @@ use serde::{Deserialize, Serialize};
 
 use crate::analysis::Outcome;
 use crate::analysis::engine::FigureMethod;
+use crate::analysis::metrics::Metrics;
 use crate::analysis::site::SiteResult;
+use crate::analysis::timing::{TimedAnalysis, TimedSite};
+use crate::model::CompiledModel;
+use crate::prob::debounce::Debounce;
 
 use super::cautions::CAUTIONS;
 use super::error::ReportError;
@@ -182,6 +196,75 @@ pub struct AnalysisJson {
     pub cautions: Vec<String>,
     #[serde(default)]
     pub tolerance: ToleranceJson,
+    /// The figures over time, only when the file has a timing section.
+    #[serde(skip_serializing_if = "Option::is_none", default)]
+    pub timing: Option<TimingJson>,
+}
+
+/// The confirmation rule of the timing section.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(tag = "rule", rename_all = "snake_case")]
+pub enum ConfirmJson {
+    /// `count` consecutive firing samples.
+    Consecutive { count: usize },
+    /// At least `count` of the last `window` samples.
+    CountOfLast { count: usize, window: usize },
+    /// Up/down counter tripping at `trip`.
+    Counter { up: usize, down: usize, trip: usize },
+}
+
+/// One point of a detection curve: the probability that the rule has confirmed by a sample.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct DetectionPointJson {
+    /// Samples since the fault (1 is the first sample after it).
+    pub sample: usize,
+    /// Seconds since the fault, `sample * sample_period`.
+    pub time: f64,
+    pub p_detected: f64,
+    pub error: f64,
+}
+
+/// The timed figures of one fault site.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct TimedSiteJson {
+    pub name: String,
+    pub dc: Option<f64>,
+    pub dc_all_dangerous: f64,
+    pub p_vd: f64,
+    pub p_vu: f64,
+    pub p_sd: f64,
+    pub p_sq: f64,
+    pub residual_fit: f64,
+    pub error: Bounds,
+    pub worst_sigma: Option<f64>,
+    pub constant_terms: usize,
+    pub detection_curve: Vec<DetectionPointJson>,
+}
+
+/// Error bounds of the false-alarm figures.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct FalseAlarmBounds {
+    pub false_alarms_per_sample: f64,
+    pub false_alarms_per_hour: f64,
+    pub hours_between_false_alarms: Option<f64>,
+}
+
+/// The figures over time.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct TimingJson {
+    pub sample_period: f64,
+    pub deadline: f64,
+    pub samples: usize,
+    pub confirm: ConfirmJson,
+    pub danger_samples: usize,
+    pub fresh_sources: Vec<String>,
+    pub constant_channels: Vec<String>,
+    pub false_alarms_per_sample: f64,
+    pub false_alarms_per_hour: f64,
+    pub hours_between_false_alarms: Option<f64>,
+    pub error: FalseAlarmBounds,
+    pub sites: Vec<TimedSiteJson>,
+    pub metrics: MetricsJson,
 }
 
 fn bounds(o: &Outcome) -> Bounds {
@@ -282,26 +365,7 @@ pub fn document(input: &ReportInput<'_>) -> AnalysisJson {
             figure_method: method_key(a.baseline_method).to_string(),
         },
         sites: a.sites.iter().map(site_json).collect(),
-        metrics: MetricsJson {
-            total_fit: m.total_fit,
-            residual_fit: m.residual_fit.value,
-            latent_fit: m.latent_fit.value,
-            spfm: m.spfm.value,
-            lfm: m.lfm.value,
-            sff: m.sff.value,
-            dc_avg: m.dc_avg.map(|d| d.value),
-            asil_spfm: m.asil_spfm.label().to_string(),
-            asil_lfm: m.asil_lfm.label().to_string(),
-            asil_residual_budget: m.asil_residual_budget.label().to_string(),
-            error: MetricBounds {
-                residual_fit: m.residual_fit.error,
-                latent_fit: m.latent_fit.error,
-                spfm: m.spfm.error,
-                lfm: m.lfm.error,
-                sff: m.sff.error,
-                dc_avg: m.dc_avg.map(|d| d.error),
-            },
-        },
+        metrics: metrics_json(m),
         verification: input.verification.map(|rows| {
             rows.iter()
                 .map(|r| AgreementJson {
@@ -321,6 +385,107 @@ pub fn document(input: &ReportInput<'_>) -> AnalysisJson {
             abs: a.options.polytope_abs,
             rel: a.options.polytope_rel,
         },
+        timing: a.timed.as_ref().map(|t| timing_json(t, &arch.model, &a.sites)),
+    }
+}
+
+fn metrics_json(m: &Metrics) -> MetricsJson {
+    MetricsJson {
+        total_fit: m.total_fit,
+        residual_fit: m.residual_fit.value,
+        latent_fit: m.latent_fit.value,
+        spfm: m.spfm.value,
+        lfm: m.lfm.value,
+        sff: m.sff.value,
+        dc_avg: m.dc_avg.map(|d| d.value),
+        asil_spfm: m.asil_spfm.label().to_string(),
+        asil_lfm: m.asil_lfm.label().to_string(),
+        asil_residual_budget: m.asil_residual_budget.label().to_string(),
+        error: MetricBounds {
+            residual_fit: m.residual_fit.error,
+            latent_fit: m.latent_fit.error,
+            spfm: m.spfm.error,
+            lfm: m.lfm.error,
+            sff: m.sff.error,
+            dc_avg: m.dc_avg.map(|d| d.error),
+        },
+    }
+}
+
+/// The confirmation rule in the JSON contract.
+pub fn confirm_json(rule: &Debounce) -> ConfirmJson {
+    match *rule {
+        Debounce::Consecutive { count } => ConfirmJson::Consecutive { count },
+        Debounce::Window { count, window } => ConfirmJson::CountOfLast { count, window },
+        Debounce::Counter { up, down, trip } => ConfirmJson::Counter { up, down, trip },
+    }
+}
+
+fn timing_json(t: &TimedAnalysis, model: &CompiledModel, sites: &[SiteResult]) -> TimingJson {
+    let picked = |names: &[String], flags: &[bool]| -> Vec<String> {
+        names
+            .iter()
+            .zip(flags)
+            .filter(|(_, f)| **f)
+            .map(|(n, _)| n.clone())
+            .collect()
+    };
+    let between = t.hours_between_false_alarms();
+    TimingJson {
+        sample_period: t.timing.sample_period,
+        deadline: t.timing.deadline,
+        samples: t.timing.samples,
+        confirm: confirm_json(&t.timing.confirm),
+        danger_samples: t.timing.danger_samples,
+        fresh_sources: picked(&model.sources, &t.timing.fresh_sources),
+        constant_channels: picked(&model.channels, &t.timing.constant_channels),
+        false_alarms_per_sample: t.false_alarms_per_sample.value,
+        false_alarms_per_hour: t.false_alarms_per_hour.value,
+        hours_between_false_alarms: between.map(|b| b.value),
+        error: FalseAlarmBounds {
+            false_alarms_per_sample: t.false_alarms_per_sample.error,
+            false_alarms_per_hour: t.false_alarms_per_hour.error,
+            hours_between_false_alarms: between.map(|b| b.error),
+        },
+        sites: t
+            .sites
+            .iter()
+            .zip(sites)
+            .map(|(ts, s)| timed_site_json(ts, s.fit, t.timing.sample_period))
+            .collect(),
+        metrics: metrics_json(&t.metrics),
+    }
+}
+
+fn timed_site_json(t: &TimedSite, fit: f64, period: f64) -> TimedSiteJson {
+    let o = &t.outcome;
+    let dc = o.dc();
+    let mut error = bounds(o);
+    error.dc = dc.map(|d| d.error);
+    error.dc_all_dangerous = Some(o.dc_all_dangerous().error);
+    TimedSiteJson {
+        name: t.name.clone(),
+        dc: dc.map(|d| d.value),
+        dc_all_dangerous: o.dc_all_dangerous().value,
+        p_vd: o.p_vd.value,
+        p_vu: o.p_vu.value,
+        p_sd: o.p_sd.value,
+        p_sq: o.p_sq.value,
+        residual_fit: o.p_vu.value * fit,
+        error,
+        worst_sigma: t.worst_sigma,
+        constant_terms: t.constant_terms,
+        detection_curve: t
+            .detected_by
+            .iter()
+            .enumerate()
+            .map(|(j, p)| DetectionPointJson {
+                sample: j + 1,
+                time: (j + 1) as f64 * period,
+                p_detected: p.value,
+                error: p.error,
+            })
+            .collect(),
     }
 }
 

@@ -29,6 +29,7 @@ const TOP_KEYS: &[&str] = &[
     "detection",
     "safety",
     "faults",
+    "timing",
 ];
 
 /// Reads the whole document.
@@ -46,6 +47,7 @@ pub(crate) fn read(root: &Node, sink: &mut Sink<'_>) -> RawModel {
         detection: None,
         safety: None,
         faults: Vec::new(),
+        timing: None,
         names_incomplete: false,
         channels_given: false,
     };
@@ -154,6 +156,9 @@ pub(crate) fn read(root: &Node, sink: &mut Sink<'_>) -> RawModel {
         ) {
             model.faults.push(read_fault(sink, name, t));
         }
+    }
+    if let Some(e) = top.take("timing") {
+        model.timing = read_timing(sink, &e.value);
     }
     top.finish(sink, TOP_KEYS);
     model

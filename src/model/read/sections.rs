@@ -604,3 +604,118 @@ pub(super) fn read_points(sink: &mut Sink<'_>, node: &Node, key: &str) -> Option
     }
     ok.then_some(RawAmplitude::Points(points))
 }
+
+/// The `[timing]` section: sample period, deadline, confirmation rule, danger count and
+/// which terms change from sample to sample.
+pub(super) fn read_timing(sink: &mut Sink<'_>, node: &Node) -> Option<RawTiming> {
+    let mut t = TableReader::of(node, "timing", sink)?;
+    let sample_period = t.required_number(sink, "sample_period", "sample_period = 0.01");
+    let deadline = t.required_number(sink, "deadline", "deadline = 0.1");
+    let confirm = t.take("confirm").and_then(|e| read_confirm(sink, &e.value, &t.path("confirm")));
+    let danger_samples = t.take("danger_samples").and_then(|e| {
+        integer(sink, &e.value, &t.path("danger_samples"), "danger_samples = 1")
+    });
+    let fresh_sources = t
+        .take("fresh_sources")
+        .map(|e| name_list(sink, &e.value, &t.path("fresh_sources"), "fresh_sources = [\"vref\"]"))
+        .unwrap_or_default();
+    let constant_channels = t
+        .take("constant_channels")
+        .map(|e| {
+            name_list(
+                sink,
+                &e.value,
+                &t.path("constant_channels"),
+                "constant_channels = [\"estimate\"]",
+            )
+        })
+        .unwrap_or_default();
+    let span = t.span;
+    t.finish(
+        sink,
+        &[
+            "sample_period",
+            "deadline",
+            "confirm",
+            "danger_samples",
+            "fresh_sources",
+            "constant_channels",
+        ],
+    );
+    Some(RawTiming {
+        span,
+        sample_period,
+        deadline,
+        confirm,
+        danger_samples,
+        fresh_sources,
+        constant_channels,
+    })
+}
+
+/// `confirm = { consecutive = n }`, `{ at_least = m, of_last = n }` or
+/// `{ up = u, down = d, trip = level }`.
+fn read_confirm(sink: &mut Sink<'_>, node: &Node, key: &str) -> Option<Spanned<RawConfirm>> {
+    let example = "confirm = { consecutive = 3 }, { at_least = 3, of_last = 5 } or \
+                   { up = 2, down = 1, trip = 6 }";
+    let mut t = TableReader::of(node, key, sink)?;
+    let mut int = |t: &mut TableReader<'_>, k: &str| {
+        let path = t.path(k);
+        t.take(k)
+            .and_then(|e| integer(sink, &e.value, &path, &format!("{k} = 3")))
+    };
+    let consecutive = int(&mut t, "consecutive");
+    let at_least = int(&mut t, "at_least");
+    let of_last = int(&mut t, "of_last");
+    let up = int(&mut t, "up");
+    let down = int(&mut t, "down");
+    let trip = int(&mut t, "trip");
+    let known = ["consecutive", "at_least", "of_last", "up", "down", "trip"];
+    let present: Vec<&str> = known
+        .iter()
+        .copied()
+        .filter(|k| t.entries.iter().any(|e| e.key == *k))
+        .collect();
+    t.finish(sink, &known);
+    let read_count = [&consecutive, &at_least, &of_last, &up, &down, &trip]
+        .iter()
+        .filter(|v| v.is_some())
+        .count();
+    let rule = match (consecutive, at_least, of_last, up, down, trip) {
+        (Some(n), None, None, None, None, None) => RawConfirm::Consecutive(n),
+        (None, Some(count), Some(window), None, None, None) => RawConfirm::Window { count, window },
+        (None, None, None, Some(up), Some(down), Some(trip)) => RawConfirm::Counter { up, down, trip },
+        _ => {
+            // A key that could not be read was reported already; otherwise the mix is wrong.
+            if present.len() == read_count {
+                sink.error(
+                    node.span,
+                    key,
+                    format!(
+                        "the confirmation rule has the keys {} but needs exactly one of three \
+                         forms",
+                        if present.is_empty() { "(none)".to_string() } else { present.join(", ") }
+                    ),
+                    format!("write {example}"),
+                );
+            }
+            return None;
+        }
+    };
+    Some(spanned(rule, node, key))
+}
+
+/// A list of names: `["a", "b"]`.
+fn name_list(sink: &mut Sink<'_>, node: &Node, key: &str, example: &str) -> Vec<Spanned<String>> {
+    match &node.value {
+        Value::Array(items) => items
+            .iter()
+            .enumerate()
+            .filter_map(|(i, item)| string(sink, item, &format!("{key}[{i}]"), example))
+            .collect(),
+        _ => {
+            type_error(sink, node, key, "a list of names", example);
+            Vec::new()
+        }
+    }
+}

@@ -1,0 +1,616 @@
+//! Figures over time (docs/architecture-format.md, "Timing"): the four outcomes of a fault
+//! site over the samples within the detection deadline with the confirmation rule, the
+//! detection curve, and the fault-free rate of false alarms per hour.
+//!
+//! The channel deviations of one sample are `x = m + A c + d F + e`: `c` the terms that stay
+//! constant over the interval (the shared sources not marked fresh, the own noise of channels
+//! marked constant, a gaussian fault amplitude) as independent standard normals, `F` a fault
+//! amplitude of another kind, and `e` the terms drawn anew every sample. Given `c` and `F` the
+//! samples are independent, so the confirmation rule is a Markov chain driven by the
+//! per-sample figures of the gaussian `N(m + A c + d F, Cov e)` (`prob::debounce`); the
+//! constant terms are integrated outside it by nested adaptive Gauss–Kronrod with the
+//! gaussian weight (the tails beyond [`GAUSSIAN_REACH`] added to the bound), the amplitude
+//! as the single-sample analysis does (uniform: over its range with the steps of every
+//! polytope as breakpoints; points: their weighted sum; an unknown sigma: the worst timed
+//! residual over its range).
+//!
+//! Bounds: a chain over `N` samples whose per-sample probabilities are each off by at most
+//! their bounds moves every interval probability by at most `N` times the sum of the four
+//! bounds (the total variation of a product of `N` independent steps grows at most
+//! additively, common practice for couplings); the quadrature adds its own.
+
+use nalgebra::{DMatrix, SymmetricEigen};
+use rayon::prelude::*;
+
+use crate::model::{Amplitude, CompiledFault, CompiledModel, FaultMode, Timing};
+use crate::prob::Estimate;
+use crate::prob::debounce::{DebounceChain, episode_rate, episode_rate_sensitivity};
+use crate::prob::normal;
+use crate::prob::optimise::{brent_minimise, log_grid};
+use crate::prob::polytope::Gaussian;
+use crate::prob::vector_quadrature::{ManyPoint, integrate_many};
+
+use super::error::AnalysisError;
+use super::evaluate::Evaluator;
+use super::metrics::{Metrics, metrics};
+use super::options::AnalysisOptions;
+use super::outcome::{Figure, Outcome};
+use super::scenario::FaultScenario;
+use super::site::{SiteResult, amplitude_window};
+
+/// Most terms constant over the interval that one scenario may have (each is one nested
+/// integral around the chain).
+pub const MAX_CONSTANT_TERMS: usize = 3;
+
+/// Constant terms are integrated over `[-GAUSSIAN_REACH, GAUSSIAN_REACH]` standard
+/// deviations; the two tails beyond hold `2 P(Z > 8.5)`, about 1.9e-17 (mpmath 1.3.0 gives
+/// 1.896e-17), which is added to every bound.
+pub const GAUSSIAN_REACH: f64 = 8.5;
+
+/// Eigenvalues of the constant covariance below this share of the largest are dropped (the
+/// terms they stand for move the channels by less than 1e-6 of the largest one's spread).
+const CONSTANT_RANK_REL: f64 = 1e-12;
+
+/// Hours in seconds.
+const SECONDS_PER_HOUR: f64 = 3600.0;
+
+/// The timed figures of one fault site.
+#[derive(Debug, Clone, PartialEq)]
+pub struct TimedSite {
+    /// The site's name.
+    pub name: String,
+    /// The four outcomes over the interval: dangerous (the output outside the safety band in
+    /// at least `danger_samples` samples) and confirmed by the deadline, dangerous and not
+    /// confirmed in time (the residual), confirmed and not dangerous, neither.
+    pub outcome: Outcome,
+    /// `detected_by[j]`: the probability that the rule has confirmed by sample `j + 1`.
+    pub detected_by: Vec<Estimate>,
+    /// The fault sigma of the worst timed residual, when the sigma is unknown.
+    pub worst_sigma: Option<f64>,
+    /// How many terms constant over the interval were integrated around the chain.
+    pub constant_terms: usize,
+}
+
+/// Everything timed of one architecture.
+#[derive(Debug, Clone, PartialEq)]
+pub struct TimedAnalysis {
+    /// The timing section of the file.
+    pub timing: Timing,
+    /// Fault-free alarm episodes per sample (steady state, see `prob::debounce`).
+    pub false_alarms_per_sample: Estimate,
+    /// Fault-free alarm episodes per hour of operation.
+    pub false_alarms_per_hour: Estimate,
+    /// One result per fault site, in file order.
+    pub sites: Vec<TimedSite>,
+    /// The hardware metrics with every site's timed outcome in place of its one-sample one
+    /// (a fault confirmed after the deadline counts as not detected).
+    pub metrics: Metrics,
+}
+
+impl TimedAnalysis {
+    /// Mean operating hours between two false alarms, when any occur.
+    pub fn hours_between_false_alarms(&self) -> Option<Estimate> {
+        let r = self.false_alarms_per_hour;
+        (r.value > 0.0).then(|| {
+            let lo = (r.value - r.error).max(0.0);
+            let value = 1.0 / r.value;
+            let error = if lo > 0.0 {
+                1.0 / lo - value
+            } else {
+                f64::INFINITY
+            };
+            Estimate::new(value, error)
+        })
+    }
+}
+
+/// The samples of one scenario: the per-sample gaussian given the constant terms.
+#[derive(Debug, Clone)]
+struct Split {
+    /// The fresh part with the mean at zero constant terms.
+    fresh: Gaussian,
+    /// How each constant term (a standard normal) moves the channels.
+    constant: Vec<Vec<f64>>,
+    /// How a non-gaussian amplitude moves the channels.
+    direction: Vec<f64>,
+}
+
+impl Split {
+    /// The split of a scenario: the fault-free channels, or a fault site with (for a gaussian
+    /// amplitude) its mean and sigma folded in.
+    fn new(
+        model: &CompiledModel,
+        timing: &Timing,
+        fault: Option<&CompiledFault>,
+        gaussian: Option<(f64, f64)>,
+    ) -> Result<Self, AnalysisError> {
+        let n = model.channels.len();
+        let own = DMatrix::from_fn(n, n, |i, j| {
+            model.own_sigmas[i] * model.own_sigmas[j] * model.own_correlation[(i, j)]
+        });
+        let mut fresh = own.clone();
+        let mut constant = DMatrix::zeros(n, n);
+        for (j, sigma) in model.source_sigmas.iter().enumerate() {
+            let g = model.source_gains.column(j);
+            let term = (&g * g.transpose()) * (sigma * sigma);
+            if timing.fresh_sources.get(j).copied().unwrap_or(false) {
+                fresh += term;
+            } else {
+                constant += term;
+            }
+        }
+        let held: Vec<usize> = (0..n)
+            .filter(|i| timing.constant_channels.get(*i).copied().unwrap_or(false))
+            .collect();
+        if !held.is_empty() {
+            // The held channels' own noise and what it implies for the others through their
+            // correlations: Cov(e, e_C) Cov(e_C)^+ Cov(e_C, e).
+            let cross = DMatrix::from_fn(n, held.len(), |i, k| own[(i, held[k])]);
+            let inner = DMatrix::from_fn(held.len(), held.len(), |a, b| own[(held[a], held[b])]);
+            let pinv = inner.pseudo_inverse(1e-12).map_err(|e| AnalysisError::Unsupported {
+                message: format!("the own noise of the constant channels cannot be split: {e}"),
+            })?;
+            let part = &cross * pinv * cross.transpose();
+            constant += &part;
+            fresh -= part;
+        }
+        let mut mean = model.mean.clone();
+        let mut direction = vec![0.0; n];
+        if let Some(f) = fault {
+            match &f.mode {
+                FaultMode::Add { direction: d } => direction.clone_from(d),
+                FaultMode::Replace { channel, gain } => {
+                    let i = *channel;
+                    if i >= n {
+                        return Err(AnalysisError::InconsistentModel {
+                            context: format!("fault site '{}'", f.name),
+                            message: format!("replaced channel {i} outside the {n} channels"),
+                        });
+                    }
+                    mean[i] = 0.0;
+                    for j in 0..n {
+                        for m in [&mut fresh, &mut constant] {
+                            m[(i, j)] = 0.0;
+                            m[(j, i)] = 0.0;
+                        }
+                    }
+                    direction[i] = *gain;
+                }
+            }
+        }
+        if let Some((m, s)) = gaussian {
+            for i in 0..n {
+                mean[i] += direction[i] * m;
+                for j in 0..n {
+                    constant[(i, j)] += s * s * direction[i] * direction[j];
+                }
+            }
+        }
+        // Symmetric by construction; rounding is removed before factoring.
+        let fresh = (&fresh + fresh.transpose()) * 0.5;
+        let constant = (&constant + constant.transpose()) * 0.5;
+        let eigen = SymmetricEigen::new(constant);
+        let largest = eigen.eigenvalues.iter().copied().fold(0.0, f64::max);
+        let mut terms: Vec<(f64, Vec<f64>)> = eigen
+            .eigenvalues
+            .iter()
+            .enumerate()
+            .filter(|(_, l)| **l > CONSTANT_RANK_REL * largest && **l > 0.0)
+            .map(|(k, l)| {
+                let v = eigen.eigenvectors.column(k);
+                (*l, v.iter().map(|x| x * l.sqrt()).collect())
+            })
+            .collect();
+        terms.sort_by(|a, b| b.0.total_cmp(&a.0));
+        if terms.len() > MAX_CONSTANT_TERMS {
+            return Err(AnalysisError::Unsupported {
+                message: format!(
+                    "{}: {} independent terms stay constant over the interval, more than the \
+                     {MAX_CONSTANT_TERMS} the timed analysis integrates; mark shared sources \
+                     whose term changes from sample to sample in timing.fresh_sources",
+                    fault.map_or("the fault-free channels".to_string(), |f| format!(
+                        "fault site '{}'",
+                        f.name
+                    )),
+                    terms.len()
+                ),
+            });
+        }
+        let fresh = Gaussian::new(&mean, &fresh)
+            .map_err(|e| AnalysisError::engine("the part of the noise fresh every sample", e))?;
+        Ok(Self {
+            fresh,
+            constant: terms.into_iter().map(|(_, v)| v).collect(),
+            direction,
+        })
+    }
+
+    /// The per-sample gaussian at constant terms `c` and amplitude `amplitude`.
+    fn at(&self, c: &[f64], amplitude: f64) -> Result<Gaussian, AnalysisError> {
+        let delta: Vec<f64> = (0..self.direction.len())
+            .map(|i| {
+                self.constant
+                    .iter()
+                    .zip(c)
+                    .map(|(col, ck)| col[i] * ck)
+                    .sum::<f64>()
+                    + self.direction[i] * amplitude
+            })
+            .collect();
+        self.fresh
+            .shifted(&delta)
+            .map_err(|e| AnalysisError::engine("constant terms of the interval", e))
+    }
+}
+
+/// Tolerances of the nested integrals.
+#[derive(Debug, Clone, Copy)]
+struct Accuracy {
+    abs: f64,
+    rel: f64,
+    max_intervals: usize,
+}
+
+/// `integral over c of phi(c) f(c) dc` over the constant terms from `level` on, each over
+/// `[-GAUSSIAN_REACH, GAUSSIAN_REACH]`; `f` gives values and their bounds; `scale[k]` bounds
+/// component `k` of `f` (for the tails).
+fn over_constant_terms(
+    level: usize,
+    terms: usize,
+    c: &mut Vec<f64>,
+    f: &dyn Fn(&[f64]) -> Result<ManyPoint, AnalysisError>,
+    scale: &[f64],
+    accuracy: &Accuracy,
+) -> Result<ManyPoint, AnalysisError> {
+    if level == terms {
+        return f(c);
+    }
+    let k = scale.len();
+    let rel = vec![accuracy.rel; k];
+    let mut failure = None;
+    let result = integrate_many(
+        |t| {
+            c.truncate(level);
+            c.push(t);
+            match over_constant_terms(level + 1, terms, c, f, scale, accuracy) {
+                Ok((v, e)) => {
+                    let w = normal::pdf(t);
+                    Ok((
+                        v.iter().map(|x| x * w).collect(),
+                        e.iter().map(|x| x * w).collect(),
+                    ))
+                }
+                Err(err) => {
+                    failure = Some(err);
+                    Err(crate::prob::ProbError::InvalidArgument(
+                        "an inner integral failed".into(),
+                    ))
+                }
+            }
+        },
+        k,
+        -GAUSSIAN_REACH,
+        GAUSSIAN_REACH,
+        &[-6.0, -3.0, -1.5, 0.0, 1.5, 3.0, 6.0],
+        accuracy.abs,
+        &rel,
+        accuracy.max_intervals,
+    );
+    c.truncate(level);
+    let r = match (result, failure) {
+        (_, Some(err)) => return Err(err),
+        (r, None) => r.map_err(|e| AnalysisError::engine("integral over the constant terms", e))?,
+    };
+    let tail = 2.0 * normal::sf(GAUSSIAN_REACH);
+    let error = r
+        .error
+        .iter()
+        .zip(scale)
+        .map(|(e, s)| e + tail * s)
+        .collect();
+    Ok((r.value, error))
+}
+
+/// The per-sample outcome given everything constant, and the chain over the interval:
+/// `[p_vd, p_vu, p_sd, p_sq, detected by sample 1, .., detected by sample N]` with bounds.
+fn chain_point(
+    evaluator: &Evaluator,
+    chain: &DebounceChain,
+    timing: &Timing,
+    gaussian: &Gaussian,
+) -> Result<ManyPoint, AnalysisError> {
+    let o = evaluator.outcome(gaussian)?;
+    let sample = [o.p_vd.value, o.p_vu.value, o.p_sd.value, o.p_sq.value];
+    let moved: f64 = Figure::ALL.iter().map(|f| o.get(*f).error).sum();
+    let f = chain.interval(sample, timing.samples, timing.danger_samples);
+    let error = moved * timing.samples as f64;
+    let mut values = f.outcome.to_vec();
+    values.extend(f.detected_by);
+    let errors = vec![error; values.len()];
+    Ok((values, errors))
+}
+
+/// The timed figures of one scenario at a fixed non-gaussian amplitude (or none).
+fn timed_at(
+    evaluator: &Evaluator,
+    chain: &DebounceChain,
+    timing: &Timing,
+    split: &Split,
+    amplitude: f64,
+    accuracy: &Accuracy,
+) -> Result<ManyPoint, AnalysisError> {
+    let scale = vec![1.0; 4 + timing.samples];
+    let f = |c: &[f64]| chain_point(evaluator, chain, timing, &split.at(c, amplitude)?);
+    over_constant_terms(
+        0,
+        split.constant.len(),
+        &mut Vec::new(),
+        &f,
+        &scale,
+        accuracy,
+    )
+}
+
+fn to_site(name: &str, point: &ManyPoint, worst_sigma: Option<f64>, terms: usize) -> TimedSite {
+    let (v, e) = point;
+    let est = |i: usize| {
+        Estimate::new(
+            v.get(i).copied().unwrap_or(0.0),
+            e.get(i).copied().unwrap_or(0.0),
+        )
+        .clamp_probability()
+    };
+    TimedSite {
+        name: name.to_string(),
+        outcome: Outcome {
+            p_vd: est(0),
+            p_vu: est(1),
+            p_sd: est(2),
+            p_sq: est(3),
+        },
+        detected_by: (4..v.len()).map(est).collect(),
+        worst_sigma,
+        constant_terms: terms,
+    }
+}
+
+/// The timed figures of one fault site.
+///
+/// # Errors
+/// Engine failures; more constant terms than [`MAX_CONSTANT_TERMS`].
+pub fn timed_site(
+    model: &CompiledModel,
+    evaluator: &Evaluator,
+    timing: &Timing,
+    fault: &CompiledFault,
+    options: &AnalysisOptions,
+) -> Result<TimedSite, AnalysisError> {
+    let chain = timing
+        .confirm
+        .chain()
+        .map_err(|e| AnalysisError::engine("confirmation rule", e))?;
+    let accuracy = Accuracy {
+        abs: options.amplitude_abs,
+        rel: options.amplitude_rel,
+        max_intervals: options.amplitude_max_intervals,
+    };
+    let k = 4 + timing.samples;
+    match &fault.amplitude {
+        Amplitude::Gaussian { mean, sigma } => {
+            let split = Split::new(model, timing, Some(fault), Some((*mean, *sigma)))?;
+            let p = timed_at(evaluator, &chain, timing, &split, 0.0, &accuracy)?;
+            Ok(to_site(&fault.name, &p, None, split.constant.len()))
+        }
+        Amplitude::Points(points) => {
+            let split = Split::new(model, timing, Some(fault), None)?;
+            let mut total = (vec![0.0; k], vec![0.0; k]);
+            for (value, weight) in points {
+                let (v, e) = timed_at(evaluator, &chain, timing, &split, *value, &accuracy)?;
+                for i in 0..k {
+                    total.0[i] += weight * v[i];
+                    total.1[i] += weight * e[i];
+                }
+            }
+            Ok(to_site(&fault.name, &total, None, split.constant.len()))
+        }
+        Amplitude::Uniform { lower, upper } => {
+            let split = Split::new(model, timing, Some(fault), None)?;
+            let p = if upper > lower {
+                let breakpoints = uniform_breakpoints(model, evaluator, fault, *lower, *upper)?;
+                let width = upper - lower;
+                let mut failure = None;
+                let r = integrate_many(
+                    |a| match timed_at(evaluator, &chain, timing, &split, a, &accuracy) {
+                        Ok((v, e)) => Ok((
+                            v.iter().map(|x| x / width).collect(),
+                            e.iter().map(|x| x / width).collect(),
+                        )),
+                        Err(err) => {
+                            failure = Some(err);
+                            Err(crate::prob::ProbError::InvalidArgument(
+                                "a timed point failed".into(),
+                            ))
+                        }
+                    },
+                    k,
+                    *lower,
+                    *upper,
+                    &breakpoints,
+                    accuracy.abs,
+                    &vec![accuracy.rel; k],
+                    accuracy.max_intervals,
+                );
+                match (r, failure) {
+                    (_, Some(err)) => return Err(err),
+                    (r, None) => {
+                        let r = r.map_err(|e| {
+                            AnalysisError::engine("integral over a uniform amplitude", e)
+                        })?;
+                        (r.value, r.error)
+                    }
+                }
+            } else {
+                timed_at(evaluator, &chain, timing, &split, *lower, &accuracy)?
+            };
+            Ok(to_site(&fault.name, &p, None, split.constant.len()))
+        }
+        Amplitude::GaussianUnknownSigma {
+            mean,
+            sigma_lo,
+            sigma_hi,
+            ..
+        } => {
+            let at_sigma = |sigma: f64, rel: f64| -> Result<(ManyPoint, usize), AnalysisError> {
+                let split = Split::new(model, timing, Some(fault), Some((*mean, sigma)))?;
+                let acc = Accuracy { rel, ..accuracy };
+                Ok((
+                    timed_at(evaluator, &chain, timing, &split, 0.0, &acc)?,
+                    split.constant.len(),
+                ))
+            };
+            let grid = log_grid(*sigma_lo, *sigma_hi, options.sigma_scan_points.max(3))
+                .map_err(|e| AnalysisError::engine("grid over the fault sigma", e))?;
+            let scan_rel = options.scan_tolerance().rel.max(accuracy.rel);
+            let residuals: Vec<f64> = grid
+                .par_iter()
+                .map(|s| at_sigma(*s, scan_rel).map(|(p, _)| p.0[1]))
+                .collect::<Result<_, _>>()?;
+            let best = residuals
+                .iter()
+                .enumerate()
+                .fold(0, |b, (i, r)| if *r > residuals[b] { i } else { b });
+            let (a, b) = (
+                grid[best.saturating_sub(1)],
+                grid[(best + 1).min(grid.len() - 1)],
+            );
+            let mut failure = None;
+            let refined = brent_minimise(
+                |log_sigma| match at_sigma(log_sigma.exp(), accuracy.rel) {
+                    Ok((p, _)) => Ok(-p.0[1]),
+                    Err(e) => {
+                        failure = Some(e);
+                        Err(crate::prob::ProbError::InvalidArgument(
+                            "a timed residual failed".into(),
+                        ))
+                    }
+                },
+                a.ln(),
+                b.ln(),
+                options.sigma_rel_tol,
+                options.sigma_max_evaluations,
+            );
+            if let Some(e) = failure {
+                return Err(e);
+            }
+            let sigma = match refined {
+                Ok(m) if -m.value >= residuals[best] => m.x.exp(),
+                _ => grid[best],
+            };
+            let (p, terms) = at_sigma(sigma, accuracy.rel)?;
+            Ok(to_site(&fault.name, &p, Some(sigma), terms))
+        }
+    }
+}
+
+/// The amplitudes where some polytope's figure steps, over a uniform range (as the
+/// single-sample analysis integrates them).
+fn uniform_breakpoints(
+    model: &CompiledModel,
+    evaluator: &Evaluator,
+    fault: &CompiledFault,
+    lower: f64,
+    upper: f64,
+) -> Result<Vec<f64>, AnalysisError> {
+    let scenario = FaultScenario::new(model, fault)?;
+    let mut points = Vec::new();
+    for figure in Figure::ALL {
+        for poly in evaluator.polytopes(figure) {
+            if let Some(w) = amplitude_window(poly, &scenario, lower, upper) {
+                points.push(w.lower);
+                points.push(w.upper);
+                points.extend(w.breakpoints);
+            }
+        }
+    }
+    points.retain(|p| p.is_finite() && *p > lower && *p < upper);
+    points.sort_by(f64::total_cmp);
+    points.dedup();
+    Ok(points)
+}
+
+/// Fault-free alarm episodes per sample: the steady-state rate of the rule given the
+/// constant terms, averaged over them.
+///
+/// # Errors
+/// Engine failures.
+pub fn false_alarms_per_sample(
+    model: &CompiledModel,
+    evaluator: &Evaluator,
+    timing: &Timing,
+    options: &AnalysisOptions,
+) -> Result<Estimate, AnalysisError> {
+    let split = Split::new(model, timing, None, None)?;
+    let rule = timing.confirm;
+    let f = |c: &[f64]| -> Result<ManyPoint, AnalysisError> {
+        let o = evaluator.outcome(&split.at(c, 0.0)?)?;
+        let alarm = o.alarm();
+        let p = alarm.value.clamp(0.0, 1.0);
+        let rate = episode_rate(&rule, p)
+            .map_err(|e| AnalysisError::engine("false-alarm rate of the rule", e))?;
+        let moved = episode_rate_sensitivity(&rule, p, alarm.error)
+            .map_err(|e| AnalysisError::engine("false-alarm rate of the rule", e))?;
+        Ok((vec![rate], vec![moved]))
+    };
+    let accuracy = Accuracy {
+        // Rates are tiny: only the relative target counts.
+        abs: 0.0,
+        rel: options.amplitude_rel,
+        max_intervals: options.amplitude_max_intervals,
+    };
+    let (v, e) = over_constant_terms(0, split.constant.len(), &mut Vec::new(), &f, &[1.0], &accuracy)?;
+    Ok(Estimate::new(v[0], e[0]))
+}
+
+/// The whole timed analysis of a model with a timing section; `sites` are the one-sample
+/// results (for the rates and the latent coverage of the timed metrics).
+///
+/// # Errors
+/// Engine failures, with the site named.
+pub fn analyze_timed(
+    model: &CompiledModel,
+    evaluator: &Evaluator,
+    timing: &Timing,
+    sites: &[SiteResult],
+    options: &AnalysisOptions,
+) -> Result<TimedAnalysis, AnalysisError> {
+    let per_sample = false_alarms_per_sample(model, evaluator, timing, options)?;
+    let timed: Vec<TimedSite> = model
+        .faults
+        .par_iter()
+        .map(|f| {
+            timed_site(model, evaluator, timing, f, options).map_err(|e| match e {
+                AnalysisError::Engine { context, source } => AnalysisError::Engine {
+                    context: format!("fault site '{}', timed, {context}", f.name),
+                    source,
+                },
+                other => other,
+            })
+        })
+        .collect::<Result<_, _>>()?;
+    let replaced: Vec<SiteResult> = sites
+        .iter()
+        .zip(&timed)
+        .map(|(s, t)| SiteResult {
+            outcome: t.outcome,
+            ..s.clone()
+        })
+        .collect();
+    let samples_per_hour = SECONDS_PER_HOUR / timing.sample_period;
+    Ok(TimedAnalysis {
+        timing: timing.clone(),
+        false_alarms_per_sample: per_sample,
+        false_alarms_per_hour: per_sample.scale(samples_per_hour),
+        sites: timed,
+        metrics: metrics(&replaced),
+    })
+}
