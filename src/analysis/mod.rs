@@ -32,6 +32,7 @@ pub mod scenario;
 pub mod selftest;
 pub mod site;
 pub mod spread;
+pub mod timed_sampling;
 pub mod timing;
 pub mod sweep;
 pub mod tune;

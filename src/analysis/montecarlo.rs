@@ -29,7 +29,7 @@ use super::site::{LocalWorst, SiteResult, WorstCase};
 pub const Z_999: f64 = 3.290_526_731_491_9;
 
 /// Samples per parallel chunk (fixed, so results do not depend on the thread count).
-const CHUNK: u64 = 1 << 14;
+pub(super) const CHUNK: u64 = 1 << 14;
 
 /// Upper limit on samples per scenario.
 pub const MAX_SAMPLES: u64 = 1 << 34;
@@ -129,12 +129,36 @@ pub enum Draw {
     Points(Vec<(f64, f64)>),
 }
 
+impl Draw {
+    /// One amplitude, `None` for no fault.
+    pub(super) fn amplitude(&self, rng: &mut SplitMix64, normals: &mut NormalSource) -> Option<f64> {
+        Some(match self {
+            Draw::None => return None,
+            Draw::Gaussian { mean, sigma } => mean + sigma * normals.next(rng),
+            Draw::Uniform { lower, upper } => lower + (upper - lower) * rng.next_f64(),
+            Draw::Points(points) => {
+                let u = rng.next_f64();
+                let mut acc = 0.0;
+                let mut chosen = points.last().map_or(0.0, |p| p.0);
+                for (v, w) in points {
+                    acc += w;
+                    if u < acc {
+                        chosen = *v;
+                        break;
+                    }
+                }
+                chosen
+            }
+        })
+    }
+}
+
 /// A model prepared for sampling.
 #[derive(Debug, Clone)]
 pub struct Sampler<'a> {
-    model: &'a CompiledModel,
-    own_mean: Vec<f64>,
-    own_factor: DMatrix<f64>,
+    pub(super) model: &'a CompiledModel,
+    pub(super) own_mean: Vec<f64>,
+    pub(super) own_factor: DMatrix<f64>,
 }
 
 impl<'a> Sampler<'a> {
@@ -188,23 +212,8 @@ impl<'a> Sampler<'a> {
             }
         }
         if let Some((mode, draw)) = fault {
-            let f = match draw {
-                Draw::None => return,
-                Draw::Gaussian { mean, sigma } => mean + sigma * normals.next(rng),
-                Draw::Uniform { lower, upper } => lower + (upper - lower) * rng.next_f64(),
-                Draw::Points(points) => {
-                    let u = rng.next_f64();
-                    let mut acc = 0.0;
-                    let mut chosen = points.last().map_or(0.0, |p| p.0);
-                    for (v, w) in points {
-                        acc += w;
-                        if u < acc {
-                            chosen = *v;
-                            break;
-                        }
-                    }
-                    chosen
-                }
+            let Some(f) = draw.amplitude(rng, normals) else {
+                return;
             };
             match mode {
                 FaultMode::Add { direction } => {
@@ -222,7 +231,7 @@ impl<'a> Sampler<'a> {
     }
 
     /// Which of the four outcomes a sampled point falls in.
-    fn classify(&self, x: &[f64]) -> usize {
+    pub(super) fn classify(&self, x: &[f64]) -> usize {
         let m = self.model;
         // The formulas as the file defines them, not the pieces the exact engine reads: an
         // independent path, and a cost linear in the arguments (the pieces of an order
@@ -289,12 +298,12 @@ impl<'a> Sampler<'a> {
 
 /// Box–Muller normal variates, two per pair of uniforms.
 #[derive(Debug, Default)]
-struct NormalSource {
+pub(super) struct NormalSource {
     spare: Option<f64>,
 }
 
 impl NormalSource {
-    fn next(&mut self, rng: &mut SplitMix64) -> f64 {
+    pub(super) fn next(&mut self, rng: &mut SplitMix64) -> f64 {
         if let Some(v) = self.spare.take() {
             return v;
         }
@@ -477,10 +486,11 @@ pub fn verify(
         );
         compare(&site.name, &site.outcome, &counts, &mut rows);
     }
+    rows.extend(super::timed_sampling::verify_timed(model, exact, mc)?);
     Ok(rows)
 }
 
-fn compare(name: &str, exact: &Outcome, counts: &Counts, rows: &mut Vec<Agreement>) {
+pub(super) fn compare(name: &str, exact: &Outcome, counts: &Counts, rows: &mut Vec<Agreement>) {
     let n = counts.total().max(1) as f64;
     for figure in Figure::ALL {
         let e = exact.get(figure);
