@@ -6,9 +6,11 @@ use crate::analysis::engine::FigureMethod;
 use crate::analysis::metrics::{LFM_TARGETS, SPFM_TARGETS};
 
 use super::cautions::CAUTIONS;
+use crate::analysis::timing::TimedAnalysis;
+
 use super::format::{
-    AmplitudeStyle, bound, describe_amplitude, fit, number, percent_floor, percent_with_bound,
-    probability, wrap,
+    AmplitudeStyle, bound, describe_amplitude, describe_confirm, fit, number, percent_floor,
+    percent_with_bound, probability, seconds, wrap,
 };
 use super::{ReportInput, TOOL_VERSION, input_sha256};
 
@@ -188,6 +190,9 @@ pub fn render(input: &ReportInput<'_>) -> String {
         "  residual rate budget: {} (single-point part of the PMHF only)",
         m.asil_residual_budget.verdict()
     );
+    if let Some(t) = &a.timed {
+        timed_section(&mut out, t, a);
+    }
     if let Some(rows) = input.verification {
         let _ = writeln!(out);
         let agree = rows.iter().filter(|r| r.agrees).count();
@@ -239,6 +244,73 @@ pub fn render(input: &ReportInput<'_>) -> String {
         }
     }
     out
+}
+
+/// The figures over time: the rule, the false alarms per hour, each site over the interval,
+/// the metrics with the timed outcomes.
+fn timed_section(out: &mut String, t: &TimedAnalysis, a: &crate::analysis::Analysis) {
+    let timing = &t.timing;
+    let _ = writeln!(out);
+    let head = format!(
+        "Over time: a sample every {}; a fault counts as confirmed after {}; the deadline is {} \
+         ({} samples); the output is dangerous when outside its band in at least {} sample{}",
+        seconds(timing.sample_period),
+        describe_confirm(&timing.confirm),
+        seconds(timing.deadline),
+        timing.samples,
+        timing.danger_samples,
+        if timing.danger_samples == 1 { "" } else { "s" }
+    );
+    for line in wrap(&head, 98) {
+        let _ = writeln!(out, "{line}");
+    }
+    let fa = t.false_alarms_per_hour;
+    let between = t
+        .hours_between_false_alarms()
+        .map_or("none occur".to_string(), |h| {
+            format!("one every {} h of operation", number(h.value))
+        });
+    let _ = writeln!(
+        out,
+        "  false alarms without a fault   {} per hour ± {}  ({between})",
+        probability(fa.value),
+        bound(fa.error)
+    );
+    let _ = writeln!(
+        out,
+        "{:<16} {:>8} {:>13} {:>10} {:>7} {:>11} {:>11} {:>11}",
+        "site", "DC %", "DC all-dang %", "p_vu", "bound", "in time %", "worst sigma", "resid. FIT"
+    );
+    for (ts, s) in t.sites.iter().zip(&a.sites) {
+        let o = &ts.outcome;
+        let in_time = ts.detected_by.last().map_or(0.0, |d| d.value);
+        let _ = writeln!(
+            out,
+            "{:<16} {:>8} {:>13} {:>10} {:>7} {:>11} {:>11} {:>11}",
+            clip(&ts.name, 16),
+            o.dc().map_or("-".to_string(), |d| percent_floor(d.value)),
+            percent_floor(o.dc_all_dangerous().value),
+            probability(o.p_vu.value),
+            bound(o.p_vu.error),
+            percent_floor(in_time),
+            ts.worst_sigma.map_or("-".to_string(), number),
+            fit(o.p_vu.value * s.fit)
+        );
+    }
+    let m = &t.metrics;
+    let _ = writeln!(
+        out,
+        "  with these outcomes: SPFM {} % ({}), residual rate {} FIT ± {}",
+        percent_with_bound(m.spfm),
+        m.asil_spfm.verdict(),
+        fit(m.residual_fit.value),
+        bound(m.residual_fit.error)
+    );
+    let _ = writeln!(
+        out,
+        "  (\"in time\": the rule confirms by the deadline, dangerous or not; DC counts a fault \
+         confirmed\n  after the deadline as not detected)"
+    );
 }
 
 fn targets(list: &[(crate::analysis::metrics::Asil, f64)]) -> String {
