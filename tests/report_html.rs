@@ -8,7 +8,11 @@ use std::process::Command;
 use concord::report::html::SECTIONS;
 use serde_json::Value;
 
-const EXAMPLES: [&str; 2] = ["plovrant_swa2_mean", "plovrant_swa2_shared_ref"];
+const EXAMPLES: [&str; 3] = [
+    "plovrant_swa2_mean",
+    "plovrant_swa2_shared_ref",
+    "plovrant_swa2_confirmed",
+];
 const SAMPLES: &str = "20000";
 const SEED: &str = "7";
 
@@ -82,6 +86,15 @@ fn lookup<'a>(json: &'a Value, key: &str) -> &'a Value {
                 .unwrap_or_else(|| panic!("no site {site}"));
             &s[*field]
         }
+        ["timing", "sites", site, field] => {
+            let sites = json["timing"]["sites"].as_array().expect("timed sites");
+            let s = sites
+                .iter()
+                .find(|s| s["name"] == *site)
+                .unwrap_or_else(|| panic!("no timed site {site}"));
+            &s[*field]
+        }
+        ["timing", "metrics", field] => &json["timing"]["metrics"][*field],
         ["verification", i, field] => {
             let i: usize = i.parse().expect("index");
             &json["verification"][i][*field]
@@ -167,7 +180,8 @@ fn report_is_well_formed_complete_and_agrees_with_the_json() {
                 || key.ends_with("spfm")
                 || key.ends_with("lfm")
                 || key.ends_with("sff")
-                || key.ends_with("dc_avg");
+                || key.ends_with("dc_avg")
+                || key.ends_with("confirmed_by_deadline");
             if percent {
                 // Truncated to two decimals, never rounded up.
                 let p = 100.0 * exact;
@@ -235,7 +249,21 @@ fn report_is_well_formed_complete_and_agrees_with_the_json() {
             .descendants()
             .filter(|n| n.has_tag_name("figure") && n.attribute("class") == Some("chart"))
             .count();
-        assert_eq!(charts, 2 * unknown, "{name}");
+        // Plus the detection curves when the file has a timing section.
+        let timed = usize::from(!json["timing"].is_null());
+        assert_eq!(charts, 2 * unknown + timed, "{name}");
+        if timed == 1 {
+            for f in ["false_alarms_per_hour", "false_alarms_per_sample"] {
+                assert!(keys.contains(&format!("timing/{f}")), "{name}: timing/{f}");
+            }
+            for s in json["timing"]["sites"].as_array().expect("timed sites") {
+                let site = s["name"].as_str().expect("name");
+                assert!(
+                    keys.contains(&format!("timing/sites/{site}/p_vu")),
+                    "{name}: {site}"
+                );
+            }
+        }
         assert!(text.contains("DC, all dangerous = 1 − p_vu"));
 
         // The marks of section 8 judge value minus error bound, as the JSON does. Targets of

@@ -32,9 +32,9 @@ pub mod scenario;
 pub mod selftest;
 pub mod site;
 pub mod spread;
+pub mod sweep;
 pub mod timed_sampling;
 pub mod timing;
-pub mod sweep;
 pub mod tune;
 
 pub use error::{AnalysisError, RequestField};

@@ -131,7 +131,11 @@ pub enum Draw {
 
 impl Draw {
     /// One amplitude, `None` for no fault.
-    pub(super) fn amplitude(&self, rng: &mut SplitMix64, normals: &mut NormalSource) -> Option<f64> {
+    pub(super) fn amplitude(
+        &self,
+        rng: &mut SplitMix64,
+        normals: &mut NormalSource,
+    ) -> Option<f64> {
         Some(match self {
             Draw::None => return None,
             Draw::Gaussian { mean, sigma } => mean + sigma * normals.next(rng),

@@ -113,13 +113,14 @@ impl Sampler<'_> {
                 let mut x = vec![0.0; n];
                 let todo = CHUNK.min(trials - c * CHUNK);
                 for _ in 0..todo {
-                    let own_draw = |normals: &mut NormalSource, rng: &mut SplitMix64, out: &mut [f64]| {
-                        let z: Vec<f64> = (0..n).map(|_| normals.next(rng)).collect();
-                        for (i, o) in out.iter_mut().enumerate() {
-                            let v: f64 = (0..n).map(|k| self.own_factor[(i, k)] * z[k]).sum();
-                            *o = m.own_sigmas[i] * v;
-                        }
-                    };
+                    let own_draw =
+                        |normals: &mut NormalSource, rng: &mut SplitMix64, out: &mut [f64]| {
+                            let z: Vec<f64> = (0..n).map(|_| normals.next(rng)).collect();
+                            for (i, o) in out.iter_mut().enumerate() {
+                                let v: f64 = (0..n).map(|k| self.own_factor[(i, k)] * z[k]).sum();
+                                *o = m.own_sigmas[i] * v;
+                            }
+                        };
                     own_draw(&mut normals, &mut rng, &mut held_own);
                     for (j, h) in held_source.iter_mut().enumerate() {
                         *h = m.source_means[j] + m.source_sigmas[j] * normals.next(&mut rng);
@@ -214,7 +215,12 @@ pub fn verify_timed(
             mc.seed,
             (k as u64 + 1) << 20,
         );
-        compare(&format!("{} (timed)", site.name), &site.outcome, &counts, &mut rows);
+        compare(
+            &format!("{} (timed)", site.name),
+            &site.outcome,
+            &counts,
+            &mut rows,
+        );
     }
     Ok(rows)
 }

@@ -147,9 +147,11 @@ impl Split {
             // correlations: Cov(e, e_C) Cov(e_C)^+ Cov(e_C, e).
             let cross = DMatrix::from_fn(n, held.len(), |i, k| own[(i, held[k])]);
             let inner = DMatrix::from_fn(held.len(), held.len(), |a, b| own[(held[a], held[b])]);
-            let pinv = inner.pseudo_inverse(1e-12).map_err(|e| AnalysisError::Unsupported {
-                message: format!("the own noise of the constant channels cannot be split: {e}"),
-            })?;
+            let pinv = inner
+                .pseudo_inverse(1e-12)
+                .map_err(|e| AnalysisError::Unsupported {
+                    message: format!("the own noise of the constant channels cannot be split: {e}"),
+                })?;
             let part = &cross * pinv * cross.transpose();
             constant += &part;
             fresh -= part;
@@ -567,7 +569,14 @@ pub fn false_alarms_per_sample(
         rel: options.amplitude_rel,
         max_intervals: options.amplitude_max_intervals,
     };
-    let (v, e) = over_constant_terms(0, split.constant.len(), &mut Vec::new(), &f, &[1.0], &accuracy)?;
+    let (v, e) = over_constant_terms(
+        0,
+        split.constant.len(),
+        &mut Vec::new(),
+        &f,
+        &[1.0],
+        &accuracy,
+    )?;
     Ok(Estimate::new(v[0], e[0]))
 }
 

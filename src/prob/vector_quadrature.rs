@@ -228,7 +228,9 @@ where
                 error[c] += p.error[c];
             }
         }
-        let targets: Vec<f64> = (0..k).map(|c| abs.max(rel_of(c) * value[c].abs())).collect();
+        let targets: Vec<f64> = (0..k)
+            .map(|c| abs.max(rel_of(c) * value[c].abs()))
+            .collect();
         let met = (0..k).all(|c| error[c] <= targets[c]);
         // Bisection shrinks only the rule's part of the error: once the integrand's own
         // errors alone miss a target and outweigh the rule's part, more pieces cannot help.

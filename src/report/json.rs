@@ -29,7 +29,7 @@
 //!   `false_alarms_per_hour`, `hours_between_false_alarms` (null when none occur), `error`
 //!   (their bounds), `sites` (per site over the interval: `dc`, `dc_all_dangerous`, the four
 //!   probabilities, `residual_fit`, `error`, `worst_sigma`, `constant_terms`,
-//!   `detection_curve`: `sample`, `time`, `p_detected`, `error`) and `metrics` (the metrics
+//!   `confirmed_by_deadline`, `detection_curve`: `sample`, `time`, `p_detected`, `error`) and `metrics` (the metrics
 //!   with the timed outcomes, same keys as `metrics`).
 //!
 //! Fields may be added in later versions; none is dropped, and none is renamed except as
@@ -238,6 +238,8 @@ pub struct TimedSiteJson {
     pub error: Bounds,
     pub worst_sigma: Option<f64>,
     pub constant_terms: usize,
+    /// The probability that the rule confirms by the deadline (the curve's last point).
+    pub confirmed_by_deadline: f64,
     pub detection_curve: Vec<DetectionPointJson>,
 }
 
@@ -385,7 +387,10 @@ pub fn document(input: &ReportInput<'_>) -> AnalysisJson {
             abs: a.options.polytope_abs,
             rel: a.options.polytope_rel,
         },
-        timing: a.timed.as_ref().map(|t| timing_json(t, &arch.model, &a.sites)),
+        timing: a
+            .timed
+            .as_ref()
+            .map(|t| timing_json(t, &arch.model, &a.sites)),
     }
 }
 
@@ -475,6 +480,7 @@ fn timed_site_json(t: &TimedSite, fit: f64, period: f64) -> TimedSiteJson {
         error,
         worst_sigma: t.worst_sigma,
         constant_terms: t.constant_terms,
+        confirmed_by_deadline: t.detected_by.last().map_or(0.0, |d| d.value),
         detection_curve: t
             .detected_by
             .iter()

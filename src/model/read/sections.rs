@@ -611,13 +611,27 @@ pub(super) fn read_timing(sink: &mut Sink<'_>, node: &Node) -> Option<RawTiming>
     let mut t = TableReader::of(node, "timing", sink)?;
     let sample_period = t.required_number(sink, "sample_period", "sample_period = 0.01");
     let deadline = t.required_number(sink, "deadline", "deadline = 0.1");
-    let confirm = t.take("confirm").and_then(|e| read_confirm(sink, &e.value, &t.path("confirm")));
+    let confirm = t
+        .take("confirm")
+        .and_then(|e| read_confirm(sink, &e.value, &t.path("confirm")));
     let danger_samples = t.take("danger_samples").and_then(|e| {
-        integer(sink, &e.value, &t.path("danger_samples"), "danger_samples = 1")
+        integer(
+            sink,
+            &e.value,
+            &t.path("danger_samples"),
+            "danger_samples = 1",
+        )
     });
     let fresh_sources = t
         .take("fresh_sources")
-        .map(|e| name_list(sink, &e.value, &t.path("fresh_sources"), "fresh_sources = [\"vref\"]"))
+        .map(|e| {
+            name_list(
+                sink,
+                &e.value,
+                &t.path("fresh_sources"),
+                "fresh_sources = [\"vref\"]",
+            )
+        })
         .unwrap_or_default();
     let constant_channels = t
         .take("constant_channels")
@@ -684,7 +698,9 @@ fn read_confirm(sink: &mut Sink<'_>, node: &Node, key: &str) -> Option<Spanned<R
     let rule = match (consecutive, at_least, of_last, up, down, trip) {
         (Some(n), None, None, None, None, None) => RawConfirm::Consecutive(n),
         (None, Some(count), Some(window), None, None, None) => RawConfirm::Window { count, window },
-        (None, None, None, Some(up), Some(down), Some(trip)) => RawConfirm::Counter { up, down, trip },
+        (None, None, None, Some(up), Some(down), Some(trip)) => {
+            RawConfirm::Counter { up, down, trip }
+        }
         _ => {
             // A key that could not be read was reported already; otherwise the mix is wrong.
             if present.len() == read_count {
@@ -694,7 +710,11 @@ fn read_confirm(sink: &mut Sink<'_>, node: &Node, key: &str) -> Option<Spanned<R
                     format!(
                         "the confirmation rule has the keys {} but needs exactly one of three \
                          forms",
-                        if present.is_empty() { "(none)".to_string() } else { present.join(", ") }
+                        if present.is_empty() {
+                            "(none)".to_string()
+                        } else {
+                            present.join(", ")
+                        }
                     ),
                     format!("write {example}"),
                 );

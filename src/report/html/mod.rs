@@ -2,7 +2,7 @@
 //! script, no outside resource), readable offline and printable on A4.
 //!
 //! Sections, each an `<section id=...>`, in reading order: `summary`, `scope`, `architecture`,
-//! `inputs`, `assumptions`, `results`, `curves`, `metrics`, `crosscheck`, `method`,
+//! `inputs`, `assumptions`, `results`, `curves`, `metrics`, `timing`, `crosscheck`, `method`,
 //! `reproduce`, `cautions` ([`SECTIONS`]).
 //!
 //! Every computed number is taken from the JSON document of [`super::json::document`], so
@@ -16,12 +16,13 @@
 //!
 //! Files: `mod.rs` the page, its header and the cells every section writes; one file per
 //! group of sections: `summary.rs` (1-2), `inputs.rs` (3-5), `results.rs` (6-8),
-//! `evidence.rs` (9-12); the stylesheet `report.css`.
+//! `timing.rs` (9), `evidence.rs` (10-13); the stylesheet `report.css`.
 
 mod evidence;
 mod inputs;
 mod results;
 mod summary;
+mod timing;
 
 use std::fmt::Write as _;
 
@@ -36,7 +37,7 @@ use results::{curves, metrics, results};
 use summary::{scope, summary};
 
 /// The ids of the report's sections, in order.
-pub const SECTIONS: [&str; 12] = [
+pub const SECTIONS: [&str; 13] = [
     "summary",
     "scope",
     "architecture",
@@ -45,6 +46,7 @@ pub const SECTIONS: [&str; 12] = [
     "results",
     "curves",
     "metrics",
+    "timing",
     "crosscheck",
     "method",
     "reproduce",
@@ -157,6 +159,7 @@ pub fn render(input: &ReportInput<'_>, options: &HtmlOptions) -> String {
     results(&mut o, &doc);
     curves(&mut o, &doc);
     metrics(&mut o, &doc);
+    timing::timing(&mut o, &doc);
     crosscheck(&mut o, &doc, options);
     method(&mut o, input, options);
     reproduce(&mut o, &doc, options);

@@ -193,6 +193,7 @@ pub fn residual_chart(site: &SiteJson, unit: &str) -> Option<Chart> {
     })
 }
 
+/// A chart as an SVG figure with its caption (or the reason it could not be drawn).
 pub(super) fn chart_figure(o: &mut String, chart: Option<Chart>, height: u32, caption: &str) {
     let Some(chart) = chart else {
         return;
