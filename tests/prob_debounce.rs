@@ -3,6 +3,9 @@
 //! detailed balance of a birth–death chain, and brute-force enumeration of every sequence
 //! of sample verdicts, with each rule applied as its definition reads (not through the chain).
 
+// Index loops read as the formulas do.
+#![allow(clippy::needless_range_loop)]
+
 use concord::prob::debounce::{Debounce, episode_rate, episode_rate_sensitivity};
 
 /// The rule applied to a sequence of verdicts by its definition; the index of the sample

@@ -240,6 +240,12 @@ impl<'m> Engine<'m> {
         })
     }
 
+    /// The order-statistic form of the model's output and checks, when the structure fits
+    /// (whatever the scenarios; the timed analysis asks per sample).
+    pub fn order_question(&self) -> Option<&Question> {
+        self.order.as_ref().map(|(q, _)| q)
+    }
+
     /// The model the engines analyse.
     pub fn model(&self) -> &CompiledModel {
         self.model

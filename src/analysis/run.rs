@@ -99,18 +99,7 @@ pub fn analyze(
         ));
     }
     let timed = match &model.timing {
-        Some(timing) => {
-            let evaluator = engine.evaluator().map_err(|e| match e {
-                AnalysisError::TooLarge { .. } => AnalysisError::Unsupported {
-                    message: format!(
-                        "the timed analysis needs the polytope engine, which does not fit: {e}; \
-                         drop the [timing] section to analyse one sample"
-                    ),
-                },
-                other => other,
-            })?;
-            Some(analyze_timed(model, evaluator, timing, &sites, options)?)
-        }
+        Some(timing) => Some(analyze_timed(&engine, timing, &sites, options)?),
         None => None,
     };
     Ok(Analysis {

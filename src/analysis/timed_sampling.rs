@@ -135,11 +135,11 @@ impl Sampler<'_> {
                             let held = timing.constant_channels.get(i).copied().unwrap_or(false);
                             x[i] = self.own_mean[i] + if held { held_own[i] } else { fresh_own[i] };
                         }
-                        for j in 0..s {
+                        for (j, held) in held_source.iter().enumerate() {
                             let value = if timing.fresh_sources.get(j).copied().unwrap_or(false) {
                                 m.source_means[j] + m.source_sigmas[j] * normals.next(&mut rng)
                             } else {
-                                held_source[j]
+                                *held
                             };
                             for (i, xi) in x.iter_mut().enumerate() {
                                 *xi += m.source_gains[(i, j)] * value;

@@ -27,9 +27,14 @@ use crate::prob::Estimate;
 use crate::prob::debounce::{DebounceChain, episode_rate, episode_rate_sensitivity};
 use crate::prob::normal;
 use crate::prob::optimise::{brent_minimise, log_grid};
+use crate::prob::order::{
+    Accuracy as OrderAccuracy, Question, SharedGaussian, figures as order_figures,
+    unsupported_reason,
+};
 use crate::prob::polytope::Gaussian;
 use crate::prob::vector_quadrature::{ManyPoint, integrate_many};
 
+use super::engine::{Engine, FigureMethod, POLYTOPES_UP_TO};
 use super::error::AnalysisError;
 use super::evaluate::Evaluator;
 use super::metrics::{Metrics, metrics};
@@ -51,6 +56,12 @@ pub const GAUSSIAN_REACH: f64 = 8.5;
 /// terms they stand for move the channels by less than 1e-6 of the largest one's spread).
 const CONSTANT_RANK_REL: f64 = 1e-12;
 
+/// Relative accuracy asked of the timed figures and of the per-sample figures they are
+/// built from (at least; the options may ask less): every point of the outer integrals is a
+/// whole chain over the interval, so they are held to a looser target than one-sample
+/// figures. The bounds reported are the bounds reached, whatever the target.
+pub const TIMED_REL: f64 = 1e-5;
+
 /// Hours in seconds.
 const SECONDS_PER_HOUR: f64 = 3600.0;
 
@@ -69,6 +80,8 @@ pub struct TimedSite {
     pub worst_sigma: Option<f64>,
     /// How many terms constant over the interval were integrated around the chain.
     pub constant_terms: usize,
+    /// The method that computed the figures of each sample.
+    pub method: FigureMethod,
 }
 
 /// Everything timed of one architecture.
@@ -109,6 +122,10 @@ impl TimedAnalysis {
 struct Split {
     /// The fresh part with the mean at zero constant terms.
     fresh: Gaussian,
+    /// Standard deviation of each channel's fresh part.
+    fresh_sd: Vec<f64>,
+    /// Whether the fresh parts of the channels are independent (diagonal covariance).
+    fresh_diagonal: bool,
     /// How each constant term (a standard normal) moves the channels.
     constant: Vec<Vec<f64>>,
     /// How a non-gaussian amplitude moves the channels.
@@ -132,7 +149,7 @@ impl Split {
         let mut constant = DMatrix::zeros(n, n);
         for (j, sigma) in model.source_sigmas.iter().enumerate() {
             let g = model.source_gains.column(j);
-            let term = (&g * g.transpose()) * (sigma * sigma);
+            let term = (g * g.transpose()) * (sigma * sigma);
             if timing.fresh_sources.get(j).copied().unwrap_or(false) {
                 fresh += term;
             } else {
@@ -218,10 +235,14 @@ impl Split {
                 ),
             });
         }
+        let fresh_sd = (0..n).map(|i| fresh[(i, i)].max(0.0).sqrt()).collect();
+        let fresh_diagonal = (0..n).all(|i| (0..n).all(|j| i == j || fresh[(i, j)] == 0.0));
         let fresh = Gaussian::new(&mean, &fresh)
             .map_err(|e| AnalysisError::engine("the part of the noise fresh every sample", e))?;
         Ok(Self {
             fresh,
+            fresh_sd,
+            fresh_diagonal,
             constant: terms.into_iter().map(|(_, v)| v).collect(),
             direction,
         })
@@ -245,6 +266,89 @@ impl Split {
     }
 }
 
+/// What computes the figures of one sample given the constant terms: the order-statistic
+/// engine when the model's structure fits it and the fresh part leaves the channels
+/// independent (a diagonal covariance: no own correlations, no fresh sources), the
+/// polytopes otherwise.
+#[derive(Clone, Copy)]
+enum SampleEngine<'a> {
+    Order(&'a Question, OrderAccuracy),
+    Polytopes(&'a Evaluator),
+}
+
+impl SampleEngine<'_> {
+    /// The four per-sample figures at the gaussian `g`.
+    fn outcome(&self, g: &Gaussian, split: &Split) -> Result<Outcome, AnalysisError> {
+        match self {
+            SampleEngine::Polytopes(evaluator) => evaluator.outcome(g),
+            SampleEngine::Order(q, accuracy) => {
+                let shared = SharedGaussian {
+                    mean: g.mean().to_vec(),
+                    own_sd: split.fresh_sd.clone(),
+                    shared: Vec::new(),
+                    uniform: None,
+                };
+                let f = order_figures(&shared, q, accuracy)
+                    .map_err(|e| AnalysisError::engine("order-statistic figures of a sample", e))?;
+                Ok(Outcome {
+                    p_vd: f.violated_detected,
+                    p_vu: f.violated_undetected,
+                    p_sd: f.safe_detected,
+                    p_sq: f.safe_quiet,
+                })
+            }
+        }
+    }
+
+    /// The engine for the samples of `split`: the order statistics when they fit.
+    fn choose<'a>(
+        engine: &'a Engine<'_>,
+        split: &Split,
+        options: &AnalysisOptions,
+    ) -> Result<SampleEngine<'a>, AnalysisError> {
+        let small = engine.model().channels.len() < POLYTOPES_UP_TO && engine.polytopes().is_ok();
+        if let Some(q) = engine.order_question()
+            && split.fresh_diagonal
+            && !small
+        {
+            let probe = SharedGaussian {
+                mean: split.fresh.mean().to_vec(),
+                own_sd: split.fresh_sd.clone(),
+                shared: Vec::new(),
+                uniform: None,
+            };
+            if unsupported_reason(&probe, q).is_none() {
+                return Ok(SampleEngine::Order(
+                    q,
+                    OrderAccuracy {
+                        abs: options.polytope_abs,
+                        rel: options.polytope_rel.max(TIMED_REL),
+                        max_intervals: options.amplitude_max_intervals,
+                    },
+                ));
+            }
+        }
+        let evaluator = engine.evaluator().map_err(|e| match e {
+            AnalysisError::TooLarge { .. } => AnalysisError::Unsupported {
+                message: format!(
+                    "the samples of the timed analysis need the polytope engine, which does \
+                     not fit: {e}; drop the [timing] section to analyse one sample"
+                ),
+            },
+            other => other,
+        })?;
+        Ok(SampleEngine::Polytopes(evaluator))
+    }
+
+    /// Which method computes the samples.
+    fn method(&self) -> FigureMethod {
+        match self {
+            SampleEngine::Order(..) => FigureMethod::OrderStatistics,
+            SampleEngine::Polytopes(_) => FigureMethod::Polytopes,
+        }
+    }
+}
+
 /// Tolerances of the nested integrals.
 #[derive(Debug, Clone, Copy)]
 struct Accuracy {
@@ -254,8 +358,9 @@ struct Accuracy {
 }
 
 /// `integral over c of phi(c) f(c) dc` over the constant terms from `level` on, each over
-/// `[-GAUSSIAN_REACH, GAUSSIAN_REACH]`; `f` gives values and their bounds; `scale[k]` bounds
-/// component `k` of `f` (for the tails).
+/// `[-GAUSSIAN_REACH, GAUSSIAN_REACH]` and integrated in the probability scale `u = Phi(c)`;
+/// `f` gives values and their bounds; `scale[k]` bounds component `k` of `f` (for the
+/// tails).
 fn over_constant_terms(
     level: usize,
     terms: usize,
@@ -293,7 +398,7 @@ fn over_constant_terms(
         k,
         -GAUSSIAN_REACH,
         GAUSSIAN_REACH,
-        &[-6.0, -3.0, -1.5, 0.0, 1.5, 3.0, 6.0],
+        &[-3.0, 0.0, 3.0],
         accuracy.abs,
         &rel,
         accuracy.max_intervals,
@@ -316,12 +421,13 @@ fn over_constant_terms(
 /// The per-sample outcome given everything constant, and the chain over the interval:
 /// `[p_vd, p_vu, p_sd, p_sq, detected by sample 1, .., detected by sample N]` with bounds.
 fn chain_point(
-    evaluator: &Evaluator,
+    sampler: &SampleEngine<'_>,
+    split: &Split,
     chain: &DebounceChain,
     timing: &Timing,
     gaussian: &Gaussian,
 ) -> Result<ManyPoint, AnalysisError> {
-    let o = evaluator.outcome(gaussian)?;
+    let o = sampler.outcome(gaussian, split)?;
     let sample = [o.p_vd.value, o.p_vu.value, o.p_sd.value, o.p_sq.value];
     let moved: f64 = Figure::ALL.iter().map(|f| o.get(*f).error).sum();
     let f = chain.interval(sample, timing.samples, timing.danger_samples);
@@ -334,7 +440,7 @@ fn chain_point(
 
 /// The timed figures of one scenario at a fixed non-gaussian amplitude (or none).
 fn timed_at(
-    evaluator: &Evaluator,
+    sampler: &SampleEngine<'_>,
     chain: &DebounceChain,
     timing: &Timing,
     split: &Split,
@@ -342,7 +448,7 @@ fn timed_at(
     accuracy: &Accuracy,
 ) -> Result<ManyPoint, AnalysisError> {
     let scale = vec![1.0; 4 + timing.samples];
-    let f = |c: &[f64]| chain_point(evaluator, chain, timing, &split.at(c, amplitude)?);
+    let f = |c: &[f64]| chain_point(sampler, split, chain, timing, &split.at(c, amplitude)?);
     over_constant_terms(
         0,
         split.constant.len(),
@@ -353,7 +459,13 @@ fn timed_at(
     )
 }
 
-fn to_site(name: &str, point: &ManyPoint, worst_sigma: Option<f64>, terms: usize) -> TimedSite {
+fn to_site(
+    name: &str,
+    point: &ManyPoint,
+    worst_sigma: Option<f64>,
+    split: &Split,
+    sampler: &SampleEngine<'_>,
+) -> TimedSite {
     let (v, e) = point;
     let est = |i: usize| {
         Estimate::new(
@@ -372,7 +484,8 @@ fn to_site(name: &str, point: &ManyPoint, worst_sigma: Option<f64>, terms: usize
         },
         detected_by: (4..v.len()).map(est).collect(),
         worst_sigma,
-        constant_terms: terms,
+        constant_terms: split.constant.len(),
+        method: sampler.method(),
     }
 }
 
@@ -381,8 +494,7 @@ fn to_site(name: &str, point: &ManyPoint, worst_sigma: Option<f64>, terms: usize
 /// # Errors
 /// Engine failures; more constant terms than [`MAX_CONSTANT_TERMS`].
 pub fn timed_site(
-    model: &CompiledModel,
-    evaluator: &Evaluator,
+    engine: &Engine<'_>,
     timing: &Timing,
     fault: &CompiledFault,
     options: &AnalysisOptions,
@@ -393,36 +505,41 @@ pub fn timed_site(
         .map_err(|e| AnalysisError::engine("confirmation rule", e))?;
     let accuracy = Accuracy {
         abs: options.amplitude_abs,
-        rel: options.amplitude_rel,
+        rel: options.amplitude_rel.max(TIMED_REL),
         max_intervals: options.amplitude_max_intervals,
     };
     let k = 4 + timing.samples;
+    let model = engine.model();
     match &fault.amplitude {
         Amplitude::Gaussian { mean, sigma } => {
             let split = Split::new(model, timing, Some(fault), Some((*mean, *sigma)))?;
-            let p = timed_at(evaluator, &chain, timing, &split, 0.0, &accuracy)?;
-            Ok(to_site(&fault.name, &p, None, split.constant.len()))
+            let sampler = SampleEngine::choose(engine, &split, options)?;
+            let p = timed_at(&sampler, &chain, timing, &split, 0.0, &accuracy)?;
+            Ok(to_site(&fault.name, &p, None, &split, &sampler))
         }
         Amplitude::Points(points) => {
             let split = Split::new(model, timing, Some(fault), None)?;
+            let sampler = SampleEngine::choose(engine, &split, options)?;
             let mut total = (vec![0.0; k], vec![0.0; k]);
             for (value, weight) in points {
-                let (v, e) = timed_at(evaluator, &chain, timing, &split, *value, &accuracy)?;
+                let (v, e) = timed_at(&sampler, &chain, timing, &split, *value, &accuracy)?;
                 for i in 0..k {
                     total.0[i] += weight * v[i];
                     total.1[i] += weight * e[i];
                 }
             }
-            Ok(to_site(&fault.name, &total, None, split.constant.len()))
+            Ok(to_site(&fault.name, &total, None, &split, &sampler))
         }
         Amplitude::Uniform { lower, upper } => {
             let split = Split::new(model, timing, Some(fault), None)?;
+            let sampler = SampleEngine::choose(engine, &split, options)?;
             let p = if upper > lower {
-                let breakpoints = uniform_breakpoints(model, evaluator, fault, *lower, *upper)?;
+                let breakpoints =
+                    uniform_breakpoints(&sampler, model, &split, fault, *lower, *upper)?;
                 let width = upper - lower;
                 let mut failure = None;
                 let r = integrate_many(
-                    |a| match timed_at(evaluator, &chain, timing, &split, a, &accuracy) {
+                    |a| match timed_at(&sampler, &chain, timing, &split, a, &accuracy) {
                         Ok((v, e)) => Ok((
                             v.iter().map(|x| x / width).collect(),
                             e.iter().map(|x| x / width).collect(),
@@ -452,9 +569,9 @@ pub fn timed_site(
                     }
                 }
             } else {
-                timed_at(evaluator, &chain, timing, &split, *lower, &accuracy)?
+                timed_at(&sampler, &chain, timing, &split, *lower, &accuracy)?
             };
-            Ok(to_site(&fault.name, &p, None, split.constant.len()))
+            Ok(to_site(&fault.name, &p, None, &split, &sampler))
         }
         Amplitude::GaussianUnknownSigma {
             mean,
@@ -462,20 +579,20 @@ pub fn timed_site(
             sigma_hi,
             ..
         } => {
-            let at_sigma = |sigma: f64, rel: f64| -> Result<(ManyPoint, usize), AnalysisError> {
+            type AtSigma<'e> = (ManyPoint, Split, SampleEngine<'e>);
+            let at_sigma = |sigma: f64, rel: f64| -> Result<AtSigma<'_>, AnalysisError> {
                 let split = Split::new(model, timing, Some(fault), Some((*mean, sigma)))?;
+                let sampler = SampleEngine::choose(engine, &split, options)?;
                 let acc = Accuracy { rel, ..accuracy };
-                Ok((
-                    timed_at(evaluator, &chain, timing, &split, 0.0, &acc)?,
-                    split.constant.len(),
-                ))
+                let p = timed_at(&sampler, &chain, timing, &split, 0.0, &acc)?;
+                Ok((p, split, sampler))
             };
             let grid = log_grid(*sigma_lo, *sigma_hi, options.sigma_scan_points.max(3))
                 .map_err(|e| AnalysisError::engine("grid over the fault sigma", e))?;
             let scan_rel = options.scan_tolerance().rel.max(accuracy.rel);
             let residuals: Vec<f64> = grid
                 .par_iter()
-                .map(|s| at_sigma(*s, scan_rel).map(|(p, _)| p.0[1]))
+                .map(|s| at_sigma(*s, scan_rel).map(|(p, ..)| p.0[1]))
                 .collect::<Result<_, _>>()?;
             let best = residuals
                 .iter()
@@ -488,7 +605,7 @@ pub fn timed_site(
             let mut failure = None;
             let refined = brent_minimise(
                 |log_sigma| match at_sigma(log_sigma.exp(), accuracy.rel) {
-                    Ok((p, _)) => Ok(-p.0[1]),
+                    Ok((p, ..)) => Ok(-p.0[1]),
                     Err(e) => {
                         failure = Some(e);
                         Err(crate::prob::ProbError::InvalidArgument(
@@ -508,29 +625,65 @@ pub fn timed_site(
                 Ok(m) if -m.value >= residuals[best] => m.x.exp(),
                 _ => grid[best],
             };
-            let (p, terms) = at_sigma(sigma, accuracy.rel)?;
-            Ok(to_site(&fault.name, &p, Some(sigma), terms))
+            let (p, split, sampler) = at_sigma(sigma, accuracy.rel)?;
+            Ok(to_site(&fault.name, &p, Some(sigma), &split, &sampler))
         }
     }
 }
 
-/// The amplitudes where some polytope's figure steps, over a uniform range (as the
-/// single-sample analysis integrates them).
+/// The amplitudes where a figure of one sample steps, over a uniform range: with the
+/// polytopes, every polytope's steps (as the single-sample analysis integrates them); with
+/// the order statistics, where the moved channel's mean meets another channel's mean, a band
+/// end of the safety requirement or a check limit, and a few fresh widths either side.
 fn uniform_breakpoints(
+    sampler: &SampleEngine<'_>,
     model: &CompiledModel,
-    evaluator: &Evaluator,
+    split: &Split,
     fault: &CompiledFault,
     lower: f64,
     upper: f64,
 ) -> Result<Vec<f64>, AnalysisError> {
-    let scenario = FaultScenario::new(model, fault)?;
     let mut points = Vec::new();
-    for figure in Figure::ALL {
-        for poly in evaluator.polytopes(figure) {
-            if let Some(w) = amplitude_window(poly, &scenario, lower, upper) {
-                points.push(w.lower);
-                points.push(w.upper);
-                points.extend(w.breakpoints);
+    match sampler {
+        SampleEngine::Polytopes(evaluator) => {
+            let scenario = FaultScenario::new(model, fault)?;
+            for figure in Figure::ALL {
+                for poly in evaluator.polytopes(figure) {
+                    if let Some(w) = amplitude_window(poly, &scenario, lower, upper) {
+                        points.push(w.lower);
+                        points.push(w.upper);
+                        points.extend(w.breakpoints);
+                    }
+                }
+            }
+        }
+        SampleEngine::Order(..) => {
+            let mean = split.fresh.mean();
+            let mut levels: Vec<f64> = vec![model.safety_lower, model.safety_upper];
+            for c in &model.checks {
+                levels.push(c.lower);
+                levels.push(c.upper);
+            }
+            let widest = split.fresh_sd.iter().copied().fold(0.0, f64::max);
+            for (i, d) in split.direction.iter().enumerate() {
+                if *d == 0.0 {
+                    continue;
+                }
+                let mut targets: Vec<f64> = levels.clone();
+                for (j, m) in mean.iter().enumerate() {
+                    if j != i {
+                        targets.push(*m);
+                        targets.extend(levels.iter().map(|l| m + l));
+                        targets.extend(levels.iter().map(|l| m - l));
+                    }
+                }
+                for t in targets.into_iter().filter(|t| t.is_finite()) {
+                    let centre = (t - mean[i]) / d;
+                    points.push(centre);
+                    for k in [-6.0, -2.0, 2.0, 6.0] {
+                        points.push(centre + k * widest / d.abs());
+                    }
+                }
             }
         }
     }
@@ -546,15 +699,15 @@ fn uniform_breakpoints(
 /// # Errors
 /// Engine failures.
 pub fn false_alarms_per_sample(
-    model: &CompiledModel,
-    evaluator: &Evaluator,
+    engine: &Engine<'_>,
     timing: &Timing,
     options: &AnalysisOptions,
 ) -> Result<Estimate, AnalysisError> {
-    let split = Split::new(model, timing, None, None)?;
+    let split = Split::new(engine.model(), timing, None, None)?;
+    let sampler = SampleEngine::choose(engine, &split, options)?;
     let rule = timing.confirm;
     let f = |c: &[f64]| -> Result<ManyPoint, AnalysisError> {
-        let o = evaluator.outcome(&split.at(c, 0.0)?)?;
+        let o = sampler.outcome(&split.at(c, 0.0)?, &split)?;
         let alarm = o.alarm();
         let p = alarm.value.clamp(0.0, 1.0);
         let rate = episode_rate(&rule, p)
@@ -566,7 +719,7 @@ pub fn false_alarms_per_sample(
     let accuracy = Accuracy {
         // Rates are tiny: only the relative target counts.
         abs: 0.0,
-        rel: options.amplitude_rel,
+        rel: options.amplitude_rel.max(TIMED_REL),
         max_intervals: options.amplitude_max_intervals,
     };
     let (v, e) = over_constant_terms(
@@ -586,18 +739,18 @@ pub fn false_alarms_per_sample(
 /// # Errors
 /// Engine failures, with the site named.
 pub fn analyze_timed(
-    model: &CompiledModel,
-    evaluator: &Evaluator,
+    engine: &Engine<'_>,
     timing: &Timing,
     sites: &[SiteResult],
     options: &AnalysisOptions,
 ) -> Result<TimedAnalysis, AnalysisError> {
-    let per_sample = false_alarms_per_sample(model, evaluator, timing, options)?;
-    let timed: Vec<TimedSite> = model
+    let per_sample = false_alarms_per_sample(engine, timing, options)?;
+    let timed: Vec<TimedSite> = engine
+        .model()
         .faults
         .par_iter()
         .map(|f| {
-            timed_site(model, evaluator, timing, f, options).map_err(|e| match e {
+            timed_site(engine, timing, f, options).map_err(|e| match e {
                 AnalysisError::Engine { context, source } => AnalysisError::Engine {
                     context: format!("fault site '{}', timed, {context}", f.name),
                     source,

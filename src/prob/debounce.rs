@@ -365,14 +365,15 @@ fn stationary_gth(mut p: Vec<Vec<f64>>) -> Vec<f64> {
         if s <= 0.0 {
             continue;
         }
-        for i in 0..k {
-            let factor = p[i][k] / s;
+        let (upper, lower) = p.split_at_mut(k);
+        let removed = &lower[0];
+        for row in upper.iter_mut() {
+            let factor = row[k] / s;
             if factor == 0.0 {
                 continue;
             }
-            for j in 0..k {
-                let add = factor * p[k][j];
-                p[i][j] += add;
+            for (cell, out) in row[..k].iter_mut().zip(&removed[..k]) {
+                *cell += factor * out;
             }
         }
     }

@@ -402,6 +402,35 @@ pub fn xml_escape(text: &str) -> String {
     out
 }
 
+/// A confirmation rule in words: "3 consecutive samples", "3 of the last 5 samples", "a
+/// counter up 2, down 1, tripping at 6".
+pub fn describe_confirm(rule: &crate::prob::debounce::Debounce) -> String {
+    use crate::prob::debounce::Debounce;
+    match *rule {
+        Debounce::Consecutive { count: 1 } => "the first firing sample".to_string(),
+        Debounce::Consecutive { count } => format!("{count} consecutive firing samples"),
+        Debounce::Window { count, window } => {
+            format!("{count} firing samples of the last {window}")
+        }
+        Debounce::Counter { up, down, trip } => format!(
+            "a counter stepping up {up} on a firing sample and down {down} on a quiet one, \
+             tripping at {trip}"
+        ),
+    }
+}
+
+/// A time in seconds with a unit that suits it: `2 ms`, `1.5 s`, `250 us`.
+pub fn seconds(t: f64) -> String {
+    let style = short_style(4);
+    if t != 0.0 && t.abs() < 1e-3 {
+        format!("{} us", format_number(t * 1e6, &style))
+    } else if t.abs() < 1.0 {
+        format!("{} ms", format_number(t * 1e3, &style))
+    } else {
+        format!("{} s", format_number(t, &style))
+    }
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -479,34 +508,5 @@ mod tests {
             xml_escape("a<b & \"c\" 'd'>\u{1}"),
             "a&lt;b &amp; &quot;c&quot; &#39;d&#39;&gt;"
         );
-    }
-}
-
-/// A confirmation rule in words: "3 consecutive samples", "3 of the last 5 samples", "a
-/// counter up 2, down 1, tripping at 6".
-pub fn describe_confirm(rule: &crate::prob::debounce::Debounce) -> String {
-    use crate::prob::debounce::Debounce;
-    match *rule {
-        Debounce::Consecutive { count: 1 } => "the first firing sample".to_string(),
-        Debounce::Consecutive { count } => format!("{count} consecutive firing samples"),
-        Debounce::Window { count, window } => {
-            format!("{count} firing samples of the last {window}")
-        }
-        Debounce::Counter { up, down, trip } => format!(
-            "a counter stepping up {up} on a firing sample and down {down} on a quiet one, \
-             tripping at {trip}"
-        ),
-    }
-}
-
-/// A time in seconds with a unit that suits it: `2 ms`, `1.5 s`, `250 us`.
-pub fn seconds(t: f64) -> String {
-    let style = short_style(4);
-    if t != 0.0 && t.abs() < 1e-3 {
-        format!("{} us", format_number(t * 1e6, &style))
-    } else if t.abs() < 1.0 {
-        format!("{} ms", format_number(t * 1e3, &style))
-    } else {
-        format!("{} s", format_number(t, &style))
     }
 }
