@@ -40,6 +40,24 @@ pub struct ArchitectureSummary {
     pub cells: usize,
     /// Wall-clock seconds of the analysis on this machine (not reproducible bit for bit).
     pub seconds: f64,
+    /// The figures over time, when the file has a timing section.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub timed: Option<TimedSummary>,
+}
+
+/// The figures over time of one architecture in a comparison.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct TimedSummary {
+    /// Seconds from the fault to the latest confirmation.
+    pub deadline: f64,
+    /// Samples within the deadline.
+    pub samples: usize,
+    /// Fault-free alarm episodes per hour of operation.
+    pub false_alarms_per_hour: Estimate,
+    /// The lowest timed `dc` over the sites (a fault confirmed late counts as missed).
+    pub lowest_dc: Option<Estimate>,
+    /// The metrics with the timed outcomes.
+    pub metrics: Metrics,
 }
 
 impl ArchitectureSummary {
@@ -87,6 +105,17 @@ pub fn summarise(
         false_alarm: analysis.baseline.alarm(),
         cells: analysis.cells,
         seconds,
+        timed: analysis.timed.as_ref().map(|t| TimedSummary {
+            deadline: t.timing.deadline,
+            samples: t.timing.samples,
+            false_alarms_per_hour: t.false_alarms_per_hour,
+            lowest_dc: t
+                .sites
+                .iter()
+                .filter_map(|s| s.outcome.dc())
+                .min_by(|a, b| a.value.total_cmp(&b.value)),
+            metrics: t.metrics.clone(),
+        }),
     })
 }
 

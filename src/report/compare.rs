@@ -16,7 +16,7 @@ use super::TOOL_VERSION;
 use super::cautions::{CAUTIONS, csv_comment_block};
 use super::csv::field as csv_field;
 use super::error::ReportError;
-use super::format::{fit, percent_floor, probability};
+use super::format::{fit, percent_floor, probability, seconds};
 
 /// The ASIL reached on both single-point and latent fault metrics (the lower of the two).
 pub fn asil_reached(row: &ArchitectureSummary) -> Asil {
@@ -137,6 +137,48 @@ pub fn table(rows: &[ArchitectureSummary], all_dangerous: bool) -> String {
          shares a row)\n\n"
     ));
     out.push_str(&columns(&head, &body));
+    if rows.iter().any(|r| r.timed.is_some()) {
+        let head: Vec<String> = [
+            "#",
+            "deadline",
+            "samples",
+            "lowest DC in time %",
+            "residual FIT",
+            "SPFM %",
+            "false alarms / h",
+        ]
+        .map(String::from)
+        .to_vec();
+        let body: Vec<Vec<String>> = rows
+            .iter()
+            .enumerate()
+            .map(|(i, r)| match &r.timed {
+                Some(t) => vec![
+                    format!("#{}", i + 1),
+                    seconds(t.deadline),
+                    t.samples.to_string(),
+                    t.lowest_dc.map_or("-".into(), |e| percent_floor(e.value)),
+                    fit(t.metrics.residual_fit.value),
+                    percent_floor(t.metrics.spfm.value),
+                    probability(t.false_alarms_per_hour.value),
+                ],
+                None => vec![
+                    format!("#{}", i + 1),
+                    "one sample".into(),
+                    "1".into(),
+                    "-".into(),
+                    "-".into(),
+                    "-".into(),
+                    "-".into(),
+                ],
+            })
+            .collect();
+        out.push_str(
+            "\nOver time (files with a [timing] section: coverage of faults confirmed by the \
+             deadline, false alarms per hour of operation)\n\n",
+        );
+        out.push_str(&columns(&head, &body));
+    }
     out.push_str(
         "\nchannels: the channels the output uses (the measuring hardware; a channel only a \
          check reads, such as a model estimate, is not counted); lowest: the lowest coverage \
@@ -216,6 +258,21 @@ pub fn csv(rows: &[ArchitectureSummary], all_dangerous: bool) -> String {
     ] {
         head.push(k.into());
     }
+    let timed = rows.iter().any(|r| r.timed.is_some());
+    if timed {
+        for k in [
+            "deadline",
+            "samples",
+            "timed_lowest_dc",
+            "timed_residual_fit",
+            "timed_residual_fit_error",
+            "timed_spfm",
+            "false_alarms_per_hour",
+            "false_alarms_per_hour_error",
+        ] {
+            head.push(k.into());
+        }
+    }
     let mut out = csv_comment_block();
     out.push_str(&head.join(","));
     out.push('\n');
@@ -239,6 +296,21 @@ pub fn csv(rows: &[ArchitectureSummary], all_dangerous: bool) -> String {
         line.push(format!("{:e}", r.false_alarm.error));
         line.push(r.cells.to_string());
         line.push(format!("{:e}", r.seconds));
+        if timed {
+            match &r.timed {
+                Some(t) => {
+                    line.push(format!("{:e}", t.deadline));
+                    line.push(t.samples.to_string());
+                    line.push(t.lowest_dc.map_or(String::new(), |e| format!("{:e}", e.value)));
+                    line.push(format!("{:e}", t.metrics.residual_fit.value));
+                    line.push(format!("{:e}", t.metrics.residual_fit.error));
+                    line.push(format!("{:e}", t.metrics.spfm.value));
+                    line.push(format!("{:e}", t.false_alarms_per_hour.value));
+                    line.push(format!("{:e}", t.false_alarms_per_hour.error));
+                }
+                None => line.extend(std::iter::repeat_n(String::new(), 8)),
+            }
+        }
         out.push_str(&line.join(","));
         out.push('\n');
     }
