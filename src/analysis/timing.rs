@@ -62,6 +62,19 @@ const CONSTANT_RANK_REL: f64 = 1e-12;
 /// figures. The bounds reported are the bounds reached, whatever the target.
 pub const TIMED_REL: f64 = 1e-5;
 
+/// Most intervals of an inner level of the nested integrals over the constant terms: the
+/// work is the product of the levels' points, so the inner ones get a small budget (their
+/// shortfall is in their bound, which the outer level carries).
+const INNER_MAX_INTERVALS: usize = 40;
+
+/// Points of the scan over an unknown fault sigma of the timed residual (each point is a
+/// whole timed analysis of the site; the best one is refined by Brent's method).
+const TIMED_SIGMA_SCAN_POINTS: usize = 25;
+
+/// A step of a sample's figures narrower than this many standard deviations of a constant
+/// term gets breakpoints of its own ([`Split::steps`]).
+const NARROW_STEP: f64 = 0.05;
+
 /// Hours in seconds.
 const SECONDS_PER_HOUR: f64 = 3600.0;
 
@@ -130,6 +143,9 @@ struct Split {
     constant: Vec<Vec<f64>>,
     /// How a non-gaussian amplitude moves the channels.
     direction: Vec<f64>,
+    /// The band ends of the safety requirement and of every check, where the figures of a
+    /// sample step as the constant terms move a channel across them.
+    levels: Vec<f64>,
 }
 
 impl Split {
@@ -239,13 +255,57 @@ impl Split {
         let fresh_diagonal = (0..n).all(|i| (0..n).all(|j| i == j || fresh[(i, j)] == 0.0));
         let fresh = Gaussian::new(&mean, &fresh)
             .map_err(|e| AnalysisError::engine("the part of the noise fresh every sample", e))?;
+        let mut levels = vec![model.safety_lower, model.safety_upper];
+        for check in &model.checks {
+            levels.push(check.lower);
+            levels.push(check.upper);
+        }
+        levels.retain(|l| l.is_finite());
         Ok(Self {
+            levels,
             fresh,
             fresh_sd,
             fresh_diagonal,
             constant: terms.into_iter().map(|(_, v)| v).collect(),
             direction,
         })
+    }
+
+    /// The values of constant term `level` (the earlier ones fixed at `c`, the later ones at
+    /// zero) where a sample's figures step: where a channel's mean meets a band end, another
+    /// channel's mean, or another channel's mean moved by a band end, and 2 and 6 fresh
+    /// widths either side. A constant term of large spread against the fresh noise makes
+    /// these steps far narrower than the rule's first points, which would miss them.
+    fn steps(&self, level: usize, c: &[f64], amplitude: f64) -> Vec<f64> {
+        let Some(column) = self.constant.get(level) else {
+            return Vec::new();
+        };
+        let mut at = c.to_vec();
+        at.truncate(level);
+        at.resize(self.constant.len(), 0.0);
+        let mean: Vec<f64> = (0..self.direction.len())
+            .map(|i| {
+                self.fresh.mean()[i]
+                    + self
+                        .constant
+                        .iter()
+                        .zip(&at)
+                        .map(|(col, ck)| col[i] * ck)
+                        .sum::<f64>()
+                    + self.direction[i] * amplitude
+            })
+            .collect();
+        // Steps wider than NARROW_STEP standard deviations of the term are resolved by the
+        // rule's own bisection; only narrower ones need points of their own.
+        let widest = self.fresh_sd.iter().copied().fold(0.0, f64::max);
+        let steepest = column.iter().map(|x| x.abs()).fold(0.0, f64::max);
+        if !(widest < NARROW_STEP * steepest) {
+            return Vec::new();
+        }
+        crossings(&mean, column, &self.fresh_sd, &self.levels)
+            .into_iter()
+            .filter(|t| t.abs() < GAUSSIAN_REACH)
+            .collect()
     }
 
     /// The per-sample gaussian at constant terms `c` and amplitude `amplitude`.
@@ -366,12 +426,16 @@ fn over_constant_terms(
     terms: usize,
     c: &mut Vec<f64>,
     f: &dyn Fn(&[f64]) -> Result<ManyPoint, AnalysisError>,
+    steps: &dyn Fn(usize, &[f64]) -> Vec<f64>,
     scale: &[f64],
     accuracy: &Accuracy,
 ) -> Result<ManyPoint, AnalysisError> {
     if level == terms {
         return f(c);
     }
+    c.truncate(level);
+    let mut breakpoints = vec![-3.0, 0.0, 3.0];
+    breakpoints.extend(steps(level, c));
     let k = scale.len();
     let rel = vec![accuracy.rel; k];
     let mut failure = None;
@@ -379,7 +443,7 @@ fn over_constant_terms(
         |t| {
             c.truncate(level);
             c.push(t);
-            match over_constant_terms(level + 1, terms, c, f, scale, accuracy) {
+            match over_constant_terms(level + 1, terms, c, f, steps, scale, accuracy) {
                 Ok((v, e)) => {
                     let w = normal::pdf(t);
                     Ok((
@@ -398,10 +462,14 @@ fn over_constant_terms(
         k,
         -GAUSSIAN_REACH,
         GAUSSIAN_REACH,
-        &[-3.0, 0.0, 3.0],
+        &breakpoints,
         accuracy.abs,
         &rel,
-        accuracy.max_intervals,
+        if level == 0 {
+            accuracy.max_intervals
+        } else {
+            accuracy.max_intervals.min(INNER_MAX_INTERVALS)
+        },
     );
     c.truncate(level);
     let r = match (result, failure) {
@@ -449,11 +517,13 @@ fn timed_at(
 ) -> Result<ManyPoint, AnalysisError> {
     let scale = vec![1.0; 4 + timing.samples];
     let f = |c: &[f64]| chain_point(sampler, split, chain, timing, &split.at(c, amplitude)?);
+    let steps = |level: usize, c: &[f64]| split.steps(level, c, amplitude);
     over_constant_terms(
         0,
         split.constant.len(),
         &mut Vec::new(),
         &f,
+        &steps,
         &scale,
         accuracy,
     )
@@ -587,8 +657,12 @@ pub fn timed_site(
                 let p = timed_at(&sampler, &chain, timing, &split, 0.0, &acc)?;
                 Ok((p, split, sampler))
             };
-            let grid = log_grid(*sigma_lo, *sigma_hi, options.sigma_scan_points.max(3))
-                .map_err(|e| AnalysisError::engine("grid over the fault sigma", e))?;
+            let grid = log_grid(
+                *sigma_lo,
+                *sigma_hi,
+                options.sigma_scan_points.clamp(3, TIMED_SIGMA_SCAN_POINTS),
+            )
+            .map_err(|e| AnalysisError::engine("grid over the fault sigma", e))?;
             let scan_rel = options.scan_tolerance().rel.max(accuracy.rel);
             let residuals: Vec<f64> = grid
                 .par_iter()
@@ -658,39 +732,57 @@ fn uniform_breakpoints(
             }
         }
         SampleEngine::Order(..) => {
-            let mean = split.fresh.mean();
-            let mut levels: Vec<f64> = vec![model.safety_lower, model.safety_upper];
-            for c in &model.checks {
-                levels.push(c.lower);
-                levels.push(c.upper);
-            }
-            let widest = split.fresh_sd.iter().copied().fold(0.0, f64::max);
-            for (i, d) in split.direction.iter().enumerate() {
-                if *d == 0.0 {
-                    continue;
-                }
-                let mut targets: Vec<f64> = levels.clone();
-                for (j, m) in mean.iter().enumerate() {
-                    if j != i {
-                        targets.push(*m);
-                        targets.extend(levels.iter().map(|l| m + l));
-                        targets.extend(levels.iter().map(|l| m - l));
-                    }
-                }
-                for t in targets.into_iter().filter(|t| t.is_finite()) {
-                    let centre = (t - mean[i]) / d;
-                    points.push(centre);
-                    for k in [-6.0, -2.0, 2.0, 6.0] {
-                        points.push(centre + k * widest / d.abs());
-                    }
-                }
-            }
+            points = crossings(
+                split.fresh.mean(),
+                &split.direction,
+                &split.fresh_sd,
+                &split.levels,
+            );
         }
     }
     points.retain(|p| p.is_finite() && *p > lower && *p < upper);
     points.sort_by(f64::total_cmp);
     points.dedup();
     Ok(points)
+}
+
+/// The shifts `t` at which `mean + direction t` puts a channel on a level, on another
+/// channel's mean, or on another channel's mean moved by a level, each with points 2 and 6
+/// fresh widths either side (the figures of a sample step there, smoothed over the fresh
+/// noise).
+fn crossings(mean: &[f64], direction: &[f64], fresh_sd: &[f64], levels: &[f64]) -> Vec<f64> {
+    let widest = fresh_sd.iter().copied().fold(0.0, f64::max);
+    let mut points = Vec::new();
+    for (i, d) in direction.iter().enumerate() {
+        if *d == 0.0 || !d.is_finite() {
+            continue;
+        }
+        let mut targets: Vec<f64> = levels.to_vec();
+        for (j, m) in mean.iter().enumerate() {
+            if j != i {
+                let relative = d - direction.get(j).copied().unwrap_or(0.0);
+                if relative == 0.0 {
+                    continue;
+                }
+                // Channel i meets channel j (or j moved by a level) as both move.
+                for l in std::iter::once(0.0).chain(levels.iter().copied()) {
+                    let t = (m + l - mean[i]) / relative;
+                    targets.push(mean[i] + d * t);
+                }
+            }
+        }
+        for target in targets.into_iter().filter(|t| t.is_finite()) {
+            let centre = (target - mean[i]) / d;
+            points.push(centre);
+            for k in [-6.0, -2.0, 2.0, 6.0] {
+                points.push(centre + k * widest / d.abs());
+            }
+        }
+    }
+    points.retain(|p| p.is_finite());
+    points.sort_by(f64::total_cmp);
+    points.dedup();
+    points
 }
 
 /// Fault-free alarm episodes per sample: the steady-state rate of the rule given the
@@ -722,11 +814,13 @@ pub fn false_alarms_per_sample(
         rel: options.amplitude_rel.max(TIMED_REL),
         max_intervals: options.amplitude_max_intervals,
     };
+    let steps = |level: usize, c: &[f64]| split.steps(level, c, 0.0);
     let (v, e) = over_constant_terms(
         0,
         split.constant.len(),
         &mut Vec::new(),
         &f,
+        &steps,
         &[1.0],
         &accuracy,
     )?;

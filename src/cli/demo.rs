@@ -291,7 +291,7 @@ pub fn run(args: &super::args::DemoArgs) -> Result<String, CliError> {
     );
     if disagree {
         return Err(CliError::CrossCheckDisagrees {
-            shown_in: "section 9 of the reports",
+            shown_in: "section 10 of the reports",
             output: out,
         });
     }

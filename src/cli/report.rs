@@ -105,7 +105,7 @@ pub fn run(args: &ReportArgs) -> Result<String, CliError> {
         && agree < all
     {
         return Err(CliError::CrossCheckDisagrees {
-            shown_in: "section 9 of the report",
+            shown_in: "section 10 of the report",
             output: line,
         });
     }

@@ -301,7 +301,10 @@ pub fn csv(rows: &[ArchitectureSummary], all_dangerous: bool) -> String {
                 Some(t) => {
                     line.push(format!("{:e}", t.deadline));
                     line.push(t.samples.to_string());
-                    line.push(t.lowest_dc.map_or(String::new(), |e| format!("{:e}", e.value)));
+                    line.push(
+                        t.lowest_dc
+                            .map_or(String::new(), |e| format!("{:e}", e.value)),
+                    );
                     line.push(format!("{:e}", t.metrics.residual_fit.value));
                     line.push(format!("{:e}", t.metrics.residual_fit.error));
                     line.push(format!("{:e}", t.metrics.spfm.value));
