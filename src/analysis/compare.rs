@@ -114,7 +114,7 @@ pub fn summarise(
                 .iter()
                 .filter_map(|s| s.outcome.dc())
                 .min_by(|a, b| a.value.total_cmp(&b.value)),
-            metrics: t.metrics.clone(),
+            metrics: t.metrics,
         }),
     })
 }

@@ -299,7 +299,7 @@ impl Split {
         // rule's own bisection; only narrower ones need points of their own.
         let widest = self.fresh_sd.iter().copied().fold(0.0, f64::max);
         let steepest = column.iter().map(|x| x.abs()).fold(0.0, f64::max);
-        if !(widest < NARROW_STEP * steepest) {
+        if widest.is_nan() || widest >= NARROW_STEP * steepest {
             return Vec::new();
         }
         crossings(&mean, column, &self.fresh_sd, &self.levels)
