@@ -10,6 +10,8 @@
 //! - [`whole`]: whole analyses against the stored SciPy/mpmath table of two independent
 //!   integrations, a factorised closed form derived by hand, and agreement with the
 //!   independent Monte Carlo engine.
+//! - [`timed`]: the confirmation chains against Feller's success runs and mean waiting time,
+//!   and a whole timed analysis against them.
 //!
 //! The reference values are compiled into the binary (`reference.json` beside this file,
 //! written by `tests/reference/selftest_reference.py` from the stored tables of
@@ -17,6 +19,7 @@
 //! deterministic: the same build gives the same report, whatever the thread count.
 
 pub mod engine;
+pub mod timed;
 pub mod whole;
 
 use rayon::prelude::*;
@@ -208,7 +211,7 @@ pub type Group = fn(&ReferenceData) -> Vec<Case>;
 pub fn run() -> Result<SelfTest, AnalysisError> {
     let data = reference_data()?;
     // Groups run in parallel; each is deterministic and the order of the result is fixed.
-    let jobs: [Group; 9] = [
+    let jobs: [Group; 10] = [
         engine::normal_cases,
         engine::bivariate_cases,
         engine::sheppard_cases,
@@ -218,6 +221,7 @@ pub fn run() -> Result<SelfTest, AnalysisError> {
         whole::order_statistic_cases,
         whole::reference_table_cases,
         whole::monte_carlo_cases,
+        timed::timing_cases,
     ];
     let cases: Vec<Vec<Case>> = jobs.par_iter().map(|job| job(&data)).collect();
     Ok(SelfTest {

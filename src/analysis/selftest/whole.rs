@@ -141,12 +141,12 @@ pub fn reference_table_cases(data: &ReferenceData) -> Vec<Case> {
 
 /// `Phi(x) = erfc(-x / sqrt 2) / 2` with the `libm` crate's erfc (a port of FreeBSD's msun,
 /// an implementation independent of concord's own normal CDF).
-fn phi(x: f64) -> f64 {
+pub(super) fn phi(x: f64) -> f64 {
     0.5 * libm::erfc(-x * std::f64::consts::FRAC_1_SQRT_2)
 }
 
 /// `P(|N(m, sd^2)| > limit)`.
-fn outside(m: f64, sd: f64, limit: f64) -> f64 {
+pub(super) fn outside(m: f64, sd: f64, limit: f64) -> f64 {
     phi((-limit - m) / sd) + phi((m - limit) / sd)
 }
 
