@@ -343,3 +343,62 @@ fn timing_sections_that_cannot_hold_are_refused_with_the_key_named() {
         assert!(shown.contains(words), "{timing}: {shown}");
     }
 }
+
+#[test]
+fn tuning_with_confirmation_brackets_each_rule_and_picks_the_fewest_false_alarms() {
+    // The search's contract (the monotonicity it rests on is common practice: a wider band
+    // fires less in every sample): each rule's band meets the target, a band 2 % wider
+    // (past the 1 % bisection step) does not, and the chosen rule has the fewest false
+    // alarms per hour among the rules that meet it.
+    use concord::analysis::timed_tune::{default_rules, tune_with_confirmation};
+    use concord::analysis::tune::{CoverageFigure, TuneRequest};
+    let text = format!(
+        "{ONE_CHANNEL}
+[timing]
+sample_period = 0.005
+deadline = 0.05
+
+[faults.offset]
+fit = 10.0
+hits = {{ a = 1.0 }}
+mode = \"add\"
+amplitude = {{ gaussian = {{ mean = 2.0, sigma = 1.0 }} }}
+"
+    );
+    let arch = load_str(&text, "one channel").expect("loads");
+    let mut request = TuneRequest::new(None, CoverageFigure::Dc, 0.9);
+    request.scale_range = (0.5, 2.0);
+    let options = AnalysisOptions::default();
+    let rules = default_rules(10);
+    let result = tune_with_confirmation(&arch, &request, &rules, &options).expect("tunes");
+    assert_eq!(result.rules.len(), rules.len());
+    let chosen = result.chosen.expect("a rule meets 90 %");
+    for r in &result.rules {
+        let Some(scale) = r.scale else { continue };
+        assert!(r.coverage.value - r.coverage.error >= 0.9, "{}", r.label);
+        assert!(r.false_alarms_per_hour.value >= result.rules[chosen].false_alarms_per_hour.value);
+        if r.at_range_end {
+            continue;
+        }
+        let wider = load_str(
+            &text.replace("limit = 2.0", &format!("limit = {}", 2.0 * scale * 1.02)),
+            "wider",
+        )
+        .expect("loads");
+        let mut model = wider.model.clone();
+        if let Some(t) = model.timing.as_mut() {
+            t.confirm = r.rule;
+        }
+        let a = analyze(&model, &options, false).expect("analyses");
+        let dc = a.timed.expect("timed").sites[0]
+            .outcome
+            .dc()
+            .expect("dangerous");
+        assert!(
+            dc.value - dc.error < 0.9,
+            "{} at {}: {dc:?}",
+            r.label,
+            scale * 1.02
+        );
+    }
+}

@@ -116,6 +116,8 @@ pub enum RequestField {
     TuneCurvePoints,
     /// `TuneRequest::scale_rel_tol`: the relative tolerance of the bisection.
     TuneScaleTolerance,
+    /// The confirmation rule tuned with the bands (needs a timing section).
+    TuneConfirmation,
     /// The values of a sweep axis (`Axis::values`), named by the axis's key.
     AxisValues(String),
     /// `SweepPlan::series`: the key of the second axis.
@@ -140,6 +142,9 @@ impl std::fmt::Display for RequestField {
             RequestField::TuneCurvePoints => f.write_str("the points of the trade-off curve"),
             RequestField::TuneScaleTolerance => {
                 f.write_str("the tuning's relative tolerance on the scale")
+            }
+            RequestField::TuneConfirmation => {
+                f.write_str("the confirmation rule tuned with the bands")
             }
             RequestField::AxisValues(key) => write!(f, "the values of {key}"),
             RequestField::SweepSeries => f.write_str("the series key of the sweep"),

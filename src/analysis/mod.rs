@@ -34,6 +34,7 @@ pub mod site;
 pub mod spread;
 pub mod sweep;
 pub mod timed_sampling;
+pub mod timed_tune;
 pub mod timing;
 pub mod tune;
 

@@ -262,6 +262,11 @@ pub struct TuneArgs {
     /// Draw the trade-off curve as an SVG picture in FILE.
     #[arg(long, value_name = "FILE")]
     pub plot: Option<PathBuf>,
+    /// Tune the confirmation rule of the file's [timing] section with the bands: for each
+    /// candidate rule the widest bands whose coverage over the deadline meets the target,
+    /// then the rule with the fewest false alarms per hour.
+    #[arg(long)]
+    pub with_confirmation: bool,
     #[command(flatten)]
     pub accuracy: AccuracyArgs,
 }

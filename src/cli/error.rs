@@ -169,6 +169,7 @@ pub fn flag_of(field: &RequestField) -> Option<&'static str> {
         RequestField::TuneSites => Some("--site"),
         RequestField::TuneScaleRange => Some("--scale"),
         RequestField::TuneCurvePoints => Some("--points"),
+        RequestField::TuneConfirmation => Some("--with-confirmation"),
         RequestField::TuneScaleTolerance | RequestField::AxisValues(_) => None,
         RequestField::SweepSeries => Some("--series"),
         RequestField::SpreadSite => Some("--spread"),

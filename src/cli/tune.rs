@@ -2,8 +2,12 @@
 
 use indicatif::{ProgressBar, ProgressStyle};
 
+use crate::analysis::timed_tune::{default_rules, tune_with_confirmation};
 use crate::analysis::tune::{CoverageFigure, TuneRequest, tune};
-use crate::report::tune::{curve_csv, json, summary, trade_off_svg};
+use crate::report::tune::{
+    confirmation_json, confirmation_summary, confirmation_svg, curve_csv, json, summary,
+    trade_off_svg,
+};
 
 use super::args::{CoverageArg, TuneArgs, TuneFormat};
 use super::{CliError, load, values, write_output};
@@ -20,6 +24,22 @@ pub fn run(args: &TuneArgs) -> Result<String, CliError> {
     request.sites = args.site.clone();
     request.scale_range = values::range(&args.scale, "--scale")?;
     request.curve_points = args.points;
+    if args.with_confirmation {
+        let samples = arch.model.timing.as_ref().map_or(0, |t| t.samples);
+        let result = tune_with_confirmation(
+            &arch,
+            &request,
+            &default_rules(samples),
+            &args.accuracy.options()?,
+        )?;
+        if let Some(path) = &args.plot {
+            write_output(path, confirmation_svg(&result)?)?;
+        }
+        return match args.format {
+            TuneFormat::Text => Ok(confirmation_summary(&result, &request, &arch.path)),
+            TuneFormat::Json => Ok(confirmation_json(&result, &request, &arch.path)?),
+        };
+    }
     // The curve's points, then the bisection (about a dozen more): shown on a terminal only.
     let progress = ProgressBar::new(args.points as u64);
     progress.set_style(

@@ -3,7 +3,8 @@
 
 use serde::Serialize;
 
-use crate::analysis::tune::{TradeOffPoint, TuneResult};
+use crate::analysis::timed_tune::TimedTuneResult;
+use crate::analysis::tune::{TradeOffPoint, TuneRequest, TuneResult};
 
 use super::cautions::{CAUTIONS, csv_comment_block, plot_caption};
 use super::csv::field as csv_field;
@@ -222,4 +223,155 @@ pub fn trade_off_chart(result: &TuneResult) -> Chart {
 /// The plot module's errors (e.g. every false-alarm probability zero on the log axis).
 pub fn trade_off_svg(result: &TuneResult) -> Result<String, PlotError> {
     render_svg(&trade_off_chart(result), PLOT_SIZE.0, PLOT_SIZE.1)
+}
+
+/// The joint tuning of bands and confirmation rule in text: one line per rule, the chosen
+/// one marked.
+pub fn confirmation_summary(result: &TimedTuneResult, request: &TuneRequest, file: &str) -> String {
+    let mut out = format!(
+        "concord tune --with-confirmation  |  {file}\n\ntarget: {} over the deadline >= {} % \
+         on {}; a fault confirmed after the deadline counts as missed\n\n",
+        request.figure.key(),
+        100.0 * request.target,
+        if request.sites.is_empty() {
+            "every site".to_string()
+        } else {
+            request.sites.join(", ")
+        }
+    );
+    out.push_str(&format!(
+        "{:<2} {:<26} {:>12} {:>22} {:>22}\n",
+        "", "rule", "band scale", "weakest coverage %", "false alarms / h"
+    ));
+    for (i, r) in result.rules.iter().enumerate() {
+        let mark = if result.chosen == Some(i) { "=>" } else { "" };
+        let scale = match r.scale {
+            Some(s) if r.at_range_end => {
+                format!(">= {}", format_number(s, &plain_significant_style(4)))
+            }
+            Some(s) => format_number(s, &plain_significant_style(4)),
+            None => "none meets".to_string(),
+        };
+        out.push_str(&format!(
+            "{:<2} {:<26} {:>12} {:>22} {:>22}\n",
+            mark,
+            r.label,
+            scale,
+            percent_with_bound(r.coverage),
+            if r.scale.is_some() {
+                probability(r.false_alarms_per_hour.value)
+            } else {
+                "-".to_string()
+            }
+        ));
+    }
+    out.push('\n');
+    match result.chosen.and_then(|i| result.rules.get(i)) {
+        Some(r) => out.push_str(&format!(
+            "Chosen: {} with the bands at {} times the file's: {} false alarms per hour.\n",
+            r.label,
+            r.scale.map_or("-".into(), |s| format_number(
+                s,
+                &plain_significant_style(4)
+            )),
+            probability(r.false_alarms_per_hour.value)
+        )),
+        None => out.push_str(
+            "No rule meets the target within the range of scales: a tighter band than the \
+             range allows, a longer deadline or another architecture is needed.\n",
+        ),
+    }
+    out.push_str(&format!(
+        "({} timed analyses; coverage per rule at its widest meeting band, known to 1 % in the \
+         scale; a coverage meets the target when its value minus its error bound does)\n\n",
+        result.evaluations
+    ));
+    for c in CAUTIONS {
+        out.push_str(&format!("- {c}\n"));
+    }
+    out
+}
+
+#[derive(Serialize)]
+struct ConfirmationJson<'a> {
+    tool_version: &'a str,
+    input_file: &'a str,
+    figure: &'a str,
+    target: f64,
+    sites: &'a [String],
+    rules: &'a [crate::analysis::timed_tune::RuleChoice],
+    chosen: Option<&'a str>,
+    evaluations: usize,
+    cautions: &'a [&'a str],
+}
+
+/// The joint tuning as JSON.
+///
+/// # Errors
+/// Serialisation errors (none expected).
+pub fn confirmation_json(
+    result: &TimedTuneResult,
+    request: &TuneRequest,
+    file: &str,
+) -> Result<String, ReportError> {
+    let j = ConfirmationJson {
+        tool_version: TOOL_VERSION,
+        input_file: file,
+        figure: request.figure.key(),
+        target: request.target,
+        sites: &request.sites,
+        rules: &result.rules,
+        chosen: result
+            .chosen
+            .and_then(|i| result.rules.get(i))
+            .map(|r| r.label.as_str()),
+        evaluations: result.evaluations,
+        cautions: &CAUTIONS,
+    };
+    let mut text = serde_json::to_string_pretty(&j)?;
+    text.push('\n');
+    Ok(text)
+}
+
+/// The trade of the joint tuning: each rule that meets the target as a point, its widest
+/// band against its false alarms per hour.
+///
+/// # Errors
+/// The plot module's errors (e.g. no rule meets the target).
+pub fn confirmation_svg(result: &TimedTuneResult) -> Result<String, PlotError> {
+    let series = result
+        .rules
+        .iter()
+        .filter(|r| r.false_alarms_per_hour.value > r.false_alarms_per_hour.error)
+        .filter_map(|r| {
+            r.scale.map(|s| Series {
+                label: r.label.clone(),
+                points: vec![(s, r.false_alarms_per_hour.value)],
+            })
+        })
+        .collect();
+    let chart = Chart {
+        title: "Threshold and confirmation: widest band meeting the target, and its false alarms"
+            .into(),
+        x_label: "band scale on the file's bands [-]".into(),
+        y_label: "false alarms per hour [1/h]".into(),
+        x_scale: Scale::Linear,
+        y_scale: Scale::Log,
+        series,
+        reference_lines: Vec::new(),
+        markers: result
+            .chosen
+            .and_then(|i| result.rules.get(i))
+            .and_then(|r| {
+                r.scale.map(|s| Marker {
+                    x: s,
+                    y: r.false_alarms_per_hour.value,
+                    label: format!("chosen: {}", r.label),
+                })
+            })
+            .into_iter()
+            .collect(),
+        caption: plot_caption(),
+    };
+    render_svg(&chart, PLOT_SIZE.0, PLOT_SIZE.1)
 }
