@@ -297,6 +297,27 @@ fn timed_section(out: &mut String, t: &TimedAnalysis, a: &crate::analysis::Analy
             fit(o.p_vu.value * s.fit)
         );
     }
+    // The detection curves at up to eight samples, evenly spaced, the deadline last.
+    let n = timing.samples;
+    let columns: Vec<usize> = {
+        let k = n.min(8);
+        let mut c: Vec<usize> = (1..=k).map(|j| (j * n).div_ceil(k)).collect();
+        c.dedup();
+        c
+    };
+    let _ = write!(out, "  confirmed by, %   ");
+    for j in &columns {
+        let _ = write!(out, " {:>9}", seconds(*j as f64 * timing.sample_period));
+    }
+    let _ = writeln!(out);
+    for ts in &t.sites {
+        let _ = write!(out, "  {:<16} ", clip(&ts.name, 16));
+        for j in &columns {
+            let p = ts.detected_by.get(j - 1).map_or(0.0, |d| d.value);
+            let _ = write!(out, " {:>9}", percent_floor(p));
+        }
+        let _ = writeln!(out);
+    }
     let m = &t.metrics;
     let _ = writeln!(
         out,
