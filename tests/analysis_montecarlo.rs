@@ -58,7 +58,14 @@ fn agrees_with_sampling(name: &str) {
     // 1. Every figure of the baseline and of every site (an unknown sigma at the exact worst
     //    sigma) lies in the sampled interval, widened by its own bound.
     let rows = verify(model, &exact, &mc).unwrap_or_else(|e| panic!("{e}"));
-    assert_eq!(rows.len(), 4 * (exact.sites.len() + 1), "{name}");
+    // Four figures for the baseline and every site, and four more per site over time when
+    // the file has a timing section (rows named "<site> (timed)").
+    let timed = if exact.timed.is_some() {
+        exact.sites.len()
+    } else {
+        0
+    };
+    assert_eq!(rows.len(), 4 * (exact.sites.len() + 1 + timed), "{name}");
     for r in &rows {
         let half = (r.interval.1 - r.interval.0) / 2.0;
         assert!(
@@ -145,6 +152,11 @@ fn agrees_with_sampling(name: &str) {
 }
 
 #[test]
+fn swa2_confirmed() {
+    agrees_with_sampling("plovrant_swa2_confirmed.toml");
+}
+
+#[test]
 fn swa2_mean() {
     agrees_with_sampling("plovrant_swa2_mean.toml");
 }
@@ -210,6 +222,7 @@ fn every_example_file_is_covered() {
     assert_eq!(
         found,
         [
+            "plovrant_swa2_confirmed.toml",
             "plovrant_swa2_mean.toml",
             "plovrant_swa2_plausibility.toml",
             "plovrant_swa2_shared_ref.toml",

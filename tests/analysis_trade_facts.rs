@@ -30,7 +30,8 @@ use concord::analysis::{Analysis, AnalysisOptions, Outcome, analyze};
 use concord::model::{Amplitude, Architecture, load_str_with_overrides};
 
 /// The example files; `every_example_file_is_listed` keeps this list complete.
-const EXAMPLES: [&str; 5] = [
+const EXAMPLES: [&str; 6] = [
+    "plovrant_swa2_confirmed.toml",
     "plovrant_swa2_mean.toml",
     "plovrant_swa2_plausibility.toml",
     "plovrant_swa2_shared_ref.toml",
@@ -471,6 +472,10 @@ amplitude = {{ points = [[{F}, 1.0]] }}
 macro_rules! on_every_example {
     ($fact:ident) => {
         mod $fact {
+            #[test]
+            fn swa2_confirmed() {
+                super::$fact("plovrant_swa2_confirmed.toml");
+            }
             #[test]
             fn swa2_mean() {
                 super::$fact("plovrant_swa2_mean.toml");
