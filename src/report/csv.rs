@@ -1,5 +1,7 @@
 //! CSV output: one row for the baseline and one per fault site, columns named as in JSON,
-//! after the comment block of the cautions (lines starting with `#`).
+//! after the comment block of the cautions (lines starting with `#`); with a timing
+//! section, one more row per site named `<site> (timed)`: the same columns over the
+//! deadline.
 
 use super::ReportInput;
 use super::cautions::csv_comment_block;
@@ -71,6 +73,37 @@ pub fn render(input: &ReportInput<'_>) -> String {
             s.residual_fit().value,
             s.latent_fit().value
         ));
+    }
+    // With a timing section, one more row per site: the same columns over the deadline.
+    if let Some(t) = &a.timed {
+        for (ts, s) in t.sites.iter().zip(&a.sites) {
+            let o = &ts.outcome;
+            out.push_str(&format!(
+                "{},{:e},{},{},{},{},{:e},{:e},{:e},{:e},{:e},{:e},{:e},{:e},{:e},{},{:e},{:e}\n",
+                field(&format!("{} (timed)", ts.name)),
+                s.fit,
+                s.mode,
+                field(&describe_amplitude(
+                    &s.amplitude,
+                    false,
+                    AmplitudeStyle::Compact
+                )),
+                opt(o.dc().map(|d| d.value)),
+                opt(o.dc().map(|d| d.error)),
+                o.dc_all_dangerous().value,
+                o.p_vd.value,
+                o.p_vd.error,
+                o.p_vu.value,
+                o.p_vu.error,
+                o.p_sd.value,
+                o.p_sd.error,
+                o.p_sq.value,
+                o.p_sq.error,
+                opt(ts.worst_sigma),
+                o.p_vu.value * s.fit,
+                o.p_sq.value * s.fit * (1.0 - s.latent_coverage)
+            ));
+        }
     }
     out
 }
