@@ -171,6 +171,56 @@ pub fn describe(arch: &Architecture) -> String {
         }
     }
 
+    if let Some(t) = &m.timing {
+        let head = format!(
+            "Timing: a sample every {}; confirmed after {}; deadline {} ({} samples); \
+             dangerous from {} sample{} outside the band",
+            super::format::seconds(t.sample_period),
+            super::format::describe_confirm(&t.confirm),
+            super::format::seconds(t.deadline),
+            t.samples,
+            t.danger_samples,
+            if t.danger_samples == 1 { "" } else { "s" }
+        );
+        let _ = writeln!(o);
+        for line in super::format::wrap(&head, 98) {
+            let _ = writeln!(o, "{line}");
+        }
+        let fresh: Vec<&str> = m
+            .sources
+            .iter()
+            .zip(&t.fresh_sources)
+            .filter(|(_, f)| **f)
+            .map(|(n, _)| n.as_str())
+            .collect();
+        let held: Vec<&str> = m
+            .channels
+            .iter()
+            .zip(&t.constant_channels)
+            .filter(|(_, f)| **f)
+            .map(|(n, _)| n.as_str())
+            .collect();
+        let _ = writeln!(
+            o,
+            "  constant over the interval: shared sources{}{}; fresh every sample: own noise{}",
+            if fresh.is_empty() {
+                String::new()
+            } else {
+                format!(" except {}", fresh.join(", "))
+            },
+            if held.is_empty() {
+                String::new()
+            } else {
+                format!(", the own noise of {}", held.join(", "))
+            },
+            if fresh.is_empty() {
+                String::new()
+            } else {
+                format!(", {}", fresh.join(", "))
+            }
+        );
+    }
+
     let total_fit: f64 = m.faults.iter().map(|f| f.fit).sum();
     let _ = writeln!(
         o,
