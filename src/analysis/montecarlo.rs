@@ -219,18 +219,7 @@ impl<'a> Sampler<'a> {
             let Some(f) = draw.amplitude(rng, normals) else {
                 return;
             };
-            match mode {
-                FaultMode::Add { direction } => {
-                    for (xi, d) in x.iter_mut().zip(direction) {
-                        *xi += d * f;
-                    }
-                }
-                FaultMode::Replace { channel, gain } => {
-                    if let Some(xi) = x.get_mut(*channel) {
-                        *xi = gain * f;
-                    }
-                }
-            }
+            apply_fault(mode, f, x);
         }
     }
 
@@ -297,6 +286,23 @@ impl<'a> Sampler<'a> {
             }
         }
         total
+    }
+}
+
+/// A fault of amplitude `f` on the sampled channels `x`: added along its direction, or the
+/// replaced channel set to `gain * f`.
+pub(super) fn apply_fault(mode: &FaultMode, f: f64, x: &mut [f64]) {
+    match mode {
+        FaultMode::Add { direction } => {
+            for (xi, d) in x.iter_mut().zip(direction) {
+                *xi += d * f;
+            }
+        }
+        FaultMode::Replace { channel, gain } => {
+            if let Some(xi) = x.get_mut(*channel) {
+                *xi = gain * f;
+            }
+        }
     }
 }
 

@@ -12,7 +12,8 @@ use crate::prob::rng::SplitMix64;
 
 use super::error::AnalysisError;
 use super::montecarlo::{
-    Agreement, CHUNK, Counts, Draw, MonteCarloOptions, NormalSource, Sampler, compare, draw_of,
+    Agreement, CHUNK, Counts, Draw, MonteCarloOptions, NormalSource, Sampler, apply_fault, compare,
+    draw_of,
 };
 use super::run::Analysis;
 
@@ -146,18 +147,7 @@ impl Sampler<'_> {
                             }
                         }
                         if let (Some((mode, _)), Some(f)) = (fault, amplitude) {
-                            match mode {
-                                FaultMode::Add { direction } => {
-                                    for (xi, d) in x.iter_mut().zip(direction) {
-                                        *xi += d * f;
-                                    }
-                                }
-                                FaultMode::Replace { channel, gain } => {
-                                    if let Some(xi) = x.get_mut(*channel) {
-                                        *xi = gain * f;
-                                    }
-                                }
-                            }
+                            apply_fault(mode, f, &mut x);
                         }
                         let kind = self.classify(&x);
                         if kind <= 1 {

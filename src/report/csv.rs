@@ -3,6 +3,9 @@
 //! section, one more row per site named `<site> (timed)`: the same columns over the
 //! deadline.
 
+use crate::analysis::Outcome;
+use crate::analysis::site::SiteResult;
+
 use super::ReportInput;
 use super::cautions::csv_comment_block;
 use super::format::{AmplitudeStyle, describe_amplitude};
@@ -47,63 +50,52 @@ pub fn render(input: &ReportInput<'_>) -> String {
         b.p_sq.error
     ));
     for s in &a.sites {
-        let o = &s.outcome;
-        out.push_str(&format!(
-            "{},{:e},{},{},{},{},{:e},{:e},{:e},{:e},{:e},{:e},{:e},{:e},{:e},{},{:e},{:e}\n",
-            field(&s.name),
-            s.fit,
-            s.mode,
-            field(&describe_amplitude(
-                &s.amplitude,
-                false,
-                AmplitudeStyle::Compact
-            )),
-            opt(o.dc().map(|d| d.value)),
-            opt(o.dc().map(|d| d.error)),
-            o.dc_all_dangerous().value,
-            o.p_vd.value,
-            o.p_vd.error,
-            o.p_vu.value,
-            o.p_vu.error,
-            o.p_sd.value,
-            o.p_sd.error,
-            o.p_sq.value,
-            o.p_sq.error,
-            opt(s.worst.as_ref().map(|w| w.sigma)),
-            s.residual_fit().value,
-            s.latent_fit().value
+        out.push_str(&site_row(
+            &s.name,
+            s,
+            &s.outcome,
+            s.worst.as_ref().map(|w| w.sigma),
         ));
     }
     // With a timing section, one more row per site: the same columns over the deadline.
     if let Some(t) = &a.timed {
         for (ts, s) in t.sites.iter().zip(&a.sites) {
-            let o = &ts.outcome;
-            out.push_str(&format!(
-                "{},{:e},{},{},{},{},{:e},{:e},{:e},{:e},{:e},{:e},{:e},{:e},{:e},{},{:e},{:e}\n",
-                field(&format!("{} (timed)", ts.name)),
-                s.fit,
-                s.mode,
-                field(&describe_amplitude(
-                    &s.amplitude,
-                    false,
-                    AmplitudeStyle::Compact
-                )),
-                opt(o.dc().map(|d| d.value)),
-                opt(o.dc().map(|d| d.error)),
-                o.dc_all_dangerous().value,
-                o.p_vd.value,
-                o.p_vd.error,
-                o.p_vu.value,
-                o.p_vu.error,
-                o.p_sd.value,
-                o.p_sd.error,
-                o.p_sq.value,
-                o.p_sq.error,
-                opt(ts.worst_sigma),
-                o.p_vu.value * s.fit,
-                o.p_sq.value * s.fit * (1.0 - s.latent_coverage)
+            out.push_str(&site_row(
+                &format!("{} (timed)", ts.name),
+                s,
+                &ts.outcome,
+                ts.worst_sigma,
             ));
         }
     }
     out
+}
+
+/// One row of a fault site: its rate and fault model from `site`, the figures of `o`.
+fn site_row(name: &str, site: &SiteResult, o: &Outcome, worst_sigma: Option<f64>) -> String {
+    format!(
+        "{},{:e},{},{},{},{},{:e},{:e},{:e},{:e},{:e},{:e},{:e},{:e},{:e},{},{:e},{:e}\n",
+        field(name),
+        site.fit,
+        site.mode,
+        field(&describe_amplitude(
+            &site.amplitude,
+            false,
+            AmplitudeStyle::Compact
+        )),
+        opt(o.dc().map(|d| d.value)),
+        opt(o.dc().map(|d| d.error)),
+        o.dc_all_dangerous().value,
+        o.p_vd.value,
+        o.p_vd.error,
+        o.p_vu.value,
+        o.p_vu.error,
+        o.p_sd.value,
+        o.p_sd.error,
+        o.p_sq.value,
+        o.p_sq.error,
+        opt(worst_sigma),
+        o.p_vu.value * site.fit,
+        o.p_sq.value * (site.fit * (1.0 - site.latent_coverage))
+    )
 }

@@ -280,12 +280,19 @@ fn bounds(o: &Outcome) -> Bounds {
     }
 }
 
+/// The bounds of a site's four figures and of both coverage figures.
+fn site_bounds(o: &Outcome) -> Bounds {
+    Bounds {
+        dc: o.dc().map(|d| d.error),
+        dc_all_dangerous: Some(o.dc_all_dangerous().error),
+        ..bounds(o)
+    }
+}
+
 fn site_json(s: &SiteResult) -> SiteJson {
     let o = &s.outcome;
     let dc = o.dc();
-    let mut error = bounds(o);
-    error.dc = dc.map(|d| d.error);
-    error.dc_all_dangerous = Some(o.dc_all_dangerous().error);
+    let error = site_bounds(o);
     SiteJson {
         name: s.name.clone(),
         fit: s.fit,
@@ -465,9 +472,7 @@ fn timing_json(t: &TimedAnalysis, model: &CompiledModel, sites: &[SiteResult]) -
 fn timed_site_json(t: &TimedSite, fit: f64, period: f64) -> TimedSiteJson {
     let o = &t.outcome;
     let dc = o.dc();
-    let mut error = bounds(o);
-    error.dc = dc.map(|d| d.error);
-    error.dc_all_dangerous = Some(o.dc_all_dangerous().error);
+    let error = site_bounds(o);
     TimedSiteJson {
         name: t.name.clone(),
         dc: dc.map(|d| d.value),
