@@ -102,6 +102,9 @@ pub fn analyze(
         Some(timing) => Some(analyze_timed(&engine, timing, &sites, options)?),
         None => None,
     };
+    for site in timed.iter().flat_map(|t| &t.sites) {
+        warnings.extend(site.warnings.iter().cloned());
+    }
     Ok(Analysis {
         timed,
         baseline: baseline_outcome,

@@ -95,6 +95,8 @@ pub struct TimedSite {
     pub constant_terms: usize,
     /// The method that computed the figures of each sample.
     pub method: FigureMethod,
+    /// Warnings for the analyst (a worst case at an end of its range).
+    pub warnings: Vec<String>,
 }
 
 /// Everything timed of one architecture.
@@ -556,6 +558,7 @@ fn to_site(
         worst_sigma,
         constant_terms: split.constant.len(),
         method: sampler.method(),
+        warnings: Vec::new(),
     }
 }
 
@@ -700,7 +703,16 @@ pub fn timed_site(
                 _ => grid[best],
             };
             let (p, split, sampler) = at_sigma(sigma, accuracy.rel)?;
-            Ok(to_site(&fault.name, &p, Some(sigma), &split, &sampler))
+            let mut site = to_site(&fault.name, &p, Some(sigma), &split, &sampler);
+            if best == 0 || best + 1 == grid.len() {
+                site.warnings.push(format!(
+                    "the worst timed residual of '{}' sits at an end of the sigma range [{}, {}]: \
+                     widen the range (amplitude.gaussian.sigma = {{ unknown = [lo, hi] }}) to be \
+                     sure it is the true maximum",
+                    fault.name, sigma_lo, sigma_hi
+                ));
+            }
+            Ok(site)
         }
     }
 }
