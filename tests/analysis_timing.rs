@@ -335,6 +335,12 @@ fn timing_sections_that_cannot_hold_are_refused_with_the_key_named() {
             "a shared source is expected",
         ),
         ("deadline = 0.1", "timing.sample_period", "missing key"),
+        (
+            "sample_period = 0.001\ndeadline = 9.0\nconfirm = { at_least = 8, of_last = 16 }\n\
+             danger_samples = 5000",
+            "timing",
+            "steps of the chain",
+        ),
     ] {
         let text = format!("{ONE_CHANNEL}\n[timing]\n{timing}\n");
         let err = load_str(&text, "bad.toml").expect_err(timing);

@@ -12,6 +12,11 @@ use super::raw::{RawConfirm, RawModel, RawTiming, Spanned};
 /// Most samples within one deadline (the chain's work grows with them).
 pub const MAX_TIMED_SAMPLES: usize = 10_000;
 
+/// Most steps of the confirmation chain per point of the timed integrals (states times
+/// danger counts times samples): beyond it one point takes seconds and its arrays hundreds
+/// of megabytes.
+pub const MAX_CHAIN_WORK: f64 = 2e8;
+
 /// Relative slack when the deadline is divided into samples, so that a deadline written as
 /// an exact multiple of the period (0.3 / 0.1 in floating point) keeps its last sample.
 const SAMPLES_SLACK: f64 = 1e-9;
@@ -55,7 +60,7 @@ pub(crate) fn validate_timing(
                 ),
                 "give a deadline of at least one sample period",
             );
-        } else if ratio > MAX_TIMED_SAMPLES as f64 {
+        } else if ratio.floor() > MAX_TIMED_SAMPLES as f64 {
             d.error(
                 sink,
                 format!(
@@ -126,6 +131,26 @@ pub(crate) fn validate_timing(
             ),
             "lengthen the deadline or confirm with fewer samples",
         );
+    }
+    if let (Some(rule), Some(k)) = (confirm, danger_samples)
+        && samples > 0
+        && let Ok(chain) = rule.chain()
+    {
+        let work = (chain.states() as f64) * (k as f64 + 1.0) * samples as f64;
+        if work > MAX_CHAIN_WORK {
+            let at = raw.danger_samples.as_ref().map_or(raw.span, |d| d.span);
+            sink.error(
+                at,
+                "timing",
+                format!(
+                    "the confirmation rule ({} states), the danger count {k} and the {samples} \
+                     samples make {work:.1e} steps of the chain per point, more than the limit \
+                     of {MAX_CHAIN_WORK:.0e}",
+                    chain.states()
+                ),
+                "use a shorter window, fewer danger samples or a shorter deadline",
+            );
+        }
     }
     if sink.error_count() > errors_before {
         return None;
