@@ -55,7 +55,7 @@ impl CellSet {
                 found: largest_ordering_count(model),
             });
         }
-        let mut cells: Vec<Cell> = model
+        let cells: Vec<Cell> = model
             .output
             .pieces
             .iter()
@@ -65,6 +65,30 @@ impl CellSet {
                 checks: Vec::new(),
             })
             .collect();
+        Self::with_checks(model, cells)
+    }
+
+    /// The cells of the checks alone (the output left as the form 0): for events that do not
+    /// look at the output, such as which channel a detection blames, so that its orderings
+    /// do not split them.
+    ///
+    /// # Errors
+    /// As [`CellSet::from_model`].
+    pub fn from_checks(model: &CompiledModel) -> Result<Self, AnalysisError> {
+        if !model.pieces_complete {
+            return Self::from_model(model);
+        }
+        let n = model.channels.len();
+        let start = vec![Cell {
+            guards: Vec::new(),
+            output: LinearForm::zero(n),
+            checks: Vec::new(),
+        }];
+        Self::with_checks(model, start)
+    }
+
+    /// `cells` multiplied by the pieces of every check.
+    fn with_checks(model: &CompiledModel, mut cells: Vec<Cell>) -> Result<Self, AnalysisError> {
         for check in &model.checks {
             let mut next = Vec::new();
             for cell in &cells {

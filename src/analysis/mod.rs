@@ -5,6 +5,7 @@
 //! - [`evaluate`]: each outcome as disjoint polytopes, evaluated for a gaussian scenario.
 //! - [`scenario`]: a fault site as a family of gaussians in its amplitude.
 //! - [`site`]: amplitude models (known and unknown sigma, uniform, points) per site.
+//! - [`isolation`]: which channel a detection blames, and the architecture without it.
 //! - [`metrics`]: SPFM, LFM, SFF, residual and latent FIT, ASIL targets.
 //! - [`run`]: the whole exact analysis of a file.
 //! - [`montecarlo`]: plain sampling through separate code, for verification.
@@ -22,6 +23,7 @@ pub mod compare;
 pub mod engine;
 pub mod error;
 pub mod evaluate;
+pub mod isolation;
 pub mod metrics;
 pub mod montecarlo;
 pub mod options;

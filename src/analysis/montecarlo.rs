@@ -429,6 +429,7 @@ pub fn analyze_montecarlo(
     }
     Ok(Analysis {
         timed: None,
+        isolation: None,
         baseline,
         metrics: metrics(&sites),
         sites,

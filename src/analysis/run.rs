@@ -8,6 +8,7 @@ use super::cells::CellSet;
 use super::engine::{Engine, FigureMethod, Scenario};
 use super::error::AnalysisError;
 use super::evaluate::Evaluator;
+use super::isolation::{IsolationAnalysis, analyze_isolation};
 use super::metrics::{Metrics, metrics};
 use super::options::AnalysisOptions;
 use super::outcome::Outcome;
@@ -35,6 +36,9 @@ pub struct Analysis {
     pub options: AnalysisOptions,
     /// The figures over time, when the file has a timing section.
     pub timed: Option<TimedAnalysis>,
+    /// Which channel a detection blames, and what runs on without it, when the file has an
+    /// isolation section.
+    pub isolation: Option<IsolationAnalysis>,
 }
 
 /// Precomputed state shared by every scenario of one architecture.
@@ -105,8 +109,13 @@ pub fn analyze(
     for site in timed.iter().flat_map(|t| &t.sites) {
         warnings.extend(site.warnings.iter().cloned());
     }
+    let isolation = analyze_isolation(&engine, &sites, options)?;
+    for w in isolation.iter().flat_map(|i| &i.warnings) {
+        warnings.push(w.clone());
+    }
     Ok(Analysis {
         timed,
+        isolation,
         baseline: baseline_outcome,
         metrics: metrics(&sites),
         sites,

@@ -7,7 +7,7 @@ use rayon::prelude::*;
 use crate::model::{Amplitude, CompiledFault, FaultMode};
 use crate::prob::Estimate;
 use crate::prob::optimise::{Stage, log_grid, scan_then_refine_staged};
-use crate::prob::polytope::Polytope;
+use crate::prob::polytope::{Gaussian, Polytope};
 use crate::prob::quadrature::integrate_best_effort;
 use crate::prob::shift_average::mean_over_uniform_shift;
 
@@ -397,7 +397,6 @@ fn uniform_outcome(
         return evaluator.outcome(&scenario.at_amplitude(lower)?);
     }
     let width = upper - lower;
-    let outside = crate::prob::normal::sf(AMPLITUDE_REACH);
     let mut figures = [Estimate::zero(); 4];
     for (index, figure) in Figure::ALL.into_iter().enumerate() {
         if figure == Figure::SafeQuiet {
@@ -409,53 +408,14 @@ fn uniform_outcome(
                 continue;
             }
         }
-        let mut total = Estimate::zero();
-        for polytope in evaluator.polytopes(figure) {
-            // One random direction left (one of two channels replaced): closed form.
-            if let Some(mean) =
-                mean_over_uniform_shift(&scenario.base, polytope, &scenario.direction, lower, upper)
-            {
-                total = total.add(mean.scale(width));
-                continue;
-            }
-            let Some(window) = amplitude_window(polytope, scenario, lower, upper) else {
-                total = total.add(Estimate::new(0.0, outside * width));
-                continue;
-            };
-            let span = window.upper - window.lower;
-            let beyond = Estimate::new(0.0, outside * (width - span).max(0.0));
-            if !window.moving {
-                let g = scenario.at_amplitude(window.lower)?;
-                let p = evaluator.polytope_probability(&g, polytope, figure)?;
-                total = total.add(p.scale(span)).add(beyond);
-                continue;
-            }
-            let mut quad = options.quadrature();
-            quad.max_intervals += window.breakpoints.len();
-            // The tolerances apply to the mean over the whole range: scale by its width.
-            quad.abs_tol *= width;
-            let integral = integrate_best_effort(
-                |amplitude| {
-                    let g = scenario.at_amplitude(amplitude).map_err(engine_of)?;
-                    evaluator
-                        .polytope_probability(&g, polytope, figure)
-                        .map_err(engine_of)
-                },
-                window.lower,
-                window.upper,
-                &window.breakpoints,
-                &quad,
-            )
-            .map_err(|e| {
-                AnalysisError::engine(
-                    format!("integral of {} over the amplitude", figure.key()),
-                    e,
-                )
-            })?;
-            total = total
-                .add(Estimate::new(integral.value, integral.error))
-                .add(beyond);
-        }
+        let total = uniform_total(
+            evaluator.polytopes(figure),
+            scenario,
+            (lower, upper),
+            options,
+            figure.key(),
+            &|g, p| evaluator.polytope_probability(g, p, figure),
+        )?;
         figures[index] =
             Estimate::new(total.value / width, total.error / width).clamp_probability();
     }
@@ -465,6 +425,66 @@ fn uniform_outcome(
         p_sd: figures[2],
         p_sq: figures[3],
     })
+}
+
+/// The integral over the amplitude range (not yet divided by its width) of the summed
+/// probability of `polytopes`, polytope by polytope as [`uniform_outcome`] describes;
+/// `probability` computes one polytope for one gaussian, `label` names the figure in errors.
+///
+/// # Errors
+/// Engine failures.
+pub(crate) fn uniform_total(
+    polytopes: &[Polytope],
+    scenario: &FaultScenario,
+    range: (f64, f64),
+    options: &AnalysisOptions,
+    label: &str,
+    probability: &dyn Fn(&Gaussian, &Polytope) -> Result<Estimate, AnalysisError>,
+) -> Result<Estimate, AnalysisError> {
+    let (lower, upper) = range;
+    let width = upper - lower;
+    let outside = crate::prob::normal::sf(AMPLITUDE_REACH);
+    let mut total = Estimate::zero();
+    for polytope in polytopes {
+        // One random direction left (one of two channels replaced): closed form.
+        if let Some(mean) =
+            mean_over_uniform_shift(&scenario.base, polytope, &scenario.direction, lower, upper)
+        {
+            total = total.add(mean.scale(width));
+            continue;
+        }
+        let Some(window) = amplitude_window(polytope, scenario, lower, upper) else {
+            total = total.add(Estimate::new(0.0, outside * width));
+            continue;
+        };
+        let span = window.upper - window.lower;
+        let beyond = Estimate::new(0.0, outside * (width - span).max(0.0));
+        if !window.moving {
+            let g = scenario.at_amplitude(window.lower)?;
+            let p = probability(&g, polytope)?;
+            total = total.add(p.scale(span)).add(beyond);
+            continue;
+        }
+        let mut quad = options.quadrature();
+        quad.max_intervals += window.breakpoints.len();
+        // The tolerances apply to the mean over the whole range: scale by its width.
+        quad.abs_tol *= width;
+        let integral = integrate_best_effort(
+            |amplitude| {
+                let g = scenario.at_amplitude(amplitude).map_err(engine_of)?;
+                probability(&g, polytope).map_err(engine_of)
+            },
+            window.lower,
+            window.upper,
+            &window.breakpoints,
+            &quad,
+        )
+        .map_err(|e| AnalysisError::engine(format!("integral of {label} over the amplitude"), e))?;
+        total = total
+            .add(Estimate::new(integral.value, integral.error))
+            .add(beyond);
+    }
+    Ok(total)
 }
 
 /// The figures for a uniform amplitude on `[lower, upper]` when every amplitude goes to the

@@ -325,9 +325,11 @@ pub fn analyze_with_overrides(
             context: format!("with {}", describe_overrides(overrides)),
             source: Box::new(source),
         })?;
-    // Sweeps and tuning read the one-sample figures: the timed ones are not computed.
+    // Sweeps and tuning read the one-sample figures: the timed ones and isolation are not
+    // computed.
     let mut model = edited.model;
     model.timing = None;
+    model.isolation = None;
     analyze(&model, options, false).map_err(|e| match e {
         AnalysisError::Engine { context, source } => AnalysisError::Engine {
             context: format!("with {}, {context}", describe_overrides(overrides)),

@@ -132,6 +132,7 @@ pub(crate) fn compile(v: &Resolved, order: &[usize], sink: &mut Sink<'_>) -> Opt
         safety_upper: v.safety.1,
         faults,
         timing: v.timing.clone(),
+        isolation: None,
     })
 }
 

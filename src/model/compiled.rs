@@ -189,6 +189,32 @@ impl Formula {
         }
     }
 
+    /// Every channel the formula reads with a gain other than zero, sorted.
+    pub fn channels(&self) -> Vec<usize> {
+        fn walk(f: &Formula, out: &mut Vec<usize>) {
+            match f {
+                Formula::Channel(i) => out.push(*i),
+                Formula::Sum { terms, .. } => {
+                    for (w, t) in terms {
+                        if *w != 0.0 {
+                            walk(t, out);
+                        }
+                    }
+                }
+                Formula::Order { args, .. } | Formula::Range(args) => {
+                    for a in args {
+                        walk(a, out);
+                    }
+                }
+            }
+        }
+        let mut out = Vec::new();
+        walk(self, &mut out);
+        out.sort_unstable();
+        out.dedup();
+        out
+    }
+
     /// The channel indices of the arguments when every argument is a bare channel (or a
     /// sum that is exactly one channel).
     pub fn bare_channels(args: &[Formula]) -> Option<Vec<usize>> {
@@ -323,6 +349,38 @@ pub struct Timing {
     pub constant_channels: Vec<bool>,
 }
 
+/// How a detection names the channel to drop (docs/architecture-format.md, "Isolation").
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum IsolationRule {
+    /// The one candidate that takes part in every check that fired; none is blamed when no
+    /// candidate, or more than one, does (one comparison of two channels cannot tell which).
+    InEveryFiredCheck,
+    /// The candidate reading farthest from the median of the candidates, when its distance
+    /// leads that of every other candidate by more than `margin`; otherwise none.
+    FarthestFromMedian { margin: f64 },
+}
+
+/// The architecture that runs on once a channel is dropped.
+#[derive(Debug, Clone, PartialEq)]
+pub struct DegradedModel {
+    /// The dropped channel (index into the full model's channels).
+    pub dropped: usize,
+    /// The compiled degraded model, or why there is none (the output needs the channel).
+    pub model: Result<Box<CompiledModel>, String>,
+}
+
+/// The isolation section, compiled.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Isolation {
+    pub rule: IsolationRule,
+    /// The channels that may be blamed, sorted.
+    pub candidates: Vec<usize>,
+    /// The channels each check reads (in check order, sorted).
+    pub check_channels: Vec<Vec<usize>>,
+    /// One degraded architecture per candidate, in the order of `candidates`.
+    pub degraded: Vec<DegradedModel>,
+}
+
 /// The model the analysis integrates.
 #[derive(Debug, Clone, PartialEq)]
 pub struct CompiledModel {
@@ -366,6 +424,8 @@ pub struct CompiledModel {
     pub faults: Vec<CompiledFault>,
     /// The timing section, when the file has one.
     pub timing: Option<Timing>,
+    /// The isolation section, when the file has one.
+    pub isolation: Option<Isolation>,
 }
 
 impl CompiledModel {

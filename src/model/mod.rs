@@ -20,6 +20,7 @@ mod error;
 mod faults;
 mod functions;
 mod graph;
+mod isolation;
 pub mod limits;
 mod names;
 mod overrides;
@@ -37,12 +38,27 @@ use std::path::Path;
 
 pub use bands::{BandForm, CheckBand};
 pub use compiled::{
-    Amplitude, Architecture, CompiledCheck, CompiledFault, CompiledModel, Detection, FaultMode,
-    Formula, Guard, LinearForm, OrderStat, Piece, PiecewiseLinear, Timing,
+    Amplitude, Architecture, CompiledCheck, CompiledFault, CompiledModel, DegradedModel, Detection,
+    FaultMode, Formula, Guard, Isolation, IsolationRule, LinearForm, OrderStat, Piece,
+    PiecewiseLinear, Timing,
 };
 pub use error::{Diagnostic, ModelError, Severity};
 pub use faults::default_sigma_range;
 pub use graph::{GraphNode, ModelGraph, NodeKind};
+
+/// Compiles a degraded architecture (derived, so valid by construction); its warnings are
+/// dropped (they would name spans of the full file).
+fn compile_degraded(
+    resolved: &resolved::Resolved,
+    path: &str,
+    text: &str,
+) -> Result<CompiledModel, String> {
+    let mut sink = error::Sink::new(path, text);
+    let graph = graph::build(resolved);
+    let model = graph::signal_order(resolved, &graph, &mut sink)
+        .and_then(|order| compile::compile(resolved, &order, &mut sink));
+    model.ok_or_else(|| "the degraded architecture could not be compiled".to_string())
+}
 
 /// Reads and compiles an architecture file.
 ///
@@ -140,7 +156,12 @@ pub fn load_str_with_overrides(
         let graph = graph::build(&resolved);
         let order = graph::signal_order(&resolved, &graph, &mut sink)?;
         graph::unused(&resolved, &graph, &mut sink);
-        let model = compile::compile(&resolved, &order, &mut sink)?;
+        let mut model = compile::compile(&resolved, &order, &mut sink)?;
+        if let Some(v) = &resolved.isolation {
+            model.isolation = isolation::compile_isolation(v, &resolved, &model, &mut sink, |r| {
+                compile_degraded(r, path_for_messages, text)
+            });
+        }
         Some((model, graph))
     });
     let Some((model, graph)) = compiled else {

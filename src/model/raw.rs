@@ -224,6 +224,15 @@ pub(crate) struct RawTiming {
     pub constant_channels: Vec<Spanned<String>>,
 }
 
+/// The `[isolation]` section: which channel a detection blames.
+#[derive(Debug, Clone, PartialEq)]
+pub(crate) struct RawIsolation {
+    pub span: Span,
+    pub rule: Option<Spanned<String>>,
+    pub margin: Option<Spanned<f64>>,
+    pub among: Option<Vec<Spanned<String>>>,
+}
+
 /// The whole file as read.
 #[derive(Debug, Clone, PartialEq)]
 pub(crate) struct RawModel {
@@ -240,6 +249,7 @@ pub(crate) struct RawModel {
     pub safety: Option<RawBand>,
     pub faults: Vec<RawFault>,
     pub timing: Option<RawTiming>,
+    pub isolation: Option<RawIsolation>,
     /// True when a section of names (sources, channels, signals) or one of its entries could
     /// not be read: references to unknown names are then not reported (they would only echo
     /// the error already reported).

@@ -173,6 +173,7 @@ pub(crate) struct Resolved {
     pub safety: (f64, f64),
     pub faults: Vec<VFault>,
     pub timing: Option<super::compiled::Timing>,
+    pub isolation: Option<super::isolation::VIsolation>,
     /// Where each source and channel is named, for warnings of later stages.
     pub source_spans: Vec<Span>,
     pub channel_spans: Vec<Span>,

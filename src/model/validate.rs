@@ -193,6 +193,10 @@ pub(crate) fn validate(raw: &RawModel, sink: &mut Sink<'_>) -> Option<Resolved> 
         .timing
         .as_ref()
         .and_then(|t| super::timing::validate_timing(t, &ns, raw, sink));
+    let isolation = raw
+        .isolation
+        .as_ref()
+        .and_then(|i| super::isolation::validate_isolation(i, &ns, sink));
 
     if sink.error_count() > errors_before {
         return None;
@@ -211,6 +215,7 @@ pub(crate) fn validate(raw: &RawModel, sink: &mut Sink<'_>) -> Option<Resolved> 
         safety: safety?,
         faults,
         timing,
+        isolation,
         source_spans: raw.sources.iter().map(|s| s.name.span).collect(),
         channel_spans: raw.channels.iter().map(|c| c.name.span).collect(),
     })

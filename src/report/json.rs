@@ -32,6 +32,9 @@
 //!   `confirmed_by_deadline`, `detection_curve`: `sample`, `time`, `p_detected`, `error`) and `metrics` (the metrics
 //!   with the timed outcomes, same keys as `metrics`).
 //!
+//! - `isolation` (only when the file has an `[isolation]` section): see
+//!   `report/isolation_json.rs`.
+//!
 //! Fields may be added in later versions; none is dropped, and none is renamed except as
 //! listed here.
 //!
@@ -199,6 +202,10 @@ pub struct AnalysisJson {
     /// The figures over time, only when the file has a timing section.
     #[serde(skip_serializing_if = "Option::is_none", default)]
     pub timing: Option<TimingJson>,
+    /// Which channel a detection blames, only when the file has an isolation section
+    /// (`report/isolation_json.rs`).
+    #[serde(skip_serializing_if = "Option::is_none", default)]
+    pub isolation: Option<super::isolation_json::IsolationJson>,
 }
 
 /// The confirmation rule of the timing section.
@@ -398,10 +405,15 @@ pub fn document(input: &ReportInput<'_>) -> AnalysisJson {
             .timed
             .as_ref()
             .map(|t| timing_json(t, &arch.model, &a.sites)),
+        isolation: a
+            .isolation
+            .as_ref()
+            .map(super::isolation_json::isolation_json),
     }
 }
 
-fn metrics_json(m: &Metrics) -> MetricsJson {
+/// The metrics in the JSON contract.
+pub fn metrics_json(m: &Metrics) -> MetricsJson {
     MetricsJson {
         total_fit: m.total_fit,
         residual_fit: m.residual_fit.value,

@@ -28,6 +28,7 @@ pub mod dot;
 pub mod error;
 pub mod format;
 pub mod html;
+pub mod isolation_json;
 pub mod json;
 pub mod plot;
 pub mod selftest;

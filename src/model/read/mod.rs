@@ -30,6 +30,7 @@ const TOP_KEYS: &[&str] = &[
     "safety",
     "faults",
     "timing",
+    "isolation",
 ];
 
 /// Reads the whole document.
@@ -48,6 +49,7 @@ pub(crate) fn read(root: &Node, sink: &mut Sink<'_>) -> RawModel {
         safety: None,
         faults: Vec::new(),
         timing: None,
+        isolation: None,
         names_incomplete: false,
         channels_given: false,
     };
@@ -159,6 +161,9 @@ pub(crate) fn read(root: &Node, sink: &mut Sink<'_>) -> RawModel {
     }
     if let Some(e) = top.take("timing") {
         model.timing = read_timing(sink, &e.value);
+    }
+    if let Some(e) = top.take("isolation") {
+        model.isolation = read_isolation(sink, &e.value);
     }
     top.finish(sink, TOP_KEYS);
     model

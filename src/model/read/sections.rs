@@ -667,6 +667,30 @@ pub(super) fn read_timing(sink: &mut Sink<'_>, node: &Node) -> Option<RawTiming>
     })
 }
 
+/// The `[isolation]` section: the rule that names the channel a detection blames, its
+/// margin, and the channels that may be blamed.
+pub(super) fn read_isolation(sink: &mut Sink<'_>, node: &Node) -> Option<RawIsolation> {
+    let mut t = TableReader::of(node, "isolation", sink)?;
+    let rule = t.required_string(sink, "rule", "rule = \"farthest_from_median\"");
+    let margin = t.optional_number(sink, "margin", "margin = 0.5");
+    let among = t.take("among").map(|e| {
+        name_list(
+            sink,
+            &e.value,
+            &t.path("among"),
+            "among = [\"a\", \"b\", \"c\"]",
+        )
+    });
+    let span = t.span;
+    t.finish(sink, &["rule", "margin", "among"]);
+    Some(RawIsolation {
+        span,
+        rule,
+        margin,
+        among,
+    })
+}
+
 /// `confirm = { consecutive = n }`, `{ at_least = m, of_last = n }` or
 /// `{ up = u, down = d, trip = level }`.
 fn read_confirm(sink: &mut Sink<'_>, node: &Node, key: &str) -> Option<Spanned<RawConfirm>> {

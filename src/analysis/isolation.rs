@@ -1,0 +1,876 @@
+//! Isolation after detection: which channel a detection blames, and what runs on without it
+//! (docs/architecture-format.md, "Isolation").
+//!
+//! The event "detected, and the rule blames channel j" is, like every outcome, a disjoint
+//! union of polytopes in the space of the channel deviations, so it is integrated with the
+//! same engine and the same error bounds:
+//! - `in_every_fired_check`: the blame is a function of which checks fired, so every firing
+//!   pattern that detects (each fired check below or above its band, the others inside) is
+//!   one polytope per cell of the checks, assigned to the one candidate that takes part in
+//!   every fired check, or to "none blamed".
+//! - `farthest_from_median`: within one ordering of the candidates the farthest reading from
+//!   the median is the lowest or the highest, decided by the sign of
+//!   `(x_max - m) - (m - x_min)`; a margin adds the lead over the next reading. Each ordering
+//!   is split into those linear pieces and joined with the detecting patterns of the checks.
+//!
+//! Per fault site the classes are combined into: the faulty channel blamed (isolated), a
+//! healthy channel blamed (the fault stays in the vote, the worst outcome; for an unknown
+//! spread its worst case over sigma, as for the residual), none blamed (a shutdown), and not
+//! detected. Each degraded architecture (one channel dropped) is analysed like any file.
+
+use rayon::prelude::*;
+
+use crate::model::{Amplitude, CompiledFault};
+use crate::model::{CompiledModel, Detection, FaultMode, IsolationRule};
+use crate::prob::Estimate;
+use crate::prob::optimise::{Stage, log_grid, scan_then_refine_staged};
+use crate::prob::polytope::{Band, Gaussian, Polytope, Tolerance};
+
+use super::cells::CellSet;
+use super::engine::{Engine, Scenario};
+use super::error::AnalysisError;
+use super::evaluate::{Pattern, Side, polytope};
+use super::options::AnalysisOptions;
+use super::run::{Analysis, analyze};
+use super::scenario::FaultScenario;
+use super::site::{SiteResult, uniform_total};
+
+/// The polytopes of "detected, and the rule blames class c": one class per candidate channel
+/// (in the order of the model's candidates), then one for "none blamed".
+#[derive(Debug, Clone)]
+pub struct BlamePlan {
+    classes: Vec<Vec<Polytope>>,
+    /// The candidate channels (indices into the model's channels).
+    pub candidates: Vec<usize>,
+    tolerance: Tolerance,
+}
+
+/// The detected share split by the channel blamed.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Blame {
+    /// `P(detected and candidate i blamed)`, in candidate order.
+    pub blamed: Vec<Estimate>,
+    /// `P(detected and no channel blamed)`.
+    pub declined: Estimate,
+}
+
+impl Blame {
+    /// `P(detected)`: every class added.
+    pub fn detected(&self) -> Estimate {
+        self.blamed
+            .iter()
+            .copied()
+            .fold(self.declined, Estimate::add)
+    }
+}
+
+impl BlamePlan {
+    /// Builds the polytopes of every class for the model's isolation rule.
+    ///
+    /// # Errors
+    /// [`AnalysisError::Unsupported`] for a model without an isolation section;
+    /// [`AnalysisError::TooLarge`] past the polytope limit of the options.
+    pub fn new(model: &CompiledModel, options: &AnalysisOptions) -> Result<Self, AnalysisError> {
+        let Some(isolation) = &model.isolation else {
+            return Err(AnalysisError::Unsupported {
+                message: "the model has no isolation section".into(),
+            });
+        };
+        let cells = CellSet::from_checks(model)?;
+        let candidates = isolation.candidates.clone();
+        let n = model.channels.len();
+        let declined = candidates.len();
+        let mut classes: Vec<Vec<Polytope>> = vec![Vec::new(); declined + 1];
+        let k = model.checks.len();
+        let limit = options.max_polytopes;
+        let mut count = 0usize;
+        let mut push = |class: usize, p: Polytope| -> Result<(), AnalysisError> {
+            count += 1;
+            if count > limit {
+                return Err(AnalysisError::TooLarge {
+                    what: "the isolation classes".into(),
+                    unit: "polytopes",
+                    limit,
+                    found: count,
+                });
+            }
+            if let Some(slot) = classes.get_mut(class) {
+                slot.push(p);
+            }
+            Ok(())
+        };
+        match isolation.rule {
+            IsolationRule::InEveryFiredCheck => {
+                for sides in firing_states(k, &model.detection) {
+                    let fired: Vec<usize> = (0..k).filter(|&c| sides[c] != Side::Inside).collect();
+                    let class = shared_candidate(&fired, &isolation.check_channels, &candidates)
+                        .unwrap_or(declined);
+                    let pattern = Pattern {
+                        output: Side::Free,
+                        checks: sides,
+                    };
+                    for cell in &cells.cells {
+                        if let Some(p) = polytope(&cells, cell, &pattern) {
+                            push(class, p)?;
+                        }
+                    }
+                }
+            }
+            IsolationRule::FarthestFromMedian { margin } => {
+                let regions = farthest_regions(n, &candidates, margin);
+                let patterns = detecting_patterns(k, &model.detection);
+                for (rows, class) in &regions {
+                    for sides in &patterns {
+                        let pattern = Pattern {
+                            output: Side::Free,
+                            checks: sides.clone(),
+                        };
+                        for cell in &cells.cells {
+                            if let Some(mut p) = polytope(&cells, cell, &pattern) {
+                                for (row, band) in rows {
+                                    p.push(row.clone(), *band);
+                                }
+                                push(*class, p)?;
+                            }
+                        }
+                    }
+                }
+            }
+        }
+        Ok(Self {
+            classes,
+            candidates,
+            tolerance: options.polytope_tolerance(),
+        })
+    }
+
+    /// Number of classes (candidates, then "none blamed").
+    pub fn class_count(&self) -> usize {
+        self.classes.len()
+    }
+
+    /// The polytopes of one class.
+    pub fn polytopes(&self, class: usize) -> &[Polytope] {
+        self.classes.get(class).map_or(&[], Vec::as_slice)
+    }
+
+    /// One polytope's probability at `tolerance`.
+    ///
+    /// # Errors
+    /// Engine failures.
+    pub fn probability(
+        &self,
+        g: &Gaussian,
+        p: &Polytope,
+        tolerance: &Tolerance,
+    ) -> Result<Estimate, AnalysisError> {
+        g.probability_best_effort(p, tolerance)
+            .map(|r| r.estimate)
+            .map_err(|e| AnalysisError::engine("isolation classes", e))
+    }
+
+    /// The probability of each wanted class for `g` (the others are left at zero).
+    ///
+    /// # Errors
+    /// Engine failures.
+    pub fn classes_at(
+        &self,
+        g: &Gaussian,
+        wanted: &[usize],
+        tolerance: &Tolerance,
+    ) -> Result<Vec<Estimate>, AnalysisError> {
+        let mut out = vec![Estimate::zero(); self.classes.len()];
+        for &c in wanted {
+            let mut total = Estimate::zero();
+            for p in self.polytopes(c) {
+                total = total.add(self.probability(g, p, tolerance)?);
+            }
+            if let Some(slot) = out.get_mut(c) {
+                *slot = total.clamp_probability();
+            }
+        }
+        Ok(out)
+    }
+
+    /// Every class for `g` at the plan's tolerance.
+    ///
+    /// # Errors
+    /// Engine failures.
+    pub fn blame(&self, g: &Gaussian) -> Result<Blame, AnalysisError> {
+        let all: Vec<usize> = (0..self.classes.len()).collect();
+        Ok(self.split(self.classes_at(g, &all, &self.tolerance)?))
+    }
+
+    fn split(&self, mut classes: Vec<Estimate>) -> Blame {
+        let declined = classes.pop().unwrap_or_else(Estimate::zero);
+        Blame {
+            blamed: classes,
+            declined,
+        }
+    }
+}
+
+/// Every state of `k` checks (each below, inside or above its band) that detects under
+/// `detection`: the fired set is known exactly in each.
+pub fn firing_states(k: usize, detection: &Detection) -> Vec<Vec<Side>> {
+    let needed = match detection {
+        Detection::Any => 1,
+        Detection::AtLeast(m) => *m,
+    };
+    let total = 3usize.saturating_pow(k as u32);
+    let mut out = Vec::new();
+    for code in 0..total {
+        let mut rest = code;
+        let mut sides = Vec::with_capacity(k);
+        for _ in 0..k {
+            sides.push([Side::Inside, Side::Below, Side::Above][rest % 3]);
+            rest /= 3;
+        }
+        let fired = sides.iter().filter(|s| **s != Side::Inside).count();
+        if fired >= needed.max(1) {
+            out.push(sides);
+        }
+    }
+    out
+}
+
+/// Disjoint patterns of `k` checks whose union is "detected": the checks are decided in turn
+/// (fired below, fired above, or inside while enough checks remain to reach the count), and
+/// once enough have fired the rest are left free.
+pub fn detecting_patterns(k: usize, detection: &Detection) -> Vec<Vec<Side>> {
+    let needed = match detection {
+        Detection::Any => 1,
+        Detection::AtLeast(m) => (*m).max(1),
+    };
+    let mut out = Vec::new();
+    let mut current = Vec::with_capacity(k);
+    fn walk(
+        k: usize,
+        needed: usize,
+        fired: usize,
+        current: &mut Vec<Side>,
+        out: &mut Vec<Vec<Side>>,
+    ) {
+        if fired >= needed {
+            let mut sides = current.clone();
+            sides.resize(k, Side::Free);
+            out.push(sides);
+            return;
+        }
+        let at = current.len();
+        if at == k {
+            return;
+        }
+        for side in [Side::Below, Side::Above] {
+            current.push(side);
+            walk(k, needed, fired + 1, current, out);
+            current.pop();
+        }
+        if k - at > needed - fired {
+            current.push(Side::Inside);
+            walk(k, needed, fired, current, out);
+            current.pop();
+        }
+    }
+    walk(k, needed, 0, &mut current, &mut out);
+    out
+}
+
+/// The class of the one candidate that takes part in every fired check (`None` when none or
+/// several do).
+fn shared_candidate(
+    fired: &[usize],
+    check_channels: &[Vec<usize>],
+    candidates: &[usize],
+) -> Option<usize> {
+    let mut found = None;
+    for (class, c) in candidates.iter().enumerate() {
+        let in_all = fired
+            .iter()
+            .all(|f| check_channels.get(*f).is_some_and(|ch| ch.contains(c)));
+        if in_all {
+            if found.is_some() {
+                return None;
+            }
+            found = Some(class);
+        }
+    }
+    found
+}
+
+type Rows = Vec<(Vec<f64>, Band)>;
+
+/// The linear pieces of "the farthest reading from the median leads by more than `margin`",
+/// with the class each blames (a candidate, or `candidates.len()` for none).
+fn farthest_regions(n: usize, candidates: &[usize], margin: f64) -> Vec<(Rows, usize)> {
+    let count = candidates.len();
+    let declined = count;
+    if count < 3 {
+        // Two readings are always equally far from their median.
+        return vec![(Vec::new(), declined)];
+    }
+    let unit = |i: usize| {
+        let mut r = vec![0.0; n];
+        if let Some(v) = r.get_mut(candidates[i]) {
+            *v = 1.0;
+        }
+        r
+    };
+    let combine = |terms: &[(f64, usize)]| {
+        let mut r = vec![0.0; n];
+        for (w, i) in terms {
+            if let Some(v) = r.get_mut(candidates[*i]) {
+                *v += w;
+            }
+        }
+        r
+    };
+    let mut out = Vec::new();
+    for order in permutations(count) {
+        let mut ordering: Rows = Vec::new();
+        for w in order.windows(2) {
+            let mut row = unit(w[1]);
+            for (a, b) in row.iter_mut().zip(unit(w[0])) {
+                *a -= b;
+            }
+            ordering.push((row, Band::above(0.0)));
+        }
+        let (low, high) = (order[0], order[count - 1]);
+        // m: the middle reading, or the mean of the middle two.
+        let middle: Vec<(f64, usize)> = if count % 2 == 1 {
+            vec![(1.0, order[count / 2])]
+        } else {
+            vec![(0.5, order[count / 2 - 1]), (0.5, order[count / 2])]
+        };
+        // lead = (x_high - m) - (m - x_low) = x_high + x_low - 2 m
+        let mut lead_terms = vec![(1.0, high), (1.0, low)];
+        lead_terms.extend(middle.iter().map(|(w, i)| (-2.0 * w, *i)));
+        let lead = combine(&lead_terms);
+        let top_gap = combine(&[(1.0, high), (-1.0, order[count - 2])]);
+        let bottom_gap = combine(&[(1.0, order[1]), (-1.0, low)]);
+        let with = |extra: &[(Vec<f64>, Band)]| {
+            let mut rows = ordering.clone();
+            rows.extend(extra.iter().cloned());
+            rows
+        };
+        out.push((
+            with(&[
+                (lead.clone(), Band::above(margin)),
+                (top_gap.clone(), Band::above(margin)),
+            ]),
+            high,
+        ));
+        out.push((
+            with(&[
+                (lead.clone(), Band::below(-margin)),
+                (bottom_gap.clone(), Band::above(margin)),
+            ]),
+            low,
+        ));
+        if margin > 0.0 {
+            out.push((
+                with(&[(lead.clone(), Band::closed(-margin, margin))]),
+                declined,
+            ));
+            out.push((
+                with(&[
+                    (lead.clone(), Band::above(margin)),
+                    (top_gap, Band::closed(f64::NEG_INFINITY, margin)),
+                ]),
+                declined,
+            ));
+            out.push((
+                with(&[
+                    (lead, Band::below(-margin)),
+                    (bottom_gap, Band::closed(f64::NEG_INFINITY, margin)),
+                ]),
+                declined,
+            ));
+        }
+    }
+    out
+}
+
+/// Every ordering of `0..k`, in lexicographic order.
+fn permutations(k: usize) -> Vec<Vec<usize>> {
+    fn walk(rest: &mut Vec<usize>, current: &mut Vec<usize>, out: &mut Vec<Vec<usize>>) {
+        if rest.is_empty() {
+            out.push(current.clone());
+            return;
+        }
+        for i in 0..rest.len() {
+            let v = rest.remove(i);
+            current.push(v);
+            walk(rest, current, out);
+            current.pop();
+            rest.insert(i, v);
+        }
+    }
+    let mut out = Vec::new();
+    walk(&mut (0..k).collect(), &mut Vec::new(), &mut out);
+    out
+}
+
+/// The isolation figures of one fault site.
+#[derive(Debug, Clone, PartialEq)]
+pub struct SiteIsolation {
+    /// The site's name.
+    pub name: String,
+    /// Candidates (indices into the candidate list) that the fault moves.
+    pub faulty: Vec<usize>,
+    /// True when the fault moves exactly one channel and it is a candidate: dropping it
+    /// removes the fault.
+    pub removable: bool,
+    /// Detected, split by the channel blamed.
+    pub blame: Blame,
+    /// `P(detected and a channel the fault moves is blamed)`.
+    pub isolated: Estimate,
+    /// `P(detected and a healthy channel is blamed)`: the fault stays in the vote.
+    pub wrong: Estimate,
+    /// `P(not detected, output within its band)`.
+    pub quiet_safe: Estimate,
+    /// `P(not detected, output outside its band)`: the residual.
+    pub quiet_violated: Estimate,
+    /// For an unknown spread: the sigma where `wrong` is largest (the figures are taken
+    /// there).
+    pub sigma: Option<f64>,
+    /// `P(a channel is blamed, the fault survives in the architecture without it, and that
+    /// architecture then gives a dangerous undetected output)`, the next sample taken as
+    /// independent of the one that blamed; `None` when no degraded analysis holds the site.
+    pub after_drop_residual: Option<Estimate>,
+}
+
+/// The end states of single faults, each a FIT-weighted share over the sites.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct EndStates {
+    /// The function goes on with a correct output: the fault isolated and removed, or not
+    /// detected and harmless.
+    pub continues: Estimate,
+    /// No channel blamed: a safe shutdown.
+    pub shutdown: Estimate,
+    /// A channel blamed but the fault still in the vote (a healthy channel dropped, or one of
+    /// several hit channels).
+    pub fault_stays: Estimate,
+    /// Not detected and dangerous (the residual share).
+    pub residual: Estimate,
+}
+
+/// The architecture that runs on once a channel is dropped, analysed like any file.
+#[derive(Debug, Clone, PartialEq)]
+pub struct DegradedStage {
+    /// The dropped channel.
+    pub dropped: String,
+    /// Its output and checks in words (for reports).
+    pub output: String,
+    /// The checks that remain, as formulas.
+    pub checks: Vec<String>,
+    /// Its analysis, or why there is none.
+    pub analysis: Result<Box<Analysis>, String>,
+}
+
+/// Everything isolation adds to an analysis.
+#[derive(Debug, Clone, PartialEq)]
+pub struct IsolationAnalysis {
+    /// The rule of the file.
+    pub rule: IsolationRule,
+    /// The channels that may be blamed.
+    pub candidates: Vec<String>,
+    /// Fault-free: the false alarms split by the channel they drop.
+    pub baseline: Blame,
+    /// One entry per fault site, in file order.
+    pub sites: Vec<SiteIsolation>,
+    /// The FIT-weighted end states of a single fault.
+    pub end_states: EndStates,
+    /// One degraded architecture per candidate.
+    pub degraded: Vec<DegradedStage>,
+    /// Warnings for the analyst.
+    pub warnings: Vec<String>,
+}
+
+/// The isolation figures of a model with an isolation section, given its site results.
+///
+/// # Errors
+/// Engine failures; a decomposition past a limit.
+pub fn analyze_isolation(
+    engine: &Engine<'_>,
+    sites: &[SiteResult],
+    options: &AnalysisOptions,
+) -> Result<Option<IsolationAnalysis>, AnalysisError> {
+    let model = engine.model();
+    let Some(isolation) = &model.isolation else {
+        return Ok(None);
+    };
+    let plan = BlamePlan::new(model, options)?;
+    let degraded: Vec<DegradedStage> = isolation
+        .degraded
+        .iter()
+        .map(|d| {
+            let dropped = name_of(model, d.dropped);
+            match &d.model {
+                Ok(m) => DegradedStage {
+                    dropped,
+                    output: m.output_description.clone(),
+                    checks: m
+                        .checks
+                        .iter()
+                        .map(|c| format!("{}: {}", c.name, c.description))
+                        .collect(),
+                    analysis: analyze(m, options, false)
+                        .map(Box::new)
+                        .map_err(|e| e.to_string()),
+                },
+                Err(why) => DegradedStage {
+                    dropped,
+                    output: String::new(),
+                    checks: Vec::new(),
+                    analysis: Err(why.clone()),
+                },
+            }
+        })
+        .collect();
+    let baseline_gaussian = super::scenario::baseline(model)?;
+    let baseline = plan.blame(&baseline_gaussian)?;
+    let results: Vec<SiteIsolation> = model
+        .faults
+        .par_iter()
+        .zip(sites.par_iter())
+        .map(|(fault, site)| site_isolation(engine, &plan, fault, site, &degraded, options))
+        .collect::<Result<_, _>>()?;
+    let mut warnings = Vec::new();
+    for (site, fault) in results.iter().zip(&model.faults) {
+        let sum = site
+            .blame
+            .detected()
+            .add(site.quiet_safe)
+            .add(site.quiet_violated);
+        if (sum.value - 1.0).abs() > sum.error + 1e-9 {
+            warnings.push(format!(
+                "the isolation figures of '{}' sum to {:.9} instead of 1 (bound {:.1e}): treat \
+                 them with care",
+                fault.name, sum.value, sum.error
+            ));
+        }
+    }
+    if model.timing.is_some() {
+        warnings.push(
+            "isolation is computed for one sample: the confirmation rule of the timing \
+             section is not applied to the blame"
+                .into(),
+        );
+    }
+    Ok(Some(IsolationAnalysis {
+        rule: isolation.rule,
+        candidates: plan.candidates.iter().map(|&i| name_of(model, i)).collect(),
+        baseline,
+        end_states: end_states(&results, &model.faults),
+        sites: results,
+        degraded,
+        warnings,
+    }))
+}
+
+fn name_of(model: &CompiledModel, channel: usize) -> String {
+    model.channels.get(channel).cloned().unwrap_or_default()
+}
+
+/// The FIT-weighted end states over the sites.
+fn end_states(sites: &[SiteIsolation], faults: &[CompiledFault]) -> EndStates {
+    let total: f64 = faults.iter().map(|f| f.fit).sum();
+    let mut acc = [Estimate::zero(); 4];
+    if total > 0.0 {
+        for (s, f) in sites.iter().zip(faults) {
+            let w = f.fit / total;
+            let (gone, stays) = if s.removable {
+                (s.isolated, s.wrong)
+            } else {
+                (Estimate::zero(), s.wrong.add(s.isolated))
+            };
+            acc[0] = acc[0].add(gone.add(s.quiet_safe).scale(w));
+            acc[1] = acc[1].add(s.blame.declined.scale(w));
+            acc[2] = acc[2].add(stays.scale(w));
+            acc[3] = acc[3].add(s.quiet_violated.scale(w));
+        }
+    }
+    EndStates {
+        continues: acc[0].clamp_probability(),
+        shutdown: acc[1].clamp_probability(),
+        fault_stays: acc[2].clamp_probability(),
+        residual: acc[3].clamp_probability(),
+    }
+}
+
+/// The channels a fault moves.
+fn moved_channels(fault: &CompiledFault) -> Vec<usize> {
+    match &fault.mode {
+        FaultMode::Add { direction } => direction
+            .iter()
+            .enumerate()
+            .filter(|(_, d)| **d != 0.0)
+            .map(|(i, _)| i)
+            .collect(),
+        FaultMode::Replace { channel, .. } => vec![*channel],
+    }
+}
+
+fn site_isolation(
+    engine: &Engine<'_>,
+    plan: &BlamePlan,
+    fault: &CompiledFault,
+    site: &SiteResult,
+    degraded: &[DegradedStage],
+    options: &AnalysisOptions,
+) -> Result<SiteIsolation, AnalysisError> {
+    let model = engine.model();
+    let named = |e: AnalysisError| match e {
+        AnalysisError::Engine { context, source } => AnalysisError::Engine {
+            context: format!("fault site '{}', isolation, {context}", fault.name),
+            source,
+        },
+        other => other,
+    };
+    let scenario = FaultScenario::new(model, fault)?;
+    let moved = moved_channels(fault);
+    let faulty: Vec<usize> = plan
+        .candidates
+        .iter()
+        .enumerate()
+        .filter(|(_, c)| moved.contains(c))
+        .map(|(i, _)| i)
+        .collect();
+    let removable = moved.len() == 1 && faulty.len() == 1;
+    let healthy: Vec<usize> = (0..plan.candidates.len())
+        .filter(|i| !faulty.contains(i))
+        .collect();
+    let all: Vec<usize> = (0..plan.class_count()).collect();
+    let tol = options.polytope_tolerance();
+    let (classes, sigma, quiet) = match &fault.amplitude {
+        Amplitude::Gaussian { mean, sigma } => {
+            let g = scenario.with_gaussian_amplitude(*mean, *sigma)?;
+            let c = plan.classes_at(&g, &all, &tol).map_err(named)?;
+            (c, None, None)
+        }
+        Amplitude::Points(points) => {
+            let mut total = vec![Estimate::zero(); plan.class_count()];
+            for (value, weight) in points {
+                let g = scenario.at_amplitude(*value)?;
+                let c = plan.classes_at(&g, &all, &tol).map_err(named)?;
+                for (t, e) in total.iter_mut().zip(c) {
+                    *t = t.add(e.scale(*weight));
+                }
+            }
+            (
+                total.into_iter().map(Estimate::clamp_probability).collect(),
+                None,
+                None,
+            )
+        }
+        Amplitude::Uniform { lower, upper } if upper > lower => {
+            let width = upper - lower;
+            let mut out = Vec::with_capacity(plan.class_count());
+            for class in 0..plan.class_count() {
+                let total = uniform_total(
+                    plan.polytopes(class),
+                    &scenario,
+                    (*lower, *upper),
+                    options,
+                    "an isolation class",
+                    &|g, p| plan.probability(g, p, &tol),
+                )
+                .map_err(named)?;
+                out.push(
+                    Estimate::new(total.value / width, total.error / width).clamp_probability(),
+                );
+            }
+            (out, None, None)
+        }
+        Amplitude::Uniform { lower, .. } => {
+            let g = scenario.at_amplitude(*lower)?;
+            (plan.classes_at(&g, &all, &tol).map_err(named)?, None, None)
+        }
+        Amplitude::GaussianUnknownSigma {
+            mean,
+            sigma_lo,
+            sigma_hi,
+            ..
+        } => {
+            let s = worst_wrong_sigma(
+                plan,
+                &scenario,
+                *mean,
+                (*sigma_lo, *sigma_hi),
+                &healthy,
+                site,
+                options,
+            )
+            .map_err(named)?;
+            let at = |sigma: f64| -> Result<Vec<Estimate>, AnalysisError> {
+                let g = scenario.with_gaussian_amplitude(*mean, sigma)?;
+                plan.classes_at(&g, &all, &tol)
+            };
+            let centre = at(s).map_err(named)?;
+            // The location is known to sigma_rel_tol: widen by the move over that distance.
+            let step = options.sigma_rel_tol.max(1e-12);
+            let left = at((s * (1.0 - step)).max(*sigma_lo)).map_err(named)?;
+            let right = at((s * (1.0 + step)).min(*sigma_hi)).map_err(named)?;
+            let widened = centre
+                .iter()
+                .zip(left.iter().zip(&right))
+                .map(|(c, (l, r))| {
+                    let moved = (l.value - c.value).abs().max((r.value - c.value).abs());
+                    Estimate::new(c.value, c.error + moved)
+                })
+                .collect();
+            let (outcome, _) = engine
+                .outcome(Scenario::Gaussian(&scenario, *mean, s))
+                .map_err(named)?;
+            (widened, Some(s), Some((outcome.p_sq, outcome.p_vu)))
+        }
+    };
+    let blame = plan.split(classes);
+    let sum_of = |set: &[usize]| {
+        set.iter()
+            .filter_map(|i| blame.blamed.get(*i))
+            .fold(Estimate::zero(), |a, e| a.add(*e))
+    };
+    let isolated = sum_of(&faulty);
+    let wrong = sum_of(&healthy);
+    let (quiet_safe, quiet_violated) = quiet.unwrap_or((site.outcome.p_sq, site.outcome.p_vu));
+    // The next stage: for every blamed channel after whose removal the fault is still there.
+    let mut after: Option<Estimate> = None;
+    for (class, stage) in degraded.iter().enumerate() {
+        if removable && faulty.contains(&class) {
+            continue;
+        }
+        let Ok(analysis) = &stage.analysis else {
+            continue;
+        };
+        let Some(there) = analysis.sites.iter().find(|s| s.name == fault.name) else {
+            continue;
+        };
+        let p = blame
+            .blamed
+            .get(class)
+            .copied()
+            .unwrap_or_else(Estimate::zero);
+        let term = Estimate::new(
+            p.value * there.outcome.p_vu.value,
+            p.error * there.outcome.p_vu.value + (p.value + p.error) * there.outcome.p_vu.error,
+        );
+        after = Some(after.map_or(term, |a| a.add(term)));
+    }
+    Ok(SiteIsolation {
+        name: fault.name.clone(),
+        faulty,
+        removable,
+        isolated,
+        wrong,
+        blame,
+        quiet_safe,
+        quiet_violated,
+        sigma,
+        after_drop_residual: after,
+    })
+}
+
+/// The sigma where "a healthy channel blamed" is largest: a log-grid scan at the scan
+/// tolerance, then Brent on every local maximum (as for the residual, `site.rs`). With no
+/// healthy candidate the residual's worst sigma is kept.
+fn worst_wrong_sigma(
+    plan: &BlamePlan,
+    scenario: &FaultScenario,
+    mean: f64,
+    range: (f64, f64),
+    healthy: &[usize],
+    site: &SiteResult,
+    options: &AnalysisOptions,
+) -> Result<f64, AnalysisError> {
+    let fallback = site.worst.as_ref().map_or(range.0, |w| w.sigma);
+    if healthy.is_empty() {
+        return Ok(fallback);
+    }
+    let grid = log_grid(range.0, range.1, options.sigma_scan_points.max(3))
+        .map_err(|e| AnalysisError::engine("grid over the fault sigma", e))?;
+    let scan_tol = options.scan_tolerance();
+    let full_tol = options.polytope_tolerance();
+    let wrong_at = |sigma: f64, tol: &Tolerance| -> Result<f64, AnalysisError> {
+        let g = scenario.with_gaussian_amplitude(mean, sigma)?;
+        let c = plan.classes_at(&g, healthy, tol)?;
+        Ok(c.iter().map(|e| e.value).sum())
+    };
+    let precomputed: Vec<Result<f64, AnalysisError>> =
+        grid.par_iter().map(|&s| wrong_at(s, &scan_tol)).collect();
+    let scan = scan_then_refine_staged(
+        |sigma, stage| {
+            let cached = match stage {
+                Stage::Scan => grid
+                    .iter()
+                    .position(|g| *g == sigma)
+                    .and_then(|i| precomputed.get(i)),
+                Stage::Refine => None,
+            };
+            let v = match cached {
+                Some(found) => found.clone(),
+                None => wrong_at(sigma, &full_tol),
+            };
+            v.map(|w| -w).map_err(|e| match e {
+                AnalysisError::Engine { source, .. } => source,
+                other => crate::prob::ProbError::InvalidArgument(other.to_string()),
+            })
+        },
+        &grid,
+        options.sigma_rel_tol,
+        options.sigma_max_evaluations,
+        true,
+    )
+    .map_err(|e| AnalysisError::engine("search of the sigma that most often blames wrongly", e))?;
+    Ok(scan.minima.first().map_or(fallback, |m| m.x))
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn detecting_patterns_cover_each_detecting_state_once() {
+        // Counting argument (common practice): every state of k checks with at least m
+        // firings matches exactly one pattern, and no other state matches any.
+        for k in 1..5 {
+            for m in 1..=k {
+                let det = Detection::AtLeast(m);
+                let pats = detecting_patterns(k, &det);
+                for code in 0..3usize.pow(k as u32) {
+                    let mut rest = code;
+                    let state: Vec<Side> = (0..k)
+                        .map(|_| {
+                            let s = [Side::Inside, Side::Below, Side::Above][rest % 3];
+                            rest /= 3;
+                            s
+                        })
+                        .collect();
+                    let fired = state.iter().filter(|s| **s != Side::Inside).count();
+                    let hits = pats
+                        .iter()
+                        .filter(|p| {
+                            p.iter()
+                                .zip(&state)
+                                .all(|(a, b)| *a == Side::Free || a == b)
+                        })
+                        .count();
+                    assert_eq!(hits, usize::from(fired >= m), "k={k} m={m} {state:?}");
+                }
+            }
+        }
+    }
+
+    #[test]
+    fn one_comparison_names_no_channel() {
+        // Common practice: a 1oo2 comparator that fires cannot tell which of its two
+        // channels is wrong.
+        let checks = vec![vec![0, 1]];
+        assert_eq!(shared_candidate(&[0], &checks, &[0, 1]), None);
+        // Three pairwise comparisons: the two that fire share exactly the faulty channel.
+        let checks = vec![vec![0, 1], vec![1, 2], vec![0, 2]];
+        assert_eq!(shared_candidate(&[0, 2], &checks, &[0, 1, 2]), Some(0));
+        assert_eq!(shared_candidate(&[0, 1, 2], &checks, &[0, 1, 2]), None);
+    }
+}
