@@ -72,7 +72,7 @@ fn agrees_with_sampling(name: &str) {
             r.exact.error <= half / 10.0,
             "{name} {} {}: exact bound {:e} too loose next to the sampled half-width {half:e}",
             r.scenario,
-            r.figure.key(),
+            r.figure,
             r.exact.error
         );
         // The agreement rule of verify, restated: the exact value and its bound meet the
@@ -84,7 +84,7 @@ fn agrees_with_sampling(name: &str) {
             r.agrees,
             "{name} {} {}: exact {} ± {:e}, sampled {} in [{}, {}]",
             r.scenario,
-            r.figure.key(),
+            r.figure,
             r.exact.value,
             r.exact.error,
             r.sampled,
@@ -204,7 +204,7 @@ fn a_changed_model_is_caught() {
     let disagree: Vec<String> = rows
         .iter()
         .filter(|r| !r.agrees)
-        .map(|r| format!("{} {}", r.scenario, r.figure.key()))
+        .map(|r| format!("{} {}", r.scenario, r.figure))
         .collect();
     assert!(!disagree.is_empty(), "no disagreement found");
     eprintln!("caught: {disagree:?}");

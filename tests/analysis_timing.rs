@@ -294,7 +294,7 @@ fn the_sampler_agrees_on_the_example_with_timing() {
             r.agrees,
             "{} {}: exact {:?}, interval {:?}",
             r.scenario,
-            r.figure.key(),
+            r.figure,
             r.exact,
             r.interval
         );

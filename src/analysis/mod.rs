@@ -24,6 +24,7 @@ pub mod engine;
 pub mod error;
 pub mod evaluate;
 pub mod isolation;
+pub mod isolation_sampling;
 pub mod metrics;
 pub mod montecarlo;
 pub mod options;

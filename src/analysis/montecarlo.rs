@@ -195,7 +195,7 @@ impl<'a> Sampler<'a> {
     }
 
     /// One sample of the channel deviations with the fault applied.
-    fn draw(
+    pub(super) fn draw(
         &self,
         rng: &mut SplitMix64,
         normals: &mut NormalSource,
@@ -460,8 +460,8 @@ fn check_samples(samples: u64, field: RequestField) -> Result<(), AnalysisError>
 pub struct Agreement {
     /// `baseline` or the site's name.
     pub scenario: String,
-    /// The figure compared.
-    pub figure: Figure,
+    /// The key of the figure compared (`p_vd`, ..., or an isolation figure).
+    pub figure: &'static str,
     /// The exact value and its bound.
     pub exact: Estimate,
     /// The sampled point estimate.
@@ -498,6 +498,7 @@ pub fn verify(
         compare(&site.name, &site.outcome, &counts, &mut rows);
     }
     rows.extend(super::timed_sampling::verify_timed(model, exact, mc)?);
+    rows.extend(super::isolation_sampling::verify_isolation(model, exact, mc)?);
     Ok(rows)
 }
 
@@ -508,7 +509,7 @@ pub(super) fn compare(name: &str, exact: &Outcome, counts: &Counts, rows: &mut V
         let (lo, hi) = counts.interval(figure, Z_999);
         rows.push(Agreement {
             scenario: name.to_string(),
-            figure,
+            figure: figure.key(),
             exact: e,
             sampled: counts.counts[index(figure)] as f64 / n,
             interval: (lo, hi),

@@ -386,7 +386,7 @@ pub fn document(input: &ReportInput<'_>) -> AnalysisJson {
             rows.iter()
                 .map(|r| AgreementJson {
                     scenario: r.scenario.clone(),
-                    figure: r.figure.key().to_string(),
+                    figure: r.figure.to_string(),
                     exact: r.exact.value,
                     exact_error: r.exact.error,
                     sampled: r.sampled,

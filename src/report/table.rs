@@ -206,7 +206,7 @@ pub fn render(input: &ReportInput<'_>) -> String {
                 out,
                 "  DISAGREES  {} {}: exact {} ± {}, sampled {} in [{}, {}]",
                 r.scenario,
-                r.figure.key(),
+                r.figure,
                 probability(r.exact.value),
                 bound(r.exact.error),
                 probability(r.sampled),

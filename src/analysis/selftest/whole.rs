@@ -424,7 +424,7 @@ pub fn monte_carlo_cases(_data: &ReferenceData) -> Vec<Case> {
                 };
                 Case::new(
                     MONTE_CARLO,
-                    format!("{} / {}", r.scenario, r.figure.key()),
+                    format!("{} / {}", r.scenario, r.figure),
                     source.clone(),
                     Ok((r.exact.value, r.exact.error)),
                     r.sampled,
