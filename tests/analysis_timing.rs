@@ -293,10 +293,7 @@ fn the_sampler_agrees_on_the_example_with_timing() {
         assert!(
             r.agrees,
             "{} {}: exact {:?}, interval {:?}",
-            r.scenario,
-            r.figure,
-            r.exact,
-            r.interval
+            r.scenario, r.figure, r.exact, r.interval
         );
     }
 }

@@ -438,6 +438,8 @@ pub struct SiteIsolation {
     /// architecture then gives a dangerous undetected output)`, the next sample taken as
     /// independent of the one that blamed; `None` when no degraded analysis holds the site.
     pub after_drop_residual: Option<Estimate>,
+    /// Warnings for the analyst.
+    pub warnings: Vec<String>,
 }
 
 /// The end states of single faults, each a FIT-weighted share over the sites.
@@ -536,7 +538,7 @@ pub fn analyze_isolation(
         .zip(sites.par_iter())
         .map(|(fault, site)| site_isolation(engine, &plan, fault, site, &degraded, options))
         .collect::<Result<_, _>>()?;
-    let mut warnings = Vec::new();
+    let mut warnings: Vec<String> = results.iter().flat_map(|s| s.warnings.clone()).collect();
     for (site, fault) in results.iter().zip(&model.faults) {
         let sum = site
             .blame
@@ -643,6 +645,7 @@ fn site_isolation(
         .collect();
     let all: Vec<usize> = (0..plan.class_count()).collect();
     let tol = options.polytope_tolerance();
+    let mut warnings = Vec::new();
     let (classes, sigma, quiet) = match &fault.amplitude {
         Amplitude::Gaussian { mean, sigma } => {
             let g = scenario.with_gaussian_amplitude(*mean, *sigma)?;
@@ -693,7 +696,7 @@ fn site_isolation(
             sigma_hi,
             ..
         } => {
-            let s = worst_wrong_sigma(
+            let (s, at_end) = worst_wrong_sigma(
                 plan,
                 &scenario,
                 *mean,
@@ -723,6 +726,14 @@ fn site_isolation(
             let (outcome, _) = engine
                 .outcome(Scenario::Gaussian(&scenario, *mean, s))
                 .map_err(named)?;
+            if at_end {
+                warnings.push(format!(
+                    "the wrong blame of '{}' is largest at an end of the sigma range \
+                     [{sigma_lo}, {sigma_hi}] (sigma {s}): widen the range to be sure it is the \
+                     true maximum",
+                    fault.name
+                ));
+            }
             (widened, Some(s), Some((outcome.p_sq, outcome.p_vu)))
         }
     };
@@ -769,12 +780,14 @@ fn site_isolation(
         quiet_violated,
         sigma,
         after_drop_residual: after,
+        warnings,
     })
 }
 
-/// The sigma where "a healthy channel blamed" is largest: a log-grid scan at the scan
-/// tolerance, then Brent on every local maximum (as for the residual, `site.rs`). With no
-/// healthy candidate the residual's worst sigma is kept.
+/// The sigma where "a healthy channel blamed" is largest, and whether it sits at an end of
+/// the range: a log-grid scan at the scan tolerance, then Brent on every local maximum (as
+/// for the residual, `site.rs`). With no healthy candidate, or none ever blamed on the grid,
+/// the residual's worst sigma is kept.
 fn worst_wrong_sigma(
     plan: &BlamePlan,
     scenario: &FaultScenario,
@@ -783,10 +796,10 @@ fn worst_wrong_sigma(
     healthy: &[usize],
     site: &SiteResult,
     options: &AnalysisOptions,
-) -> Result<f64, AnalysisError> {
+) -> Result<(f64, bool), AnalysisError> {
     let fallback = site.worst.as_ref().map_or(range.0, |w| w.sigma);
     if healthy.is_empty() {
-        return Ok(fallback);
+        return Ok((fallback, false));
     }
     let grid = log_grid(range.0, range.1, options.sigma_scan_points.max(3))
         .map_err(|e| AnalysisError::engine("grid over the fault sigma", e))?;
@@ -799,6 +812,10 @@ fn worst_wrong_sigma(
     };
     let precomputed: Vec<Result<f64, AnalysisError>> =
         grid.par_iter().map(|&s| wrong_at(s, &scan_tol)).collect();
+    // A wrong blame that no sigma of the grid can cause: keep the residual's worst sigma.
+    if precomputed.iter().all(|v| matches!(v, Ok(w) if *w == 0.0)) {
+        return Ok((fallback, false));
+    }
     let scan = scan_then_refine_staged(
         |sigma, stage| {
             let cached = match stage {
@@ -823,7 +840,10 @@ fn worst_wrong_sigma(
         true,
     )
     .map_err(|e| AnalysisError::engine("search of the sigma that most often blames wrongly", e))?;
-    Ok(scan.minima.first().map_or(fallback, |m| m.x))
+    Ok(scan
+        .minima
+        .first()
+        .map_or((fallback, false), |m| (m.x, m.at_boundary)))
 }
 
 #[cfg(test)]

@@ -498,7 +498,9 @@ pub fn verify(
         compare(&site.name, &site.outcome, &counts, &mut rows);
     }
     rows.extend(super::timed_sampling::verify_timed(model, exact, mc)?);
-    rows.extend(super::isolation_sampling::verify_isolation(model, exact, mc)?);
+    rows.extend(super::isolation_sampling::verify_isolation(
+        model, exact, mc,
+    )?);
     Ok(rows)
 }
 
