@@ -6,11 +6,12 @@ use crate::analysis::engine::FigureMethod;
 use crate::analysis::metrics::{LFM_TARGETS, SPFM_TARGETS};
 
 use super::cautions::CAUTIONS;
+use crate::analysis::isolation::IsolationAnalysis;
 use crate::analysis::timing::TimedAnalysis;
 
 use super::format::{
-    AmplitudeStyle, bound, describe_amplitude, describe_confirm, fit, number, percent_floor,
-    percent_with_bound, probability, seconds, wrap,
+    AmplitudeStyle, bound, describe_amplitude, describe_confirm, describe_isolation_rule, fit,
+    number, percent_floor, percent_with_bound, probability, seconds, wrap,
 };
 use super::{ReportInput, TOOL_VERSION, input_sha256};
 
@@ -193,6 +194,9 @@ pub fn render(input: &ReportInput<'_>) -> String {
     if let Some(t) = &a.timed {
         timed_section(&mut out, t, a);
     }
+    if let Some(i) = &a.isolation {
+        isolation_section(&mut out, i, unit);
+    }
     if let Some(rows) = input.verification {
         let _ = writeln!(out);
         let agree = rows.iter().filter(|r| r.agrees).count();
@@ -332,6 +336,104 @@ fn timed_section(out: &mut String, t: &TimedAnalysis, a: &crate::analysis::Analy
         "  (\"in time\": the rule confirms by the deadline, dangerous or not; DC counts a fault \
          confirmed\n  after the deadline as not detected)"
     );
+}
+
+/// Isolation: the rule, the false alarms that drop a channel, each site's classes, the end
+/// states of a single fault and the architectures without each channel.
+fn isolation_section(out: &mut String, i: &IsolationAnalysis, unit: &str) {
+    let _ = writeln!(out);
+    let head = format!(
+        "Isolation after detection: {} (candidates {})",
+        describe_isolation_rule(&i.rule, unit),
+        i.candidates.join(", ")
+    );
+    for line in wrap(&head, 98) {
+        let _ = writeln!(out, "{line}");
+    }
+    let drops: Vec<String> = i
+        .candidates
+        .iter()
+        .zip(&i.baseline.blamed)
+        .map(|(c, p)| format!("{c} {}", probability(p.value)))
+        .collect();
+    indented(
+        out,
+        &format!(
+            "false alarms that drop a channel: {}; none blamed {}",
+            drops.join(", "),
+            probability(i.baseline.declined.value)
+        ),
+    );
+    let _ = writeln!(
+        out,
+        "{:<16} {:>10} {:>10} {:>11} {:>12} {:>7} {:>11} {:>11}",
+        "site", "isolated", "wrong ch.", "none blamed", "not detected", "bound", "sigma", "after drop"
+    );
+    for s in &i.sites {
+        let not_detected = s.quiet_safe.add(s.quiet_violated);
+        let largest = [s.isolated, s.wrong, s.blame.declined, not_detected]
+            .iter()
+            .map(|e| e.error)
+            .fold(0.0, f64::max);
+        let _ = writeln!(
+            out,
+            "{:<16} {:>10} {:>10} {:>11} {:>12} {:>7} {:>11} {:>11}",
+            clip(&s.name, 16),
+            probability(s.isolated.value),
+            probability(s.wrong.value),
+            probability(s.blame.declined.value),
+            probability(not_detected.value),
+            bound(largest),
+            s.sigma.map_or("-".to_string(), number),
+            s.after_drop_residual
+                .map_or("-".to_string(), |e| probability(e.value))
+        );
+    }
+    let e = &i.end_states;
+    indented(
+        out,
+        &format!(
+            "end states of a single fault (FIT-weighted): continues {} %, shutdown {} %, fault \
+             stays in the vote {} %, residual {} %",
+            percent_floor(e.continues.value),
+            percent_floor(e.shutdown.value),
+            percent_floor(e.fault_stays.value),
+            percent_floor(e.residual.value)
+        ),
+    );
+    for d in &i.degraded {
+        let text = match &d.analysis {
+            Ok(a) => format!(
+                "without {}: output {}, checks {}; false alarm {}, SPFM {} %, residual rate \
+                 {} FIT",
+                d.dropped,
+                d.output,
+                if d.checks.is_empty() {
+                    "none".to_string()
+                } else {
+                    d.checks.join(", ")
+                },
+                probability(a.baseline.alarm().value),
+                percent_with_bound(a.metrics.spfm),
+                fit(a.metrics.residual_fit.value)
+            ),
+            Err(why) => format!("without {}: no degraded architecture ({why})", d.dropped),
+        };
+        indented(out, &text);
+    }
+    let _ = writeln!(
+        out,
+        "  (\"wrong ch.\": a healthy channel blamed, the fault stays in the vote; \"after drop\": a\n  \
+         channel dropped, the fault still there, and the rest then dangerous and quiet, the\n  \
+         next sample taken as independent; a sigma is where the wrong blame is largest)"
+    );
+}
+
+/// `text` wrapped to the table's width, every line indented by two spaces.
+fn indented(out: &mut String, text: &str) {
+    for line in wrap(text, 96) {
+        let _ = writeln!(out, "  {line}");
+    }
 }
 
 fn targets(list: &[(crate::analysis::metrics::Asil, f64)]) -> String {
