@@ -8,10 +8,11 @@ use std::process::Command;
 use concord::report::html::SECTIONS;
 use serde_json::Value;
 
-const EXAMPLES: [&str; 3] = [
+const EXAMPLES: [&str; 4] = [
     "plovrant_swa2_mean",
     "plovrant_swa2_shared_ref",
     "plovrant_swa2_confirmed",
+    "plovrant_swa3_median",
 ];
 const SAMPLES: &str = "20000";
 const SEED: &str = "7";
@@ -95,6 +96,42 @@ fn lookup<'a>(json: &'a Value, key: &str) -> &'a Value {
             &s[*field]
         }
         ["timing", "metrics", field] => &json["timing"]["metrics"][*field],
+        ["isolation", "sites", site, field] => {
+            let sites = json["isolation"]["sites"]
+                .as_array()
+                .expect("isolation sites");
+            let s = sites
+                .iter()
+                .find(|s| s["name"] == *site)
+                .unwrap_or_else(|| panic!("no isolation site {site}"));
+            &s[*field]
+        }
+        ["isolation", "false_alarms", "none_blamed"] => {
+            &json["isolation"]["false_alarms"]["none_blamed"]
+        }
+        ["isolation", "false_alarms", channel] => {
+            let blamed = json["isolation"]["false_alarms"]["blamed"]
+                .as_array()
+                .expect("blamed");
+            let b = blamed
+                .iter()
+                .find(|b| b["channel"] == *channel)
+                .unwrap_or_else(|| panic!("no channel {channel}"));
+            &b["p"]
+        }
+        ["isolation", "end_states", field] => &json["isolation"]["end_states"][*field],
+        ["isolation", "degraded", dropped, rest @ ..] => {
+            let stages = json["isolation"]["degraded"].as_array().expect("degraded");
+            let d = stages
+                .iter()
+                .find(|d| d["dropped"] == *dropped)
+                .unwrap_or_else(|| panic!("no stage without {dropped}"));
+            match rest {
+                ["metrics", field] => &d["metrics"][*field],
+                [field] => &d[*field],
+                _ => panic!("unexpected key {key}"),
+            }
+        }
         ["verification", i, field] => {
             let i: usize = i.parse().expect("index");
             &json["verification"][i][*field]
@@ -181,7 +218,8 @@ fn report_is_well_formed_complete_and_agrees_with_the_json() {
                 || key.ends_with("lfm")
                 || key.ends_with("sff")
                 || key.ends_with("dc_avg")
-                || key.ends_with("confirmed_by_deadline");
+                || key.ends_with("confirmed_by_deadline")
+                || key.starts_with("isolation/end_states/");
             if percent {
                 // Truncated to two decimals, never rounded up.
                 let p = 100.0 * exact;

@@ -367,7 +367,14 @@ fn isolation_section(out: &mut String, i: &IsolationAnalysis, unit: &str) {
     let _ = writeln!(
         out,
         "{:<16} {:>10} {:>10} {:>11} {:>12} {:>7} {:>11} {:>11}",
-        "site", "isolated", "wrong ch.", "none blamed", "not detected", "bound", "sigma", "after drop"
+        "site",
+        "isolated",
+        "wrong ch.",
+        "none blamed",
+        "not detected",
+        "bound",
+        "sigma",
+        "after drop"
     );
     for s in &i.sites {
         let not_detected = s.quiet_safe.add(s.quiet_violated);
