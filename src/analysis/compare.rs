@@ -10,6 +10,7 @@ use crate::model::Architecture;
 use crate::prob::Estimate;
 
 use super::error::AnalysisError;
+use super::isolation::{EndStates, end_states_of};
 use super::metrics::Metrics;
 use super::options::AnalysisOptions;
 use super::run::analyze;
@@ -43,6 +44,12 @@ pub struct ArchitectureSummary {
     /// The figures over time, when the file has a timing section.
     #[serde(skip_serializing_if = "Option::is_none")]
     pub timed: Option<TimedSummary>,
+    /// The isolation rule of the file (`in_every_fired_check`, `farthest_from_median`), or
+    /// none: every detection then shuts down.
+    pub isolation_rule: Option<&'static str>,
+    /// What a single fault ends in (FIT-weighted): the function goes on, shuts down, goes on
+    /// with the fault still in the vote, or gives a dangerous undetected output.
+    pub end_states: EndStates,
 }
 
 /// The figures over time of one architecture in a comparison.
@@ -105,6 +112,11 @@ pub fn summarise(
         false_alarm: analysis.baseline.alarm(),
         cells: analysis.cells,
         seconds,
+        isolation_rule: arch.model.isolation.as_ref().map(|i| match i.rule {
+            crate::model::IsolationRule::InEveryFiredCheck => "in_every_fired_check",
+            crate::model::IsolationRule::FarthestFromMedian { .. } => "farthest_from_median",
+        }),
+        end_states: end_states_of(&analysis),
         timed: analysis.timed.as_ref().map(|t| TimedSummary {
             deadline: t.timing.deadline,
             samples: t.timing.samples,

@@ -443,7 +443,7 @@ pub struct SiteIsolation {
 }
 
 /// The end states of single faults, each a FIT-weighted share over the sites.
-#[derive(Debug, Clone, Copy, PartialEq)]
+#[derive(Debug, Clone, Copy, PartialEq, serde::Serialize)]
 pub struct EndStates {
     /// The function goes on with a correct output: the fault isolated and removed, or not
     /// detected and harmless.
@@ -573,6 +573,31 @@ pub fn analyze_isolation(
 
 fn name_of(model: &CompiledModel, channel: usize) -> String {
     model.channels.get(channel).cloned().unwrap_or_default()
+}
+
+/// The end states of an analysis: from its isolation figures when the file has an isolation
+/// section; otherwise every detection is a shutdown (nothing is dropped), so they follow from
+/// the four outcomes: continues `p_sq`, shutdown `p_vd + p_sd`, residual `p_vu`.
+pub fn end_states_of(analysis: &Analysis) -> EndStates {
+    if let Some(i) = &analysis.isolation {
+        return i.end_states;
+    }
+    let total: f64 = analysis.sites.iter().map(|s| s.fit).sum();
+    let mut acc = [Estimate::zero(); 3];
+    if total > 0.0 {
+        for s in &analysis.sites {
+            let w = s.fit / total;
+            acc[0] = acc[0].add(s.outcome.p_sq.scale(w));
+            acc[1] = acc[1].add(s.outcome.alarm().scale(w));
+            acc[2] = acc[2].add(s.outcome.p_vu.scale(w));
+        }
+    }
+    EndStates {
+        continues: acc[0].clamp_probability(),
+        shutdown: acc[1].clamp_probability(),
+        fault_stays: Estimate::zero(),
+        residual: acc[2].clamp_probability(),
+    }
 }
 
 /// The FIT-weighted end states over the sites.

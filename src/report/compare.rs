@@ -179,6 +179,39 @@ pub fn table(rows: &[ArchitectureSummary], all_dangerous: bool) -> String {
         );
         out.push_str(&columns(&head, &body));
     }
+    let head: Vec<String> = [
+        "#",
+        "after a detection",
+        "continues %",
+        "shutdown %",
+        "fault stays %",
+        "residual %",
+    ]
+    .map(String::from)
+    .to_vec();
+    let body: Vec<Vec<String>> = rows
+        .iter()
+        .enumerate()
+        .map(|(i, r)| {
+            let e = &r.end_states;
+            vec![
+                format!("#{}", i + 1),
+                match r.isolation_rule {
+                    Some(rule) => format!("drop by {rule}"),
+                    None => "shut down".to_string(),
+                },
+                percent_floor(e.continues.value),
+                percent_floor(e.shutdown.value),
+                percent_floor(e.fault_stays.value),
+                percent_floor(e.residual.value),
+            ]
+        })
+        .collect();
+    out.push_str(
+        "\nAfter a single fault (FIT-weighted shares: the function goes on with a correct output, \
+         shuts down, goes on with the fault still in the vote, or is dangerous and undetected)\n\n",
+    );
+    out.push_str(&columns(&head, &body));
     out.push_str(
         "\nchannels: the channels the output uses (the measuring hardware; a channel only a \
          check reads, such as a model estimate, is not counted); lowest: the lowest coverage \
@@ -273,6 +306,15 @@ pub fn csv(rows: &[ArchitectureSummary], all_dangerous: bool) -> String {
             head.push(k.into());
         }
     }
+    for k in [
+        "isolation_rule",
+        "continues",
+        "shutdown",
+        "fault_stays",
+        "residual_share",
+    ] {
+        head.push(k.into());
+    }
     let mut out = csv_comment_block();
     out.push_str(&head.join(","));
     out.push('\n');
@@ -313,6 +355,11 @@ pub fn csv(rows: &[ArchitectureSummary], all_dangerous: bool) -> String {
                 }
                 None => line.extend(std::iter::repeat_n(String::new(), 8)),
             }
+        }
+        line.push(r.isolation_rule.unwrap_or("").to_string());
+        let e = &r.end_states;
+        for v in [e.continues, e.shutdown, e.fault_stays, e.residual] {
+            line.push(format!("{:e}", v.value));
         }
         out.push_str(&line.join(","));
         out.push('\n');
