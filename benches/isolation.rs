@@ -21,7 +21,10 @@ fn isolation(c: &mut Criterion) {
     );
     let mut group = c.benchmark_group("isolation");
     group.sample_size(20);
-    for (label, text) in [("in_every_fired_check", SWA3), ("farthest_from_median", &farthest)] {
+    for (label, text) in [
+        ("in_every_fired_check", SWA3),
+        ("farthest_from_median", &farthest),
+    ] {
         let arch = load_str(text, "bench").expect("bench model");
         let model = &arch.model;
         let engine = Engine::new(model, &options);

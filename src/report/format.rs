@@ -431,6 +431,24 @@ pub fn seconds(t: f64) -> String {
     }
 }
 
+/// An isolation rule in words, for a file whose unit is `unit`.
+pub fn describe_isolation_rule(rule: &crate::model::IsolationRule, unit: &str) -> String {
+    use crate::model::IsolationRule;
+    match *rule {
+        IsolationRule::InEveryFiredCheck => "the channel that takes part in every check that \
+             fired is blamed and dropped; none is blamed when no single channel does"
+            .to_string(),
+        IsolationRule::FarthestFromMedian { margin } if margin > 0.0 => format!(
+            "the reading farthest from the median is blamed and dropped when it leads the next \
+             farthest by more than {} {unit}; otherwise none is blamed",
+            number(margin)
+        ),
+        IsolationRule::FarthestFromMedian { .. } => {
+            "the reading farthest from the median is blamed and dropped".to_string()
+        }
+    }
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -508,23 +526,5 @@ mod tests {
             xml_escape("a<b & \"c\" 'd'>\u{1}"),
             "a&lt;b &amp; &quot;c&quot; &#39;d&#39;&gt;"
         );
-    }
-}
-
-/// An isolation rule in words, for a file whose unit is `unit`.
-pub fn describe_isolation_rule(rule: &crate::model::IsolationRule, unit: &str) -> String {
-    use crate::model::IsolationRule;
-    match *rule {
-        IsolationRule::InEveryFiredCheck => "the channel that takes part in every check that \
-             fired is blamed and dropped; none is blamed when no single channel does"
-            .to_string(),
-        IsolationRule::FarthestFromMedian { margin } if margin > 0.0 => format!(
-            "the reading farthest from the median is blamed and dropped when it leads the next \
-             farthest by more than {} {unit}; otherwise none is blamed",
-            number(margin)
-        ),
-        IsolationRule::FarthestFromMedian { .. } => {
-            "the reading farthest from the median is blamed and dropped".to_string()
-        }
     }
 }

@@ -10,6 +10,8 @@
 //! - [`whole`]: whole analyses against the stored SciPy/mpmath table of two independent
 //!   integrations, a factorised closed form derived by hand, and agreement with the
 //!   independent Monte Carlo engine.
+//! - [`isolation`]: the blame of a channel stuck far outside by hand, and a pair that never
+//!   names a channel.
 //! - [`timed`]: the confirmation chains against Feller's success runs and mean waiting time,
 //!   and a whole timed analysis against them.
 //!
@@ -19,6 +21,7 @@
 //! deterministic: the same build gives the same report, whatever the thread count.
 
 pub mod engine;
+pub mod isolation;
 pub mod timed;
 pub mod whole;
 
@@ -211,7 +214,7 @@ pub type Group = fn(&ReferenceData) -> Vec<Case>;
 pub fn run() -> Result<SelfTest, AnalysisError> {
     let data = reference_data()?;
     // Groups run in parallel; each is deterministic and the order of the result is fixed.
-    let jobs: [Group; 10] = [
+    let jobs: [Group; 11] = [
         engine::normal_cases,
         engine::bivariate_cases,
         engine::sheppard_cases,
@@ -222,6 +225,7 @@ pub fn run() -> Result<SelfTest, AnalysisError> {
         whole::reference_table_cases,
         whole::monte_carlo_cases,
         timed::timing_cases,
+        isolation::isolation_cases,
     ];
     let cases: Vec<Vec<Case>> = jobs.par_iter().map(|job| job(&data)).collect();
     Ok(SelfTest {

@@ -1,0 +1,114 @@
+//! Cases of isolation after detection: a channel stuck far outside the others, whose blame
+//! follows by hand from one normal difference, and a pair of channels, which never names a
+//! channel.
+
+use crate::analysis::{AnalysisOptions, analyze};
+use crate::model::load_str;
+
+use super::{Case, Measure, ReferenceData};
+
+const ISOLATION: &str = "isolation after detection";
+
+/// Three equal independent channels N(0, 0.5^2), median, three pairwise comparisons at 2 with
+/// detection on two, channel a replaced by 100, and the given rule.
+fn stuck_far(rule: &str) -> String {
+    let mut text = String::from("name = \"three channels, one stuck far\"\nunit = \"mm\"\n");
+    for c in ["a", "b", "c"] {
+        text.push_str(&format!("[channels.{c}]\nmean = 0.0\nsigma = 0.5\n"));
+    }
+    text.push_str("[output]\nkind = \"median\"\nof = [\"a\", \"b\", \"c\"]\n");
+    for (name, x, y) in [("ab", "a", "b"), ("ac", "a", "c"), ("bc", "b", "c")] {
+        text.push_str(&format!(
+            "[checks.{name}]\nkind = \"difference\"\nof = [\"{x}\", \"{y}\"]\nlimit = 2.0\n"
+        ));
+    }
+    text.push_str(
+        "[detection]\nfires = { at_least = 2 }\n[safety]\nlimit = 1.5\n[faults.stuck]\nfit = 10.0\n\
+         hits = { a = 1.0 }\nmode = \"replace\"\namplitude = { points = [[100.0, 1.0]] }\n",
+    );
+    text.push_str(&format!("[isolation]\n{rule}\n"));
+    text
+}
+
+/// A pair averaged and compared, a drift of known spread on one channel, and the given rule.
+fn pair(rule: &str) -> String {
+    format!(
+        "name = \"a pair\"\nunit = \"mm\"\n[channels.a]\nmean = 0.0\nsigma = 0.5\n\
+         [channels.b]\nmean = 0.0\nsigma = 0.5\n[output]\nkind = \"mean\"\nof = [\"a\", \"b\"]\n\
+         [checks.ab]\nkind = \"difference\"\nof = [\"a\", \"b\"]\nlimit = 2.0\n[safety]\n\
+         limit = 1.5\n[faults.drift]\nfit = 10.0\nhits = {{ a = 1.0 }}\nmode = \"add\"\n\
+         amplitude = {{ gaussian = {{ mean = 0.0, sigma = 3.0 }} }}\n[isolation]\n{rule}\n"
+    )
+}
+
+/// A value with its bound.
+type Bounded = (f64, f64);
+
+/// `(isolated, none blamed)` of the first site, each with its bound.
+fn figures(text: &str) -> Result<(Bounded, Bounded), String> {
+    let arch = load_str(text, "isolation.toml").map_err(|e| e.to_string())?;
+    let a = analyze(&arch.model, &AnalysisOptions::default(), false).map_err(|e| e.to_string())?;
+    let s = a
+        .isolation
+        .and_then(|i| i.sites.into_iter().next())
+        .ok_or_else(|| "no isolation figures".to_string())?;
+    Ok((
+        (s.isolated.value, s.isolated.error),
+        (s.blame.declined.value, s.blame.declined.error),
+    ))
+}
+
+/// Rounding allowance of a sum of polytope probabilities.
+const SUM_ABS: f64 = 1e-12;
+
+/// The cases of this group.
+pub fn isolation_cases(_data: &ReferenceData) -> Vec<Case> {
+    let mut cases = Vec::new();
+    let every = "rule = \"in_every_fired_check\"";
+    let farthest = "rule = \"farthest_from_median\"";
+    let derived = "derived: a at 100 trips ab and ac; a is named exactly when |b - c| <= 2, \
+                   b - c ~ N(0, 2 * 0.5^2), so P = erf(2 / (2 * 0.5)) (libm erf)";
+    let found = figures(&stuck_far(every));
+    cases.push(Case::new(
+        ISOLATION,
+        "stuck far, in every fired check: isolated",
+        derived,
+        found.clone().map(|f| f.0),
+        libm::erf(2.0),
+        SUM_ABS,
+        Measure::Absolute,
+    ));
+    cases.push(Case::new(
+        ISOLATION,
+        "stuck far, in every fired check: none blamed",
+        derived,
+        found.map(|f| f.1),
+        libm::erfc(2.0),
+        SUM_ABS,
+        Measure::Absolute,
+    ));
+    cases.push(Case::new(
+        ISOLATION,
+        "stuck far, farthest from the median: isolated",
+        "common practice: a reading 200 sigmas away is always the farthest",
+        figures(&stuck_far(farthest)).map(|f| f.0),
+        1.0,
+        SUM_ABS,
+        Measure::Absolute,
+    ));
+    for (label, rule) in [
+        ("in every fired check", every),
+        ("farthest from the median", farthest),
+    ] {
+        cases.push(Case::new(
+            ISOLATION,
+            format!("a pair never isolates ({label})"),
+            "common practice: one comparison of two channels cannot tell which is wrong",
+            figures(&pair(rule)).map(|f| f.0),
+            0.0,
+            0.0,
+            Measure::Absolute,
+        ));
+    }
+    cases
+}
