@@ -65,7 +65,18 @@ fn agrees_with_sampling(name: &str) {
     } else {
         0
     };
-    assert_eq!(rows.len(), 4 * (exact.sites.len() + 1 + timed), "{name}");
+    // Three more per site when the file has an isolation section (rows named
+    // "<site> (isolation)": isolated, wrong channel, none blamed).
+    let isolation = if exact.isolation.is_some() {
+        3 * exact.sites.len()
+    } else {
+        0
+    };
+    assert_eq!(
+        rows.len(),
+        4 * (exact.sites.len() + 1 + timed) + isolation,
+        "{name}"
+    );
     for r in &rows {
         let half = (r.interval.1 - r.interval.0) / 2.0;
         assert!(

@@ -221,6 +221,42 @@ pub fn describe(arch: &Architecture) -> String {
         );
     }
 
+    if let Some(iso) = &m.isolation {
+        let _ = writeln!(o);
+        let head = format!(
+            "Isolation: {}",
+            super::format::describe_isolation_rule(&iso.rule, &m.unit)
+        );
+        for line in super::format::wrap(&head, 98) {
+            let _ = writeln!(o, "{line}");
+        }
+        for d in &iso.degraded {
+            let name = m.channels.get(d.dropped).map_or("?", String::as_str);
+            let text = match &d.model {
+                Ok(g) => {
+                    let checks: Vec<String> = g
+                        .checks
+                        .iter()
+                        .map(|c| format!("{}: {}", c.name, c.description))
+                        .collect();
+                    format!(
+                        "without {name}: output {}; checks {}",
+                        g.output_description,
+                        if checks.is_empty() {
+                            "none".to_string()
+                        } else {
+                            checks.join(", ")
+                        }
+                    )
+                }
+                Err(why) => format!("without {name}: none ({why})"),
+            };
+            for line in super::format::wrap(&text, 96) {
+                let _ = writeln!(o, "  {line}");
+            }
+        }
+    }
+
     let total_fit: f64 = m.faults.iter().map(|f| f.fit).sum();
     let _ = writeln!(
         o,
