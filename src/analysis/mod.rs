@@ -14,6 +14,7 @@
 //! - [`tune`]: the widest comparator band that meets a coverage target.
 //! - [`compare`]: several architectures reduced to one line each.
 //! - [`outcome`]: the four probabilities and the coverage figures derived from them.
+//! - [`sensitivity`]: the derivative of every figure by every numeric input.
 //! - [`selftest`]: the built-in validation suite against outside references.
 //! - [`options`]: the numerical settings of an analysis (tolerances and budgets).
 //! - [`error`]: the errors of the analysis layer.
@@ -33,6 +34,7 @@ pub mod outcome;
 pub mod run;
 pub mod scenario;
 pub mod selftest;
+pub mod sensitivity;
 pub mod site;
 pub mod spread;
 pub mod sweep;

@@ -30,6 +30,9 @@ pub enum Command {
     Tune(TuneArgs),
     /// Put several architectures side by side.
     Compare(CompareArgs),
+    /// Rank the numeric inputs of a file by how much each moves every figure (derivatives
+    /// and elasticities).
+    Sensitivity(SensitivityArgs),
     /// Write the report for a safety case: one self-contained HTML file.
     Report(ReportArgs),
     /// Run the bundled invented scenario end to end into a folder and list what it wrote.
@@ -307,6 +310,21 @@ pub struct CompareArgs {
     /// Output format.
     #[arg(long, value_enum, default_value = "table")]
     pub format: Format,
+    #[command(flatten)]
+    pub accuracy: AccuracyArgs,
+}
+
+/// Arguments of `concord sensitivity`.
+#[derive(Debug, Args)]
+pub struct SensitivityArgs {
+    /// The architecture file (TOML).
+    pub file: PathBuf,
+    /// Output format.
+    #[arg(long, value_enum, default_value = "table")]
+    pub format: Format,
+    /// Also write one SVG bar chart per figure, ranking the inputs, into this folder.
+    #[arg(long, value_name = "DIR")]
+    pub plot: Option<PathBuf>,
     #[command(flatten)]
     pub accuracy: AccuracyArgs,
 }

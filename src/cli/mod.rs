@@ -15,6 +15,7 @@ pub mod demo;
 pub mod error;
 pub mod report;
 pub mod selftest;
+pub mod sensitivity;
 pub mod sweep;
 pub mod tune;
 pub mod values;
@@ -40,6 +41,7 @@ pub fn run() -> ExitCode {
         Command::Sweep(_) => "sweep",
         Command::Tune(_) => "tune",
         Command::Compare(_) => "compare",
+        Command::Sensitivity(_) => "sensitivity",
     };
     let result = match &cli.command {
         Command::Check(a) => check::run(a),
@@ -50,6 +52,7 @@ pub fn run() -> ExitCode {
         Command::Sweep(a) => sweep::run(a),
         Command::Tune(a) => tune::run(a),
         Command::Compare(a) => compare::run(a),
+        Command::Sensitivity(a) => sensitivity::run(a),
     };
     match result {
         Ok(text) => {

@@ -28,6 +28,67 @@ impl Architecture {
     }
 }
 
+impl Architecture {
+    /// Every number of the file (with its overrides) that shapes the one-sample figures and
+    /// that an override can set, with its value, in file order: sigmas, means, gains,
+    /// weights, correlations, bands, failure rates, known amplitudes and latent coverages.
+    /// Left out: the timing, detection and isolation sections (counts and rules), the full
+    /// scale, the weights of point amplitudes (they must sum to one) and the search range of
+    /// an unknown sigma (the worst case does not move with it unless it sits at an end).
+    pub fn numeric_inputs(&self) -> Vec<(String, f64)> {
+        let mut sink = super::error::Sink::new(&self.path, &self.source);
+        let Some(mut root) = super::tree::parse(&self.source, &mut sink) else {
+            return Vec::new();
+        };
+        apply(&mut root, &self.overrides, &mut sink);
+        let mut out = Vec::new();
+        walk(&root, "", &mut out);
+        out
+    }
+}
+
+/// Top-level sections whose numbers are counts or rules, not inputs of the figures.
+const NOT_INPUTS: &[&str] = &["timing", "detection", "isolation", "full_scale"];
+
+fn walk(node: &Node, path: &str, out: &mut Vec<(String, f64)>) {
+    let join = |k: &str| {
+        if path.is_empty() {
+            k.to_string()
+        } else {
+            format!("{path}.{k}")
+        }
+    };
+    match &node.value {
+        Value::Table(entries) => {
+            for e in entries {
+                if path.is_empty() && NOT_INPUTS.contains(&e.key.as_str()) {
+                    continue;
+                }
+                if e.key == "unknown" {
+                    continue;
+                }
+                walk(&e.value, &join(&e.key), out);
+            }
+        }
+        Value::Array(items) => {
+            let points = path.ends_with("amplitude.points");
+            for (i, item) in items.iter().enumerate() {
+                if let (true, Value::Array(pair)) = (points, &item.value) {
+                    // (value, weight): only the value is free.
+                    if let Some(v) = pair.first() {
+                        walk(v, &format!("{path}.{i}.0"), out);
+                    }
+                    continue;
+                }
+                walk(item, &join(&i.to_string()), out);
+            }
+        }
+        Value::Float(v) if v.is_finite() => out.push((path.to_string(), *v)),
+        Value::Int(Some(v)) => out.push((path.to_string(), *v as f64)),
+        _ => {}
+    }
+}
+
 /// Keys that may be added by an override when the file leaves them out.
 const OPTIONAL_NUMERIC: &[&str] = &[
     "mean",
@@ -117,6 +178,15 @@ fn set(root: &mut Node, path: &str, value: f64) -> Result<(), String> {
             walked.push('.');
         }
         walked.push_str(step);
+    }
+    // An unknown sigma (`sigma = { unknown = [lo, hi] }`) may be pinned to a number, as
+    // `sigma = "unknown"` may.
+    let unknown_range = steps.last().is_some_and(|s| s == "sigma")
+        && matches!(&node.value, Value::Table(t) if t.len() == 1 && t[0].key == "unknown");
+    if unknown_range {
+        node.value = Value::Float(value);
+        node.overridden = true;
+        return Ok(());
     }
     match node.value {
         Value::Table(_) | Value::Array(_) => Err(format!(

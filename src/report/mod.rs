@@ -32,6 +32,7 @@ pub mod isolation_json;
 pub mod json;
 pub mod plot;
 pub mod selftest;
+pub mod sensitivity;
 pub mod sweep;
 pub mod table;
 pub mod tune;
