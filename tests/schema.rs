@@ -150,7 +150,10 @@ fn malformed_files_fail_the_schema_too() {
             .unwrap_or_default()
             .to_string();
         // Source: the reader rejects every file of the corpus (tests/model_malformed.rs).
-        assert!(model::load(&file).is_err(), "{name} is rejected by the reader");
+        assert!(
+            model::load(&file).is_err(),
+            "{name} is rejected by the reader"
+        );
         // A file that is not UTF-8 is no TOML: no JSON to check, rejected before the schema.
         let text = String::from_utf8(std::fs::read(&file).expect("readable")).ok();
         let rejected = match text.and_then(|t| schema_errors(&v, &t)) {
@@ -159,10 +162,14 @@ fn malformed_files_fail_the_schema_too() {
         };
         let listed = BEYOND_THE_SCHEMA.contains(&name.as_str());
         if !rejected && !listed {
-            failures.push(format!("{name}: the reader rejects it, the schema accepts it"));
+            failures.push(format!(
+                "{name}: the reader rejects it, the schema accepts it"
+            ));
         }
         if rejected && listed {
-            failures.push(format!("{name}: listed as beyond the schema, but it fails it"));
+            failures.push(format!(
+                "{name}: listed as beyond the schema, but it fails it"
+            ));
         }
         if !listed {
             structural += 1;
@@ -170,4 +177,226 @@ fn malformed_files_fail_the_schema_too() {
     }
     assert!(structural >= 20, "only {structural} structural cases");
     assert!(failures.is_empty(), "{}", failures.join("\n"));
+}
+
+/// A file that uses every section and every form the format allows (docs/architecture-format.md),
+/// with `{timing}` and `{amplitude}` filled in by the cases below.
+fn every_form(timing: &str, amplitude: &str) -> String {
+    format!(
+        r#"
+name = "every form"
+unit = "deg"
+full_scale = [-100, 100.0]
+
+[sources.vref]
+mean = 0
+sigma = 0.1
+
+[channels.a]
+sigma = 0.5
+from = {{ vref = 1.0 }}
+
+[channels.b]
+mean = 0.1
+sigma = 0.5
+from = {{ vref = 0.9 }}
+
+[channels.c]
+sigma = 0.6
+
+[[correlations]]
+between = ["a", "b"]
+rho = 0.2
+
+[signals.mid]
+kind = "median"
+of = ["a", "b", "c"]
+
+[signals.lin]
+kind = "linear"
+of = {{ a = 0.5, b = 0.5 }}
+constant = 0.0
+
+[output]
+kind = "select"
+of = ["mid"]
+
+[checks.ab]
+kind = "difference"
+of = ["a", "b"]
+limit = 2
+
+[checks.spread]
+kind = "range"
+of = ["a", "b", "c"]
+upper = 3.0
+
+[checks.est]
+kind = "from_output"
+of = "c"
+lower = -2.5
+upper = 2.5
+
+[checks.lin]
+kind = "linear"
+of = {{ lin = 1.0, c = -1.0 }}
+constant = 0.0
+limit = 2.0
+
+[detection]
+fires = {{ at_least = 2 }}
+
+[safety]
+lower = -2.0
+upper = 2.0
+
+[faults.f]
+fit = 10
+hits = {{ a = 1.0 }}
+mode = "replace"
+amplitude = {amplitude}
+latent_coverage = 0.5
+
+{timing}
+"#
+    )
+}
+
+#[test]
+fn every_accepted_form_validates() {
+    let v = validator();
+    let amplitudes = [
+        r#"{ gaussian = { sigma = 1.5 } }"#,
+        r#"{ gaussian = { mean = 0.5, sigma = "unknown" } }"#,
+        r#"{ gaussian = { sigma = { unknown = [0.01, 1000] } } }"#,
+        r#"{ uniform = "full_scale" }"#,
+        r#"{ uniform = [-10, 10.0] }"#,
+        r#"{ points = [[50, 0.5], [-50.0, 0.5]] }"#,
+    ];
+    let timings = [
+        "",
+        "[timing]\nsample_period = 0.002\ndeadline = 0.03\n",
+        "[timing]\nsample_period = 0.002\ndeadline = 0.03\nconfirm = { consecutive = 3 }\n",
+        "[timing]\nsample_period = 0.002\ndeadline = 0.03\nconfirm = { at_least = 3, of_last = 5 }\n\
+         danger_samples = 2\nfresh_sources = [\"vref\"]\nconstant_channels = [\"c\"]\n",
+        "[timing]\nsample_period = 0.002\ndeadline = 0.03\nconfirm = { up = 2, down = 1, trip = 6 }\n",
+    ];
+    for a in amplitudes {
+        for t in timings {
+            let text = every_form(t, a);
+            // Source: the reader accepts the file.
+            if let Err(e) = model::load_str(&text, "every_form.toml") {
+                panic!("the reader rejects {a} / {t}: {e}");
+            }
+            let errors = schema_errors(&v, &text).expect("TOML");
+            assert!(errors.is_empty(), "{a} / {t}: {}", errors.join("; "));
+        }
+    }
+}
+
+#[test]
+fn malformed_timing_and_amplitudes_fail_both() {
+    let v = validator();
+    let good_amplitude = r#"{ gaussian = { sigma = 1.5 } }"#;
+    let base = "[timing]\nsample_period = 0.002\ndeadline = 0.03\n";
+    // (what is wrong, the rule of docs/architecture-format.md, timing section, amplitude)
+    let cases: Vec<(&str, String, &str)> = vec![
+        (
+            "unknown key in timing",
+            format!("{base}debounce = 3\n"),
+            good_amplitude,
+        ),
+        (
+            "missing deadline",
+            "[timing]\nsample_period = 0.002\n".into(),
+            good_amplitude,
+        ),
+        (
+            "sample period zero",
+            "[timing]\nsample_period = 0\ndeadline = 0.03\n".into(),
+            good_amplitude,
+        ),
+        (
+            "sample period a string",
+            "[timing]\nsample_period = \"2 ms\"\ndeadline = 0.03\n".into(),
+            good_amplitude,
+        ),
+        (
+            "two confirm forms mixed",
+            format!("{base}confirm = {{ consecutive = 2, at_least = 3 }}\n"),
+            good_amplitude,
+        ),
+        (
+            "window without its count",
+            format!("{base}confirm = {{ of_last = 5 }}\n"),
+            good_amplitude,
+        ),
+        (
+            "window longer than 16",
+            format!("{base}confirm = {{ at_least = 3, of_last = 17 }}\n"),
+            good_amplitude,
+        ),
+        (
+            "run longer than 256",
+            format!("{base}confirm = {{ consecutive = 257 }}\n"),
+            good_amplitude,
+        ),
+        // `2.0` would pass: JSON Schema's "integer" matches any number with a zero fractional
+        // part (2020-12 Validation, section 6.1.1), the reader wants a TOML integer.
+        (
+            "run as a fraction",
+            format!("{base}confirm = {{ consecutive = 2.5 }}\n"),
+            good_amplitude,
+        ),
+        (
+            "danger samples zero",
+            format!("{base}danger_samples = 0\n"),
+            good_amplitude,
+        ),
+        (
+            "fresh sources not a list",
+            format!("{base}fresh_sources = \"vref\"\n"),
+            good_amplitude,
+        ),
+        (
+            "gaussian without sigma",
+            String::new(),
+            r#"{ gaussian = { mean = 1.0 } }"#,
+        ),
+        (
+            "unknown key in gaussian",
+            String::new(),
+            r#"{ gaussian = { sigma = 1.0, shape = 2 } }"#,
+        ),
+        (
+            "uniform of three numbers",
+            String::new(),
+            r#"{ uniform = [1, 2, 3] }"#,
+        ),
+        (
+            "zero weight",
+            String::new(),
+            r#"{ points = [[1, 0.0], [2, 1.0]] }"#,
+        ),
+        (
+            "unknown amplitude model",
+            String::new(),
+            r#"{ lognormal = { sigma = 1.0 } }"#,
+        ),
+        (
+            "zero lower end of an unknown range",
+            String::new(),
+            r#"{ gaussian = { sigma = { unknown = [0, 10] } } }"#,
+        ),
+    ];
+    for (what, timing, amplitude) in cases {
+        let text = every_form(&timing, amplitude);
+        // Source: the reader rejects it.
+        assert!(
+            model::load_str(&text, "case.toml").is_err(),
+            "{what}: the reader accepts it"
+        );
+        let errors = schema_errors(&v, &text).expect("TOML");
+        assert!(!errors.is_empty(), "{what}: the schema accepts it");
+    }
 }
