@@ -199,3 +199,12 @@ def test_results_are_plain_python_objects():
     got = concord.analyze(concord.load("architectures/plovrant_swa2_mean.toml"))
     text = json.dumps(got)  # only dicts, lists, str, float, int, bool and None survive this
     assert json.loads(text) == got
+
+
+def test_the_readme_example_runs(capsys):
+    # Source: README.md, "From Python": its one Python block, run as written.
+    text = (ROOT / "README.md").read_text()
+    block = text.split("```python\n", 1)[1].split("```", 1)[0]
+    assert len(block.strip().splitlines()) <= 12
+    exec(compile(block, "README.md", "exec"), {})
+    assert "checks.ab.limit" in capsys.readouterr().out
