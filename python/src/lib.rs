@@ -15,7 +15,9 @@ use concord::cli::CliError;
 use concord::cli::args::AccuracyArgs;
 use concord::cli::values;
 use concord::model::{self, ModelError};
-use concord::report::{ReportInput, TOOL_VERSION, compare as compare_report, json, tune as tune_report};
+use concord::report::{
+    ReportInput, TOOL_VERSION, compare as compare_report, json, tune as tune_report,
+};
 use pyo3::exceptions::PyException;
 use pyo3::prelude::*;
 use pyo3::types::{PyDict, PyList};
@@ -73,7 +75,12 @@ impl PyArchitecture {
     /// The fault sites, in file order.
     #[getter]
     fn sites(&self) -> Vec<String> {
-        self.inner.model.faults.iter().map(|f| f.name.clone()).collect()
+        self.inner
+            .model
+            .faults
+            .iter()
+            .map(|f| f.name.clone())
+            .collect()
     }
 
     /// The warnings of the reader, as the command line prints them.
@@ -146,7 +153,9 @@ fn coverage_figure(py: Python<'_>, figure: &str) -> PyResult<CoverageFigure> {
             py,
             CliError::Value {
                 flag: "figure".into(),
-                message: format!("\"{other}\" is no coverage figure; give \"dc\" or \"dc_all_dangerous\""),
+                message: format!(
+                    "\"{other}\" is no coverage figure; give \"dc\" or \"dc_all_dangerous\""
+                ),
             },
         )),
     }
@@ -331,12 +340,17 @@ fn sweep<'py>(
 ) -> PyResult<Bound<'py, PyDict>> {
     let options = options(py, tolerance)?;
     let arch = &architecture.inner;
-    let vary_axis = values::axis(vary, points, log.then_some("log"), "vary")
-        .map_err(|e| cli_error(py, e))?;
+    let vary_axis =
+        values::axis(vary, points, log.then_some("log"), "vary").map_err(|e| cli_error(py, e))?;
     let series_axis = match series {
         Some(spec) => Some(
-            values::axis(spec, series_points, series_log.then_some("series_log"), "series")
-                .map_err(|e| cli_error(py, e))?,
+            values::axis(
+                spec,
+                series_points,
+                series_log.then_some("series_log"),
+                "series",
+            )
+            .map_err(|e| cli_error(py, e))?,
         ),
         None => None,
     };
@@ -381,7 +395,8 @@ fn tune<'py>(
         Ok(x) => x.to_string(),
         Err(_) => target_dc.extract::<String>()?,
     };
-    let target = values::coverage_target(&target_text, "target_dc").map_err(|e| cli_error(py, e))?;
+    let target =
+        values::coverage_target(&target_text, "target_dc").map_err(|e| cli_error(py, e))?;
     let mut request = TuneRequest::new(check, coverage_figure(py, figure)?, target);
     request.sites = sites.unwrap_or_default();
     request.scale_range = values::range(scale, "scale").map_err(|e| cli_error(py, e))?;
@@ -390,7 +405,9 @@ fn tune<'py>(
         if with_confirmation {
             let samples = arch.model.timing.as_ref().map_or(0, |t| t.samples);
             let result = tune_with_confirmation(arch, &request, &default_rules(samples), &options)?;
-            return Ok(tune_report::confirmation_json(&result, &request, &arch.path)?);
+            return Ok(tune_report::confirmation_json(
+                &result, &request, &arch.path,
+            )?);
         }
         let result = run_tune(arch, &request, &options, &|| {})?;
         Ok(tune_report::json(&result, &arch.path, &arch.source)?)
