@@ -205,7 +205,7 @@ pub fn sensitivity(
         .fold(f64::INFINITY, f64::min);
     let scale = if scale.is_finite() { scale } else { 1.0 };
     let inputs = arch.numeric_inputs();
-    let per_input: Vec<Result<(Vec<Sensitivity>, Option<String>), AnalysisError>> = inputs
+    let per_input: Vec<Result<InputRows, AnalysisError>> = inputs
         .par_iter()
         .map(|(key, x)| {
             let natural = if dimensionless(key) { 1.0 } else { scale };
@@ -321,6 +321,9 @@ pub fn sensitivity(
         inputs: inputs.len(),
     })
 }
+
+/// The rows of one input, and a note when it needed one-sided differences or none.
+type InputRows = (Vec<Sensitivity>, Option<String>);
 
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 enum Scheme {
