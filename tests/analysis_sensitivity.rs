@@ -119,6 +119,9 @@ fn derivatives_of_two_channels_on_a_shared_source_match_the_hand_derivation() {
     }
 }
 
+/// The inputs edited by hand: (section, key, value in the file).
+type Edits<'a> = &'a [(&'a str, &'a str, f64)];
+
 /// The text with the value of `key` in the section `[section]` replaced (a hand edit).
 fn edit(text: &str, section: &str, key: &str, value: f64) -> String {
     let header = format!("[{section}]");
@@ -150,7 +153,7 @@ fn derivatives_match_differences_of_files_edited_by_hand() {
     // searched afresh in the edited files (the envelope property, see the last test). The
     // four-channel example takes 13 s an analysis and is left to `cargo bench`; sigma-held
     // rows are compared in the envelope test instead.
-    let examples: [(&str, &str, &[(&str, &str, f64)]); 5] = [
+    let examples: [(&str, &str, Edits<'_>); 5] = [
         (
             "plovrant_swa2_mean",
             include_str!("../architectures/plovrant_swa2_mean.toml"),
