@@ -205,20 +205,31 @@ pub fn sensitivity(
         .fold(f64::INFINITY, f64::min);
     let scale = if scale.is_finite() { scale } else { 1.0 };
     let inputs = arch.numeric_inputs();
+    // The analysis at the held sigmas: the template that a change of one fault site's
+    // inputs edits (its other sites and the baseline do not move).
+    let pinned_base =
+        pinned_analysis(arch, &pins, &[], options)?.ok_or_else(|| AnalysisError::Unsupported {
+            message: "the file with its unknown sigmas held at their worst values is not valid"
+                .into(),
+        })?;
     let per_input: Vec<Result<InputRows, AnalysisError>> = inputs
         .par_iter()
         .map(|(key, x)| {
             let natural = if dimensionless(key) { 1.0 } else { scale };
             let h = STEP_REL * x.abs().max(natural);
+            let reach = Reach::of(key, &base_model.faults);
             let at = |k: f64| -> Result<Option<Vec<Option<Estimate>>>, AnalysisError> {
-                Ok(
-                    pinned_analysis(arch, &pins, &[(key.clone(), x + k * h)], options)?
-                        .map(|a| matched(&a, &names)),
-                )
+                let set = [(key.clone(), x + k * h)];
+                let found = match reach {
+                    Reach::Everything => pinned_analysis(arch, &pins, &set, options)?,
+                    Reach::Site(i) => site_analysis(arch, &pins, &set, &pinned_base, i, options)?,
+                    Reach::Rate(i) => rate_analysis(arch, &set, &pinned_base, i),
+                };
+                Ok(found.map(|a| matched(&a, &names)))
             };
             let (p1, m1, p2, m2) = (at(1.0)?, at(-1.0)?, at(2.0)?, at(-2.0)?);
             let centre = || -> Result<Option<Vec<Option<Estimate>>>, AnalysisError> {
-                Ok(pinned_analysis(arch, &pins, &[], options)?.map(|a| matched(&a, &names)))
+                Ok(Some(matched(&pinned_base, &names)))
             };
             // Which formula: central when both sides are valid, else one-sided.
             let scheme = match (&p1, &m1, &p2, &m2) {
@@ -324,6 +335,86 @@ pub fn sensitivity(
 
 /// The rows of one input, and a note when it needed one-sided differences or none.
 type InputRows = (Vec<Sensitivity>, Option<String>);
+
+/// What a change of one input can move.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+enum Reach {
+    /// Any figure: the whole file is analysed again.
+    Everything,
+    /// Only the figures of fault site `i` (and the metrics): that site is analysed again.
+    Site(usize),
+    /// Only the rates of site `i` (its `fit` or `latent_coverage`): no probability moves,
+    /// the metrics are recomputed from the same outcomes.
+    Rate(usize),
+}
+
+impl Reach {
+    fn of(key: &str, faults: &[crate::model::CompiledFault]) -> Reach {
+        let Some(rest) = key.strip_prefix("faults.") else {
+            return Reach::Everything;
+        };
+        let Some(i) = faults.iter().position(|f| {
+            rest.strip_prefix(f.name.as_str())
+                .is_some_and(|r| r.starts_with('.'))
+        }) else {
+            return Reach::Everything;
+        };
+        if rest.ends_with(".fit") || rest.ends_with(".latent_coverage") {
+            Reach::Rate(i)
+        } else {
+            Reach::Site(i)
+        }
+    }
+}
+
+/// The pinned base analysis with fault site `i` analysed again under `overrides`.
+fn site_analysis(
+    arch: &Architecture,
+    pins: &[(String, f64)],
+    overrides: &[(String, f64)],
+    base: &Analysis,
+    i: usize,
+    options: &AnalysisOptions,
+) -> Result<Option<Analysis>, AnalysisError> {
+    let mut all = pins.to_vec();
+    all.extend_from_slice(overrides);
+    let Ok(edited) = arch.with_overrides(&all) else {
+        return Ok(None);
+    };
+    let mut model = edited.model;
+    model.timing = None;
+    model.isolation = None;
+    let Some(fault) = model.faults.get(i).cloned() else {
+        return Ok(None);
+    };
+    model.faults = vec![fault];
+    let one = analyze(&model, options, false)?;
+    let mut out = base.clone();
+    if let (Some(slot), Some(site)) = (out.sites.get_mut(i), one.sites.into_iter().next()) {
+        *slot = site;
+    }
+    out.metrics = super::metrics::metrics(&out.sites);
+    Ok(Some(out))
+}
+
+/// The pinned base analysis with the failure rate or latent coverage of site `i` as
+/// `overrides` set them (the file is read with them, so that a value out of range is
+/// refused as in any analysis).
+fn rate_analysis(
+    arch: &Architecture,
+    overrides: &[(String, f64)],
+    base: &Analysis,
+    i: usize,
+) -> Option<Analysis> {
+    let edited = arch.with_overrides(overrides).ok()?;
+    let fault = edited.model.faults.get(i)?;
+    let mut out = base.clone();
+    let site = out.sites.get_mut(i)?;
+    site.fit = fault.fit;
+    site.latent_coverage = fault.latent_coverage;
+    out.metrics = super::metrics::metrics(&out.sites);
+    Some(out)
+}
 
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 enum Scheme {
