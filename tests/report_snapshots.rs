@@ -1,5 +1,5 @@
 //! Golden-file (snapshot) tests of every output format of `analyze`, `compare`, `tune`,
-//! `sweep`, `check` and `report` on the bundled examples, and of `selftest`.
+//! `sweep`, `check`, `sensitivity` and `report` on the bundled examples, and of `selftest`.
 //!
 //! These are regression guards, not correctness checks: a golden file holds what concord
 //! wrote when it was last reviewed by eye, and the test fails on any byte that differs. The
@@ -276,4 +276,22 @@ fn report_html() {
 fn selftest_every_format() {
     assert_snapshot("selftest.txt", &concord(&["selftest"]));
     assert_snapshot("selftest.json", &concord(&["selftest", "--format", "json"]));
+}
+
+#[test]
+fn sensitivity_every_format() {
+    // The two-channel example (7 ms); the three-channel one takes seconds.
+    let file = example("plovrant_swa2_mean");
+    for (format, ext) in [("table", "txt"), ("json", "json"), ("csv", "csv")] {
+        let out = concord(&["sensitivity", &file, "--format", format]);
+        assert_snapshot(&format!("sensitivity_plovrant_swa2_mean.{ext}"), &out);
+    }
+    let dir = scratch("sensitivity-plots");
+    let _ = std::fs::remove_dir_all(&dir);
+    let dir_text = dir.to_string_lossy().to_string();
+    concord(&["sensitivity", &file, "--plot", &dir_text]);
+    assert_snapshot(
+        "sensitivity_plovrant_swa2_mean_spfm.svg",
+        &read(&dir.join("sensitivity-spfm.svg")),
+    );
 }
