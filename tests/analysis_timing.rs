@@ -378,7 +378,7 @@ amplitude = {{ gaussian = {{ mean = 2.0, sigma = 1.0 }} }}
     let chosen = result.chosen.expect("a rule meets 90 %");
     for r in &result.rules {
         let Some(scale) = r.scale else { continue };
-        assert!(r.coverage.value - r.coverage.error >= 0.9, "{}", r.label);
+        assert!(r.coverage.value - r.coverage.error >= 0.9, "{:?}", r.rule);
         assert!(r.false_alarms_per_hour.value >= result.rules[chosen].false_alarms_per_hour.value);
         if r.at_range_end {
             continue;
@@ -399,8 +399,8 @@ amplitude = {{ gaussian = {{ mean = 2.0, sigma = 1.0 }} }}
             .expect("dangerous");
         assert!(
             dc.value - dc.error < 0.9,
-            "{} at {}: {dc:?}",
-            r.label,
+            "{:?} at {}: {dc:?}",
+            r.rule,
             scale * 1.02
         );
     }

@@ -29,11 +29,9 @@ const SCALE_REL_TOL: f64 = 0.01;
 /// One candidate rule with its widest meeting band.
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct RuleChoice {
-    /// The confirmation rule.
+    /// The confirmation rule (the report words it: `report::format::rule_label`).
     #[serde(skip)]
     pub rule: Debounce,
-    /// The rule in the words of the JSON contract (`consecutive 3`, `3 of 5`, `counter ...`).
-    pub label: String,
     /// The widest scale factor on the file's bands that meets the target (`None`: none in
     /// the range does).
     pub scale: Option<f64>,
@@ -74,15 +72,6 @@ pub fn default_rules(samples: usize) -> Vec<Debounce> {
     });
     rules.retain(|r| r.fastest_trip() <= samples);
     rules
-}
-
-/// A short label of a rule for tables and JSON.
-pub fn rule_label(rule: &Debounce) -> String {
-    match *rule {
-        Debounce::Consecutive { count } => format!("consecutive {count}"),
-        Debounce::Window { count, window } => format!("{count} of last {window}"),
-        Debounce::Counter { up, down, trip } => format!("counter +{up}/-{down} trip {trip}"),
-    }
 }
 
 /// Tunes the bands and the rule together (see the module notes).
@@ -175,7 +164,6 @@ pub fn tune_with_confirmation(
                 return Ok((
                     RuleChoice {
                         rule,
-                        label: rule_label(&rule),
                         scale: None,
                         coverage: narrow.0,
                         false_alarms_per_hour: narrow.1,
@@ -189,7 +177,6 @@ pub fn tune_with_confirmation(
                 return Ok((
                     RuleChoice {
                         rule,
-                        label: rule_label(&rule),
                         scale: Some(hi),
                         coverage: wide.0,
                         false_alarms_per_hour: wide.1,
@@ -214,7 +201,6 @@ pub fn tune_with_confirmation(
             Ok((
                 RuleChoice {
                     rule,
-                    label: rule_label(&rule),
                     scale: Some(good),
                     coverage: good_at.0,
                     false_alarms_per_hour: good_at.1,

@@ -8,6 +8,7 @@ use super::raw::{RawBand, RawModel};
 
 /// The band of one check in the form the file writes it, which decides the keys that move it.
 #[derive(Debug, Clone, PartialEq, Serialize)]
+#[serde(rename_all = "snake_case")]
 pub enum BandForm {
     /// `limit = L`: the band `[-L, L]`.
     Limit(f64),

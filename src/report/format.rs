@@ -419,6 +419,17 @@ pub fn describe_confirm(rule: &crate::prob::debounce::Debounce) -> String {
     }
 }
 
+/// A short label of a confirmation rule for tables and the JSON of `tune
+/// --with-confirmation`: `consecutive 3`, `3 of last 5`, `counter +2/-1 trip 4`.
+pub fn rule_label(rule: &crate::prob::debounce::Debounce) -> String {
+    use crate::prob::debounce::Debounce;
+    match *rule {
+        Debounce::Consecutive { count } => format!("consecutive {count}"),
+        Debounce::Window { count, window } => format!("{count} of last {window}"),
+        Debounce::Counter { up, down, trip } => format!("counter +{up}/-{down} trip {trip}"),
+    }
+}
+
 /// A time in seconds with a unit that suits it: `2 ms`, `1.5 s`, `250 us`.
 pub fn seconds(t: f64) -> String {
     let style = short_style(4);

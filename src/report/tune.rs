@@ -9,7 +9,9 @@ use crate::analysis::tune::{TradeOffPoint, TuneRequest, TuneResult};
 use super::cautions::{CAUTIONS, csv_comment_block, plot_caption};
 use super::csv::field as csv_field;
 use super::error::ReportError;
-use super::format::{format_number, percent_with_bound, plain_significant_style, probability};
+use super::format::{
+    format_number, percent_with_bound, plain_significant_style, probability, rule_label,
+};
 use super::plot::{Chart, Marker, PlotError, ReferenceLine, Scale, Series, render_svg};
 use super::sweep::{PLOT_SIZE, dc_levels};
 use super::{TOOL_VERSION, input_sha256};
@@ -255,7 +257,7 @@ pub fn confirmation_summary(result: &TimedTuneResult, request: &TuneRequest, fil
         out.push_str(&format!(
             "{:<2} {:<26} {:>12} {:>22} {:>22}\n",
             mark,
-            r.label,
+            rule_label(&r.rule),
             scale,
             percent_with_bound(r.coverage),
             if r.scale.is_some() {
@@ -269,7 +271,7 @@ pub fn confirmation_summary(result: &TimedTuneResult, request: &TuneRequest, fil
     match result.chosen.and_then(|i| result.rules.get(i)) {
         Some(r) => out.push_str(&format!(
             "Chosen: {} with the bands at {} times the file's: {} false alarms per hour.\n",
-            r.label,
+            rule_label(&r.rule),
             r.scale.map_or("-".into(), |s| format_number(
                 s,
                 &plain_significant_style(4)
@@ -292,6 +294,16 @@ pub fn confirmation_summary(result: &TimedTuneResult, request: &TuneRequest, fil
     out
 }
 
+/// One rule of the joint tuning in JSON: its label, then the figures of the analysis.
+#[derive(Serialize)]
+struct RuleJson {
+    label: String,
+    scale: Option<f64>,
+    coverage: crate::prob::Estimate,
+    false_alarms_per_hour: crate::prob::Estimate,
+    at_range_end: bool,
+}
+
 #[derive(Serialize)]
 struct ConfirmationJson<'a> {
     tool_version: &'a str,
@@ -299,8 +311,8 @@ struct ConfirmationJson<'a> {
     figure: &'a str,
     target: f64,
     sites: &'a [String],
-    rules: &'a [crate::analysis::timed_tune::RuleChoice],
-    chosen: Option<&'a str>,
+    rules: Vec<RuleJson>,
+    chosen: Option<String>,
     evaluations: usize,
     cautions: &'a [&'a str],
 }
@@ -320,11 +332,21 @@ pub fn confirmation_json(
         figure: request.figure.key(),
         target: request.target,
         sites: &request.sites,
-        rules: &result.rules,
+        rules: result
+            .rules
+            .iter()
+            .map(|r| RuleJson {
+                label: rule_label(&r.rule),
+                scale: r.scale,
+                coverage: r.coverage,
+                false_alarms_per_hour: r.false_alarms_per_hour,
+                at_range_end: r.at_range_end,
+            })
+            .collect(),
         chosen: result
             .chosen
             .and_then(|i| result.rules.get(i))
-            .map(|r| r.label.as_str()),
+            .map(|r| rule_label(&r.rule)),
         evaluations: result.evaluations,
         cautions: &CAUTIONS,
     };
@@ -345,7 +367,7 @@ pub fn confirmation_svg(result: &TimedTuneResult) -> Result<String, PlotError> {
         .filter(|r| r.false_alarms_per_hour.value > r.false_alarms_per_hour.error)
         .filter_map(|r| {
             r.scale.map(|s| Series {
-                label: r.label.clone(),
+                label: rule_label(&r.rule),
                 points: vec![(s, r.false_alarms_per_hour.value)],
             })
         })
@@ -366,7 +388,7 @@ pub fn confirmation_svg(result: &TimedTuneResult) -> Result<String, PlotError> {
                 r.scale.map(|s| Marker {
                     x: s,
                     y: r.false_alarms_per_hour.value,
-                    label: format!("chosen: {}", r.label),
+                    label: format!("chosen: {}", rule_label(&r.rule)),
                 })
             })
             .into_iter()
