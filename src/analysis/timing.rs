@@ -338,19 +338,24 @@ enum SampleEngine<'a> {
     Polytopes(&'a Evaluator),
 }
 
+/// The channels of one sample as the order-statistic engine takes them: independent, with
+/// the mean of `g` and the fresh standard deviations of `split`, no shared term.
+fn independent_channels(g: &Gaussian, split: &Split) -> SharedGaussian {
+    SharedGaussian {
+        mean: g.mean().to_vec(),
+        own_sd: split.fresh_sd.clone(),
+        shared: Vec::new(),
+        uniform: None,
+    }
+}
+
 impl SampleEngine<'_> {
     /// The four per-sample figures at the gaussian `g`.
     fn outcome(&self, g: &Gaussian, split: &Split) -> Result<Outcome, AnalysisError> {
         match self {
             SampleEngine::Polytopes(evaluator) => evaluator.outcome(g),
             SampleEngine::Order(q, accuracy) => {
-                let shared = SharedGaussian {
-                    mean: g.mean().to_vec(),
-                    own_sd: split.fresh_sd.clone(),
-                    shared: Vec::new(),
-                    uniform: None,
-                };
-                let f = order_figures(&shared, q, accuracy)
+                let f = order_figures(&independent_channels(g, split), q, accuracy)
                     .map_err(|e| AnalysisError::engine("order-statistic figures of a sample", e))?;
                 Ok(Outcome {
                     p_vd: f.violated_detected,
@@ -373,13 +378,7 @@ impl SampleEngine<'_> {
             && split.fresh_diagonal
             && !small
         {
-            let probe = SharedGaussian {
-                mean: split.fresh.mean().to_vec(),
-                own_sd: split.fresh_sd.clone(),
-                shared: Vec::new(),
-                uniform: None,
-            };
-            if unsupported_reason(&probe, q).is_none() {
+            if unsupported_reason(&independent_channels(&split.fresh, split), q).is_none() {
                 return Ok(SampleEngine::Order(
                     q,
                     OrderAccuracy {
