@@ -377,17 +377,16 @@ impl SampleEngine<'_> {
         if let Some(q) = engine.order_question()
             && split.fresh_diagonal
             && !small
+            && unsupported_reason(&independent_channels(&split.fresh, split), q).is_none()
         {
-            if unsupported_reason(&independent_channels(&split.fresh, split), q).is_none() {
-                return Ok(SampleEngine::Order(
-                    q,
-                    OrderAccuracy {
-                        abs: options.polytope_abs,
-                        rel: options.polytope_rel.max(TIMED_REL),
-                        max_intervals: options.amplitude_max_intervals,
-                    },
-                ));
-            }
+            return Ok(SampleEngine::Order(
+                q,
+                OrderAccuracy {
+                    abs: options.polytope_abs,
+                    rel: options.polytope_rel.max(TIMED_REL),
+                    max_intervals: options.amplitude_max_intervals,
+                },
+            ));
         }
         let evaluator = engine.evaluator().map_err(|e| match e {
             AnalysisError::TooLarge { .. } => AnalysisError::Unsupported {
