@@ -130,6 +130,8 @@ pub enum RequestField {
     MonteCarloSamples,
     /// `MonteCarloOptions::samples` of a cross-check of an exact analysis (`verify`).
     VerifySamples,
+    /// The tolerances of the inputs (`tolerances::over_box`).
+    Tolerances,
 }
 
 impl std::fmt::Display for RequestField {
@@ -152,6 +154,7 @@ impl std::fmt::Display for RequestField {
             RequestField::SpreadSigmas => f.write_str("the sigmas of the spread curve"),
             RequestField::MonteCarloSamples => f.write_str("the Monte Carlo sample count"),
             RequestField::VerifySamples => f.write_str("the cross-check's sample count"),
+            RequestField::Tolerances => f.write_str("the tolerances of the inputs"),
         }
     }
 }

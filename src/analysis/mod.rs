@@ -11,6 +11,7 @@
 //! - [`montecarlo`]: plain sampling through separate code, for verification.
 //! - [`sweep`]: the analysis over values of one or two keys of the file.
 //! - [`spread`]: one site's figures over the spread of its fault amplitude.
+//! - [`tolerances`]: every figure's range over a box of input tolerances.
 //! - [`tune`]: the widest comparator band that meets a coverage target.
 //! - [`compare`]: several architectures reduced to one line each.
 //! - [`outcome`]: the four probabilities and the coverage figures derived from them.
@@ -41,6 +42,7 @@ pub mod sweep;
 pub mod timed_sampling;
 pub mod timed_tune;
 pub mod timing;
+pub mod tolerances;
 pub mod tune;
 
 pub use error::{AnalysisError, RequestField};

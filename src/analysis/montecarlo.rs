@@ -430,6 +430,7 @@ pub fn analyze_montecarlo(
     Ok(Analysis {
         timed: None,
         isolation: None,
+        tolerances: None,
         baseline,
         metrics: metrics(&sites),
         sites,

@@ -39,6 +39,9 @@ pub struct Analysis {
     /// Which channel a detection blames, and what runs on without it, when the file has an
     /// isolation section.
     pub isolation: Option<IsolationAnalysis>,
+    /// Every figure's range over the tolerances of the inputs, when asked
+    /// (`analyze --within`; set by the caller with `tolerances::over_box`).
+    pub tolerances: Option<super::tolerances::ToleranceAnalysis>,
 }
 
 /// Precomputed state shared by every scenario of one architecture.
@@ -116,6 +119,7 @@ pub fn analyze(
     Ok(Analysis {
         timed,
         isolation,
+        tolerances: None,
         baseline: baseline_outcome,
         metrics: metrics(&sites),
         sites,

@@ -2,10 +2,26 @@
 
 use crate::analysis::analyze;
 use crate::analysis::montecarlo::{MonteCarloOptions, analyze_montecarlo, verify};
+use crate::analysis::tolerances::over_box;
 use crate::report::{ReportInput, csv, json, table};
 
 use super::args::{AnalyzeArgs, Format, MethodArg};
 use super::{CliError, load};
+
+/// `KEY=LO:HI` of `--within`.
+fn parse_within(text: &str) -> Result<(String, f64, f64), CliError> {
+    let bad = |why: &str| CliError::Value {
+        flag: "--within".into(),
+        message: format!("`{text}`: {why}; write KEY=LO:HI, e.g. channels.a.sigma=0.4:0.6"),
+    };
+    let (key, range) = text.split_once('=').ok_or_else(|| bad("no `=`"))?;
+    let (lo, hi) = range
+        .split_once(':')
+        .ok_or_else(|| bad("no `:` in the range"))?;
+    let lo: f64 = lo.trim().parse().map_err(|_| bad("LO is not a number"))?;
+    let hi: f64 = hi.trim().parse().map_err(|_| bad("HI is not a number"))?;
+    Ok((key.trim().to_string(), lo, hi))
+}
 
 /// Runs the analysis and renders it; a disagreeing cross-check is a failure that carries the
 /// rendered figures, so that they are still shown.
@@ -22,6 +38,14 @@ pub fn run(args: &AnalyzeArgs) -> Result<String, CliError> {
             (analyze_montecarlo(&arch.model, &sampling)?, "montecarlo")
         }
     };
+    let mut analysis = analysis;
+    if !args.within.is_empty() {
+        let mut within = Vec::with_capacity(args.within.len());
+        for text in &args.within {
+            within.push(parse_within(text)?);
+        }
+        analysis.tolerances = Some(over_box(&arch, &within, &options)?);
+    }
     let verification = match args.verify {
         Some(samples) => {
             let sampling = MonteCarloOptions {

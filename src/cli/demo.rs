@@ -157,6 +157,7 @@ pub fn run(args: &super::args::DemoArgs) -> Result<String, CliError> {
                 seed: REPORT_SEED,
                 verify: None,
                 curve: format == Format::Json,
+                within: Vec::new(),
             })?;
             write(
                 dir,

@@ -176,6 +176,7 @@ pub fn flag_of(field: &RequestField) -> Option<&'static str> {
         RequestField::SpreadSigmas => Some("--sigma"),
         RequestField::MonteCarloSamples => Some("--samples"),
         RequestField::VerifySamples => Some("--verify"),
+        RequestField::Tolerances => Some("--within"),
     }
 }
 
@@ -244,6 +245,7 @@ mod tests {
             RequestField::SpreadSigmas,
             RequestField::MonteCarloSamples,
             RequestField::VerifySamples,
+            RequestField::Tolerances,
         ] {
             let flag = flag_of(&field).unwrap_or("none");
             assert!(longs.iter().any(|l| l == flag), "{field:?} -> {flag}");

@@ -34,6 +34,7 @@
 //!
 //! - `isolation` (only when the file has an `[isolation]` section): see
 //!   `report/isolation_json.rs`.
+//! - `tolerances` (only with `analyze --within`): see `report/tolerances.rs`.
 //!
 //! Fields may be added in later versions; none is dropped, and none is renamed except as
 //! listed here.
@@ -206,6 +207,10 @@ pub struct AnalysisJson {
     /// (`report/isolation_json.rs`).
     #[serde(skip_serializing_if = "Option::is_none", default)]
     pub isolation: Option<super::isolation_json::IsolationJson>,
+    /// Every figure over the tolerances of the inputs, only with `--within`
+    /// (`report/tolerances.rs`).
+    #[serde(skip_serializing_if = "Option::is_none", default)]
+    pub tolerances: Option<super::tolerances::TolerancesJson>,
 }
 
 /// The confirmation rule of the timing section.
@@ -409,6 +414,10 @@ pub fn document(input: &ReportInput<'_>) -> AnalysisJson {
             .isolation
             .as_ref()
             .map(super::isolation_json::isolation_json),
+        tolerances: a
+            .tolerances
+            .as_ref()
+            .map(super::tolerances::tolerances_json),
     }
 }
 

@@ -35,6 +35,7 @@ pub mod selftest;
 pub mod sensitivity;
 pub mod sweep;
 pub mod table;
+pub mod tolerances;
 pub mod tune;
 
 use crate::analysis::Analysis;

@@ -197,6 +197,9 @@ pub fn render(input: &ReportInput<'_>) -> String {
     if let Some(i) = &a.isolation {
         isolation_section(&mut out, i, unit);
     }
+    if let Some(t) = &a.tolerances {
+        super::tolerances::table_section(&mut out, t);
+    }
     if let Some(rows) = input.verification {
         let _ = writeln!(out);
         let agree = rows.iter().filter(|r| r.agrees).count();

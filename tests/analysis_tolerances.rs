@@ -1,0 +1,102 @@
+//! Figures over a box of input tolerances (`analysis::tolerances`) against a dense grid: the
+//! reported extremes are no worse than those of a 20 x 20 grid of the same box (the issue's
+//! check), on two inputs of a bundled example, and the extremes of a figure monotone in one
+//! input sit at the ends of its tolerance (common practice: a wider comparator band never
+//! raises the false alarm).
+
+use concord::analysis::sensitivity::figures_of;
+use concord::analysis::tolerances::over_box;
+use concord::analysis::{AnalysisOptions, analyze};
+use concord::model::load_str;
+
+#[test]
+fn the_extremes_are_no_worse_than_a_20_by_20_grid() {
+    let text = include_str!("../architectures/plovrant_swa2_mean.toml");
+    let arch = load_str(text, "swa2").expect("valid");
+    let options = AnalysisOptions::default();
+    let within = [
+        ("checks.ab.limit".to_string(), 2.0, 3.0),
+        ("channels.hall_b.sigma".to_string(), 0.45, 0.65),
+    ];
+    let found = over_box(&arch, &within, &options).expect("box");
+    let n = 20;
+    let mut low = vec![f64::INFINITY; found.figures.len()];
+    let mut high = vec![f64::NEG_INFINITY; found.figures.len()];
+    for i in 0..n {
+        for j in 0..n {
+            let x = 2.0 + 1.0 * i as f64 / (n - 1) as f64;
+            let y = 0.45 + 0.2 * j as f64 / (n - 1) as f64;
+            let edited = arch
+                .with_overrides(&[
+                    ("checks.ab.limit".into(), x),
+                    ("channels.hall_b.sigma".into(), y),
+                ])
+                .expect("valid in the box");
+            let a = analyze(&edited.model, &options, false).expect("analysis");
+            let figures = figures_of(&a);
+            for (k, f) in found.figures.iter().enumerate() {
+                if let Some(g) = figures
+                    .iter()
+                    .find(|g| g.site == f.site && g.figure == f.figure)
+                {
+                    low[k] = low[k].min(g.value.value);
+                    high[k] = high[k].max(g.value.value);
+                }
+            }
+        }
+    }
+    for (k, f) in found.figures.iter().enumerate() {
+        let slack = 1e-12 + f.lowest.error.max(f.highest.error);
+        assert!(
+            f.lowest.value <= low[k] + slack,
+            "{:?} {}: lowest {} above the grid's {}",
+            f.site,
+            f.figure,
+            f.lowest.value,
+            low[k]
+        );
+        assert!(
+            f.highest.value >= high[k] - slack,
+            "{:?} {}: highest {} below the grid's {}",
+            f.site,
+            f.figure,
+            f.highest.value,
+            high[k]
+        );
+    }
+}
+
+#[test]
+fn a_figure_monotone_in_one_input_has_its_extremes_at_the_ends() {
+    // Common practice: widening a comparator band can only lower the fault-free false alarm,
+    // so over a tolerance of the band its highest value is at the narrowest band.
+    let text = include_str!("../architectures/plovrant_swa2_mean.toml");
+    let arch = load_str(text, "swa2").expect("valid");
+    let within = [("checks.ab.limit".to_string(), 2.0, 3.0)];
+    let found = over_box(&arch, &within, &AnalysisOptions::default()).expect("box");
+    let fa = found
+        .figures
+        .iter()
+        .find(|f| f.site.is_none() && f.figure == "false_alarm")
+        .expect("false alarm");
+    assert_eq!(fa.highest_at, vec![2.0]);
+    assert_eq!(fa.lowest_at, vec![3.0]);
+    assert!(fa.monotone);
+}
+
+#[test]
+fn a_key_that_is_no_input_is_refused_with_the_inputs_named() {
+    let text = include_str!("../architectures/plovrant_swa2_mean.toml");
+    let arch = load_str(text, "swa2").expect("valid");
+    let e = over_box(
+        &arch,
+        &[("checks.ab.width".to_string(), 1.0, 2.0)],
+        &AnalysisOptions::default(),
+    )
+    .expect_err("no such input");
+    let text = e.to_string();
+    assert!(
+        text.contains("checks.ab.width") && text.contains("checks.ab.limit"),
+        "{text}"
+    );
+}
