@@ -100,3 +100,28 @@ fn a_key_that_is_no_input_is_refused_with_the_inputs_named() {
         "{text}"
     );
 }
+
+#[test]
+fn a_tolerances_section_is_read_and_checked() {
+    let text = include_str!("../architectures/plovrant_swa2_mean.toml");
+    let arch = load_str(text, "swa2").expect("valid");
+    assert_eq!(
+        arch.tolerances,
+        vec![
+            ("channels.hall_b.sigma".to_string(), 0.45, 0.65),
+            ("checks.ab.limit".to_string(), 2.3, 2.7),
+        ]
+    );
+    // A key that names no number, an empty range, an unquoted dotted key: each refused with
+    // the key named (docs/architecture-format.md, "Tolerances").
+    let base = text.split("[tolerances]").next().expect("head");
+    for (section, needle) in [
+        ("\"checks.ab.width\" = [1.0, 2.0]", "checks.ab.width"),
+        ("\"checks.ab.limit\" = [2.7, 2.3]", "empty"),
+        ("checks.ab.limit = [2.3, 2.7]", "quote"),
+    ] {
+        let bad = format!("{base}[tolerances]\n{section}\n");
+        let e = load_str(&bad, "bad.toml").expect_err("refused");
+        assert!(e.to_string().contains(needle), "{section}: {e}");
+    }
+}

@@ -197,7 +197,15 @@ fn analyze<'py>(
     let options = options(py, tolerance)?;
     let arch = &architecture.inner;
     let text = py.detach(|| -> Result<String, CliError> {
-        let analysis = run_analyze(&arch.model, &options, curves)?;
+        let mut analysis = run_analyze(&arch.model, &options, curves)?;
+        // The file's [tolerances], as `concord analyze` computes them.
+        if !arch.tolerances.is_empty() {
+            analysis.tolerances = Some(concord::analysis::tolerances::over_box(
+                arch,
+                &arch.tolerances,
+                &options,
+            )?);
+        }
         let input = ReportInput {
             architecture: arch,
             analysis: &analysis,

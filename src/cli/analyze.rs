@@ -39,11 +39,14 @@ pub fn run(args: &AnalyzeArgs) -> Result<String, CliError> {
         }
     };
     let mut analysis = analysis;
-    if !args.within.is_empty() {
-        let mut within = Vec::with_capacity(args.within.len());
-        for text in &args.within {
-            within.push(parse_within(text)?);
-        }
+    // The file's [tolerances], then --within (which replaces a key the file gives).
+    let mut within = arch.tolerances.clone();
+    for text in &args.within {
+        let (key, lo, hi) = parse_within(text)?;
+        within.retain(|(k, _, _)| *k != key);
+        within.push((key, lo, hi));
+    }
+    if !within.is_empty() && args.method == MethodArg::Exact {
         analysis.tolerances = Some(over_box(&arch, &within, &options)?);
     }
     let verification = match args.verify {

@@ -37,7 +37,14 @@ pub fn build(
     let epoch = std::env::var("SOURCE_DATE_EPOCH").ok();
     let date = report_date(date, epoch.as_deref())?;
     let arch = load(file)?;
-    let analysis = analyze(&arch.model, options, true)?;
+    let mut analysis = analyze(&arch.model, options, true)?;
+    if !arch.tolerances.is_empty() {
+        analysis.tolerances = Some(crate::analysis::tolerances::over_box(
+            &arch,
+            &arch.tolerances,
+            options,
+        )?);
+    }
     let sampling = MonteCarloOptions { samples, seed };
     let verification = if samples > 0 {
         Some(verify(&arch.model, &analysis, &sampling)?)

@@ -469,4 +469,6 @@ pub struct Architecture {
     pub model: CompiledModel,
     pub graph: ModelGraph,
     pub warnings: Vec<Diagnostic>,
+    /// The tolerances of the `[tolerances]` section: (key, lower, upper), in file order.
+    pub tolerances: Vec<(String, f64, f64)>,
 }

@@ -151,6 +151,26 @@ pub fn load_str_with_overrides(
     };
     overrides::apply(&mut root, overrides, &mut sink);
     let raw = read::read(&root, &mut sink);
+    let inputs = overrides::numeric_leaves(&root);
+    for (key, range) in &raw.tolerances {
+        if !inputs.iter().any(|(k, _)| *k == key.value) {
+            let known: Vec<&str> = inputs.iter().map(|(k, _)| k.as_str()).take(8).collect();
+            key.error(
+                &mut sink,
+                format!("`{}` is not a numeric input of the file", key.value),
+                format!(
+                    "name a number of the file by its dotted key, e.g. {}",
+                    known.join(", ")
+                ),
+            );
+        }
+        let _ = range;
+    }
+    let tolerances: Vec<(String, f64, f64)> = raw
+        .tolerances
+        .iter()
+        .map(|(k, r)| (k.value.clone(), r.value.0, r.value.1))
+        .collect();
     let check_bands = bands::written_bands(&raw);
     let compiled = validate::validate(&raw, &mut sink).and_then(|resolved| {
         let graph = graph::build(&resolved);
@@ -187,5 +207,6 @@ pub fn load_str_with_overrides(
         model,
         graph,
         warnings,
+        tolerances,
     })
 }

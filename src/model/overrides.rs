@@ -41,14 +41,25 @@ impl Architecture {
             return Vec::new();
         };
         apply(&mut root, &self.overrides, &mut sink);
-        let mut out = Vec::new();
-        walk(&root, "", &mut out);
-        out
+        numeric_leaves(&root)
     }
 }
 
 /// Top-level sections whose numbers are counts or rules, not inputs of the figures.
-const NOT_INPUTS: &[&str] = &["timing", "detection", "isolation", "full_scale"];
+const NOT_INPUTS: &[&str] = &[
+    "timing",
+    "detection",
+    "isolation",
+    "full_scale",
+    "tolerances",
+];
+
+/// The numeric inputs of a document tree (see [`Architecture::numeric_inputs`]).
+pub(crate) fn numeric_leaves(root: &Node) -> Vec<(String, f64)> {
+    let mut out = Vec::new();
+    walk(root, "", &mut out);
+    out
+}
 
 fn walk(node: &Node, path: &str, out: &mut Vec<(String, f64)>) {
     let join = |k: &str| {

@@ -233,6 +233,9 @@ pub(crate) struct RawIsolation {
     pub among: Option<Vec<Spanned<String>>>,
 }
 
+/// One tolerance of `[tolerances]`: the dotted key and `[lower, upper]`.
+pub(crate) type RawTolerance = (Spanned<String>, Spanned<(f64, f64)>);
+
 /// The whole file as read.
 #[derive(Debug, Clone, PartialEq)]
 pub(crate) struct RawModel {
@@ -250,6 +253,8 @@ pub(crate) struct RawModel {
     pub faults: Vec<RawFault>,
     pub timing: Option<RawTiming>,
     pub isolation: Option<RawIsolation>,
+    /// `[tolerances]`: `"KEY" = [lower, upper]` per input.
+    pub tolerances: Vec<RawTolerance>,
     /// True when a section of names (sources, channels, signals) or one of its entries could
     /// not be read: references to unknown names are then not reported (they would only echo
     /// the error already reported).

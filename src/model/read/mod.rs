@@ -31,6 +31,7 @@ const TOP_KEYS: &[&str] = &[
     "faults",
     "timing",
     "isolation",
+    "tolerances",
 ];
 
 /// Reads the whole document.
@@ -50,6 +51,7 @@ pub(crate) fn read(root: &Node, sink: &mut Sink<'_>) -> RawModel {
         faults: Vec::new(),
         timing: None,
         isolation: None,
+        tolerances: Vec::new(),
         names_incomplete: false,
         channels_given: false,
     };
@@ -164,6 +166,9 @@ pub(crate) fn read(root: &Node, sink: &mut Sink<'_>) -> RawModel {
     }
     if let Some(e) = top.take("isolation") {
         model.isolation = read_isolation(sink, &e.value);
+    }
+    if let Some(e) = top.take("tolerances") {
+        model.tolerances = read_tolerances(sink, &e.value);
     }
     top.finish(sink, TOP_KEYS);
     model

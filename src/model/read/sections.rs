@@ -691,6 +691,51 @@ pub(super) fn read_isolation(sink: &mut Sink<'_>, node: &Node) -> Option<RawIsol
     })
 }
 
+/// The `[tolerances]` section: `"channels.a.sigma" = [0.4, 0.6]`, a quoted dotted key per
+/// input with its lower and upper value.
+pub(super) fn read_tolerances(
+    sink: &mut Sink<'_>,
+    node: &Node,
+) -> Vec<RawTolerance> {
+    let example = "\"channels.a.sigma\" = [0.4, 0.6]";
+    let Some(entries) = node.entries() else {
+        type_error(sink, node, "tolerances", "a table", example);
+        return Vec::new();
+    };
+    let mut out = Vec::new();
+    for e in entries {
+        let key = join("tolerances", &e.key);
+        if matches!(e.value.value, Value::Table(_)) {
+            sink.error(
+                e.key_span,
+                &key,
+                format!(
+                    "`{}` is read as a table: the key of a tolerance is one quoted string",
+                    e.key
+                ),
+                format!("quote the whole key: {example}"),
+            );
+            continue;
+        }
+        if let Some(range) = pair(sink, &e.value, &key, example) {
+            let name = Spanned::new(e.key.clone(), e.key_span, key);
+            if range.value.0 >= range.value.1 {
+                range.error(
+                    sink,
+                    format!(
+                        "the tolerance [{}, {}] is empty: the lower value must be below the upper",
+                        range.value.0, range.value.1
+                    ),
+                    "write [lower, upper] with lower < upper",
+                );
+                continue;
+            }
+            out.push((name, range));
+        }
+    }
+    out
+}
+
 /// `confirm = { consecutive = n }`, `{ at_least = m, of_last = n }` or
 /// `{ up = u, down = d, trip = level }`.
 fn read_confirm(sink: &mut Sink<'_>, node: &Node, key: &str) -> Option<Spanned<RawConfirm>> {

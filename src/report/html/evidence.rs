@@ -11,7 +11,7 @@ use crate::report::json::AnalysisJson;
 use super::{HtmlOptions, cell, prob_cell, sci_html, section_start, text_cell, verdict_html};
 
 pub(super) fn crosscheck(o: &mut String, doc: &AnalysisJson, options: &HtmlOptions) {
-    section_start(o, "crosscheck", 11, "Monte Carlo cross-check");
+    section_start(o, "crosscheck", 12, "Monte Carlo cross-check");
     let Some(rows) = &doc.verification else {
         o.push_str("<p>Not run for this report. Run <code>concord report FILE --verify N</code> to re-run every scenario with N samples by plain Monte Carlo sampling, an independent code path.</p>\n</section>\n");
         return;
@@ -91,7 +91,7 @@ const OPTION_MEANINGS: [(&str, &str); 12] = [
 ];
 
 pub(super) fn method(o: &mut String, input: &ReportInput<'_>, options: &HtmlOptions) {
-    section_start(o, "method", 12, "Numerical method and tolerances");
+    section_start(o, "method", 13, "Numerical method and tolerances");
     o.push_str("<p>Every outcome is a union of disjoint polytopes in the space of the channel deviations. Each polytope probability is integrated with its own error bound: closed forms for one and two random directions (the normal distribution; the bivariate normal by Genz 2004); exact planar slices for two conditioning variables; one adaptive Gauss–Kronrod integral over exact slices for three (deterministic); Genz's sequential conditioning with a randomised lattice rule and a fixed seed for four or more (Genz 1992; Genz and Bretz 2009), its bound the scatter of the random shifts. A uniform amplitude is integrated by adaptive Gauss–Kronrod (QUADPACK, Piessens et al. 1983) with breakpoints where the integrand steps; an unknown σ is scanned on a log grid and every local maximum of the residual refined by Brent's method (Brent 1973) in log σ. The residual is integrated directly, never as a difference of large probabilities. The bounds cover the numerical method only, not the model.</p>\n");
     o.push_str("<p>Where the channels are independent once one shared term is fixed (a shared source, a positive correlation written as one, a gaussian fault amplitude) and the output is an order statistic of channels with range or difference checks, the figures are computed instead from counts: given the shared term, “the output above L” is “at least k readings above L”, a Poisson-binomial sum, and a range check is one integral over the smallest reading (David and Nagaraja 2003, Order Statistics); the integrals over that reading and over the shared term are adaptive Gauss–Kronrod rules over windows of ±9 standard deviations, whose mass outside (2.3e-19 each) is added to the bounds. This takes polynomial time in the number of channels; models of up to three channels stay with the polytopes.</p>\n");
     let mut by_method = vec![format!(
@@ -137,7 +137,7 @@ pub(super) fn method(o: &mut String, input: &ReportInput<'_>, options: &HtmlOpti
 }
 
 pub(super) fn reproduce(o: &mut String, doc: &AnalysisJson, options: &HtmlOptions) {
-    section_start(o, "reproduce", 13, "Reproducing this report");
+    section_start(o, "reproduce", 14, "Reproducing this report");
     o.push_str("<p>concord is deterministic: the same input file, tool version and options give the same figures, bit for bit, whatever the number of threads. To reproduce this report, check that the file's SHA-256 matches and run the command below; <code>concord analyze FILE --format json --with-curves</code> prints the same numbers as JSON (each number cell of this page carries its exact JSON value in <code>data-value</code>).</p>\n");
     o.push_str(r#"<table class="kv"><tbody>"#);
     let rows = [
@@ -159,7 +159,7 @@ pub(super) fn reproduce(o: &mut String, doc: &AnalysisJson, options: &HtmlOption
 }
 
 pub(super) fn cautions(o: &mut String) {
-    section_start(o, "cautions", 14, "Cautions");
+    section_start(o, "cautions", 15, "Cautions");
     o.push_str(r#"<ul class="cautions">"#);
     for c in CAUTIONS {
         let _ = write!(o, "<li>{}</li>", esc(c));

@@ -3,7 +3,7 @@
 //!
 //! Sections, each an `<section id=...>`, in reading order: `summary`, `scope`, `architecture`,
 //! `inputs`, `assumptions`, `results`, `curves`, `metrics`, `timing`, `isolation`,
-//! `crosscheck`, `method`, `reproduce`, `cautions` ([`SECTIONS`]).
+//! `tolerances`, `crosscheck`, `method`, `reproduce`, `cautions` ([`SECTIONS`]).
 //!
 //! Every computed number is taken from the JSON document of [`super::json::document`], so
 //! the report and `concord analyze --format json` cannot disagree. A number cell carries the
@@ -16,7 +16,8 @@
 //!
 //! Files: `mod.rs` the page, its header and the cells every section writes; one file per
 //! group of sections: `summary.rs` (1-2), `inputs.rs` (3-5), `results.rs` (6-8),
-//! `timing.rs` (9), `isolation.rs` (10), `evidence.rs` (11-14); the stylesheet `report.css`.
+//! `timing.rs` (9), `isolation.rs` (10), `tolerances.rs` (11), `evidence.rs` (12-15); the
+//! stylesheet `report.css`.
 
 mod evidence;
 mod inputs;
@@ -24,6 +25,7 @@ mod isolation;
 mod results;
 mod summary;
 mod timing;
+mod tolerances;
 
 use std::fmt::Write as _;
 
@@ -38,7 +40,7 @@ use results::{curves, metrics, results};
 use summary::{scope, summary};
 
 /// The ids of the report's sections, in order.
-pub const SECTIONS: [&str; 14] = [
+pub const SECTIONS: [&str; 15] = [
     "summary",
     "scope",
     "architecture",
@@ -49,6 +51,7 @@ pub const SECTIONS: [&str; 14] = [
     "metrics",
     "timing",
     "isolation",
+    "tolerances",
     "crosscheck",
     "method",
     "reproduce",
@@ -163,6 +166,7 @@ pub fn render(input: &ReportInput<'_>, options: &HtmlOptions) -> String {
     metrics(&mut o, &doc);
     timing::timing(&mut o, &doc);
     isolation::isolation(&mut o, &doc);
+    tolerances::tolerances(&mut o, &doc);
     crosscheck(&mut o, &doc, options);
     method(&mut o, input, options);
     reproduce(&mut o, &doc, options);
@@ -200,6 +204,6 @@ fn header(o: &mut String, input: &ReportInput<'_>, doc: &AnalysisJson, options: 
     );
     let _ = writeln!(
         o,
-        r#"<p class="notice">The figures below are estimates under the assumptions of section 5. The analyst remains responsible for their use; the applicable standards and the assessor decide what is acceptable (section 14).</p></header>"#
+        r#"<p class="notice">The figures below are estimates under the assumptions of section 5. The analyst remains responsible for their use; the applicable standards and the assessor decide what is acceptable (section 15).</p></header>"#
     );
 }

@@ -83,16 +83,16 @@ pub(super) fn summary(o: &mut String, doc: &AnalysisJson) {
         .map(|rows| rows.iter().filter(|r| !r.agrees).count());
     match disagree {
         Some(0) => o.push_str(
-            "<p>The independent Monte Carlo cross-check agrees with every exact figure (section 11).</p>\n",
+            "<p>The independent Monte Carlo cross-check agrees with every exact figure (section 12).</p>\n",
         ),
         Some(n) => {
             let _ = writeln!(
                 o,
-                r#"<p class="alert">✗ The Monte Carlo cross-check disagrees on {n} figure(s): see section 11 before using these figures.</p>"#
+                r#"<p class="alert">✗ The Monte Carlo cross-check disagrees on {n} figure(s): see section 12 before using these figures.</p>"#
             );
         }
         None => o.push_str(
-            "<p>The Monte Carlo cross-check was not run for this report (section 11).</p>\n",
+            "<p>The Monte Carlo cross-check was not run for this report (section 12).</p>\n",
         ),
     }
     if !doc.warnings.is_empty() || doc.sites.iter().any(|s| !s.warnings.is_empty()) {
