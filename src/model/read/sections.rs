@@ -693,10 +693,7 @@ pub(super) fn read_isolation(sink: &mut Sink<'_>, node: &Node) -> Option<RawIsol
 
 /// The `[tolerances]` section: `"channels.a.sigma" = [0.4, 0.6]`, a quoted dotted key per
 /// input with its lower and upper value.
-pub(super) fn read_tolerances(
-    sink: &mut Sink<'_>,
-    node: &Node,
-) -> Vec<RawTolerance> {
+pub(super) fn read_tolerances(sink: &mut Sink<'_>, node: &Node) -> Vec<RawTolerance> {
     let example = "\"channels.a.sigma\" = [0.4, 0.6]";
     let Some(entries) = node.entries() else {
         type_error(sink, node, "tolerances", "a table", example);
