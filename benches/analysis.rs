@@ -3,6 +3,7 @@
 
 use criterion::{Criterion, criterion_group, criterion_main};
 
+use concord::analysis::cells::CellSet;
 use concord::analysis::engine::Engine;
 use concord::analysis::montecarlo::{MonteCarloOptions, analyze_montecarlo};
 use concord::analysis::site::analyze_site;
@@ -118,6 +119,20 @@ fn bench(c: &mut Criterion) {
             })
         },
     );
+    // The bundled four-channel example (median of four, a range check and a check of two
+    // package averages: polytopes). Issue target: under 2 s for the whole file.
+    let four_path = concat!(
+        env!("CARGO_MANIFEST_DIR"),
+        "/architectures/plovrant_swa4_dual_pair.toml"
+    );
+    let four_text = std::fs::read_to_string(four_path).expect("bundled example");
+    let four = load_str(&four_text, "plovrant_swa4_dual_pair.toml").expect("bench file");
+    group.bench_function("file: the four-channel example, cells of the model", |b| {
+        b.iter(|| CellSet::from_model(&four.model).expect("cells"))
+    });
+    group.bench_function("file: the four-channel example, whole analysis", |b| {
+        b.iter(|| analyze(&four.model, &options, false).expect("analysis"))
+    });
     group.finish();
 }
 

@@ -72,18 +72,19 @@ fn too_many_checks_names_the_limit() {
 
 #[test]
 fn too_many_pieces_names_the_limit() {
-    // The median of eight channels has 8! = 40320 orderings, more than MAX_PIECES = 5040:
-    // the file loads (the order-statistic engine needs no pieces), but with two-of-two
-    // detection that engine does not fit either, and the analysis must say both.
+    // The median of twelve channels has C(12, 2) C(10, 5) = 16632 rank patterns, more than
+    // MAX_PIECES = 5040: the file loads (the order-statistic engine needs no pieces), but
+    // with two-of-two detection that engine does not fit either, and the analysis must say
+    // both.
     let checks = "[checks.ab]\nkind = \"difference\"\nof = [\"c0\", \"c1\"]\nlimit = 1.0\n\n\
                   [checks.cd]\nkind = \"difference\"\nof = [\"c2\", \"c3\"]\nlimit = 1.0\n\n\
                   [detection]\nfires = { at_least = 2 }\n";
     let text = file(
-        8,
-        &format!("kind = \"median\"\nof = [{}]", names(8)),
+        12,
+        &format!("kind = \"median\"\nof = [{}]", names(12)),
         checks,
     );
-    let arch = load_str(&text, "limits.toml").expect("a median of eight loads");
+    let arch = load_str(&text, "limits.toml").expect("a median of twelve loads");
     assert!(!arch.model.pieces_complete);
     let e = analyze(&arch.model, &AnalysisOptions::default(), false)
         .expect_err("neither engine fits")

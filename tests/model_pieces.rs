@@ -4,7 +4,7 @@
 //! of the definitions written here independently (sorting for median, min, max and range),
 //! and every point, including points with exact ties, lies in exactly one piece.
 
-use concord::model::{self, Guard, PiecewiseLinear};
+use concord::model::{self, Guard, PiecewiseLinear, guards_contradict};
 use proptest::prelude::*;
 
 /// xorshift64 (Marsaglia 2003): a small deterministic generator for building random specs.
@@ -254,10 +254,19 @@ fn close(a: f64, b: f64) -> bool {
     (a - b).abs() <= 1e-9 * (1.0 + a.abs().max(b.abs()))
 }
 
-/// Every two pieces of one function are separated by a guard and its exact negation.
+/// The guards of two pieces cannot hold together: one of them is the exact negation of
+/// the other's, or three of them close a cycle ("a before b before c before a", one strict).
+fn disjoint(a: &[Guard], b: &[Guard]) -> bool {
+    if a.iter().any(|g| b.iter().any(|h| g.is_negation_of(h))) {
+        return true;
+    }
+    let both: Vec<&Guard> = a.iter().chain(b).collect();
+    guards_contradict(&both)
+}
+
+/// Every two pieces of one function are provably disjoint from their guards alone.
 fn pieces_pairwise_separated(f: &PiecewiseLinear) -> bool {
-    let separated =
-        |a: &[Guard], b: &[Guard]| a.iter().any(|g| b.iter().any(|h| g.is_negation_of(h)));
+    let separated = |a: &[Guard], b: &[Guard]| disjoint(a, b);
     for i in 0..f.pieces.len() {
         for j in i + 1..f.pieces.len() {
             if !separated(&f.pieces[i].guards, &f.pieces[j].guards) {
@@ -326,9 +335,9 @@ proptest! {
         }
         let all_equal = vec![0.5; n];
         check_point(&spec, &arch, &all_equal)?;
-        prop_assert!(pieces_pairwise_separated(&arch.model.output));
+        prop_assert!(pieces_pairwise_separated(&arch.model.output), "{}", text);
         for c in &arch.model.checks {
-            prop_assert!(pieces_pairwise_separated(&c.function), "check {}", c.name);
+            prop_assert!(pieces_pairwise_separated(&c.function), "check {} {}", c.name, text);
         }
     }
 }
@@ -336,7 +345,8 @@ proptest! {
 #[test]
 fn order_statistics_over_the_same_channels_share_guards_whatever_the_order_written() {
     // median over [a, b, c] and range over [c, a, b]: each median piece is compatible with
-    // exactly one range piece (same guards); every other pair holds a guard and its negation.
+    // exactly one range piece (same guards: below before middle before above is first before
+    // middle before last); every other pair holds a guard and its negation or a cycle.
     let text = r#"
 name = "tie-break"
 unit = "u"
@@ -364,11 +374,7 @@ limit = 1.0
     for p in &out.pieces {
         let mut same = 0;
         for q in &range.pieces {
-            let contradict = p
-                .guards
-                .iter()
-                .any(|g| q.guards.iter().any(|h| g.is_negation_of(h)));
-            if !contradict {
+            if !disjoint(&p.guards, &q.guards) {
                 assert_eq!(p.guards, q.guards);
                 same += 1;
             }
@@ -378,28 +384,47 @@ limit = 1.0
 }
 
 #[test]
-fn median_of_seven_has_5040_pieces_and_median_of_eight_is_not_multiplied_out() {
+fn median_of_seven_has_140_pieces_and_median_of_twelve_is_not_multiplied_out() {
     let mut text = String::from("name = \"m\"\nunit = \"u\"\n");
-    for i in 0..8 {
+    for i in 0..12 {
         text.push_str(&format!("[channels.c{i}]\nsigma = 1.0\n"));
     }
-    let seven = format!(
-        "{text}[output]\nkind = \"median\"\nof = [\"c0\", \"c1\", \"c2\", \"c3\", \"c4\", \"c5\", \"c6\"]\n\
-         [checks.d]\nkind = \"difference\"\nof = [\"c6\", \"c7\"]\nlimit = 1.0\n[safety]\nlimit = 1.0\n"
-    );
-    let a = model::load_str(&seven, "m7.toml").unwrap_or_else(|e| panic!("{e}"));
-    assert_eq!(a.model.output.pieces.len(), 5040); // 7! = 5040
-    assert!(a.model.output.pieces.iter().all(|p| p.guards.len() == 21)); // 7 * 6 / 2
-    let x = [3.0, -1.0, 4.0, 1.0, -5.0, 9.0, 2.0, 0.0];
+    let of = |k: usize| {
+        (0..k)
+            .map(|i| format!("\"c{i}\""))
+            .collect::<Vec<_>>()
+            .join(", ")
+    };
+    let file = |k: usize| {
+        format!(
+            "{text}[output]\nkind = \"median\"\nof = [{}]\n\
+             [checks.d]\nkind = \"difference\"\nof = [\"c10\", \"c11\"]\nlimit = 1.0\n\
+             [safety]\nlimit = 1.0\n",
+            of(k)
+        )
+    };
+    // which reading is the middle (7) and which three of the other six lie below it
+    // (C(6, 3) = 20): 140 rank patterns where the orderings are 7! = 5040, each with three
+    // guards below the middle and three above (combinatorics, common practice)
+    let a = model::load_str(&file(7), "m7.toml").unwrap_or_else(|e| panic!("{e}"));
+    assert_eq!(a.model.output.pieces.len(), 140);
+    assert!(a.model.output.pieces.iter().all(|p| p.guards.len() == 6));
+    let x = [3.0, -1.0, 4.0, 1.0, -5.0, 9.0, 2.0, 0.0, 0.0, 0.0, 0.0, 0.0];
     // sorted: -5 -1 1 2 3 4 9 -> median 2
     assert_eq!(a.model.output.eval(&x), 2.0);
     assert_eq!(a.model.output.count_containing(&x), 1);
-    let eight = seven.replace("\"c6\"]\n[checks", "\"c6\", \"c7\"]\n[checks");
-    // 8! = 40320 pieces pass MAX_PIECES: the file loads, the pieces are not built, and the
-    // formula gives the median of an even count, the mean of the two middle values.
-    let a = model::load_str(&eight, "m8.toml").unwrap_or_else(|e| panic!("{e}"));
+    // the even median of eight: which pair is in the middle (C(8, 2) = 28) and which three
+    // of the other six lie below (20): 560 pieces
+    let a = model::load_str(&file(8), "m8.toml").unwrap_or_else(|e| panic!("{e}"));
+    assert_eq!(a.model.output.pieces.len(), 560);
+    // sorted: -5 -1 0 1 2 3 4 9 -> (1 + 2) / 2 (by hand)
+    assert_eq!(a.model.output.eval(&x), 1.5);
+    assert_eq!(a.model.output.count_containing(&x), 1);
+    // twelve: C(12, 2) C(10, 5) = 66 x 252 = 16632 pieces pass MAX_PIECES: the file loads,
+    // the pieces are not built, and the formula gives the mean of the two middle values.
+    let a = model::load_str(&file(12), "m12.toml").unwrap_or_else(|e| panic!("{e}"));
     assert!(!a.model.pieces_complete);
     assert!(a.model.output.pieces.is_empty());
-    // sorted: -5 -1 0 1 2 3 4 9 -> (1 + 2) / 2 (by hand)
-    assert_eq!(a.model.output_formula.eval(&x), 1.5);
+    // sorted: -5 -1 0 0 0 0 0 0 1 2 3 4 9 without one zero -> (0 + 0) / 2
+    assert_eq!(a.model.output_formula.eval(&x), 0.0);
 }

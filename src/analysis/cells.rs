@@ -2,16 +2,19 @@
 //!
 //! The output and every check are piecewise-linear functions of the channel deviations `x`.
 //! Their common refinement splits `x`-space into disjoint convex cells (for order statistics:
-//! orderings of the channels); inside a cell the output and every check are affine, so every
+//! rank patterns of the channels, see `model::pieces`); inside a cell the output and every check are affine, so every
 //! event of the analysis (violation, detection, their complements) is, inside the cell, a
 //! finite union of disjoint polytopes. DEVELOPERS.md "How a figure is computed" describes the
 //! approach.
 
-use crate::model::{CompiledModel, Detection, Formula, Guard, LinearForm};
+use crate::model::{
+    CompiledModel, Detection, Formula, Guard, LinearForm, guards_contradict, order_piece_count,
+};
 
 use super::error::AnalysisError;
 
-/// Upper limit on cells after the product of pieces (the number of orderings of 7 inputs).
+/// Upper limit on cells after the product of pieces (as many as the orderings of seven
+/// inputs).
 pub const MAX_CELLS: usize = 5040;
 
 /// A convex region of `x`-space where the output and every check are affine.
@@ -47,12 +50,13 @@ impl CellSet {
     pub fn from_model(model: &CompiledModel) -> Result<Self, AnalysisError> {
         if !model.pieces_complete {
             return Err(AnalysisError::TooLarge {
-                what: "the linear pieces of the output, a check or a signal (order statistics \
-                       of more than seven arguments cannot be multiplied out)"
+                what: "the linear pieces of the output, a check or a signal (a median of more \
+                       than eleven arguments, or a product of order statistics, cannot be \
+                       multiplied out)"
                     .into(),
                 unit: "pieces",
                 limit: crate::model::limits::MAX_PIECES,
-                found: largest_ordering_count(model),
+                found: largest_order_piece_count(model),
             });
         }
         let cells: Vec<Cell> = model
@@ -132,7 +136,8 @@ impl CellSet {
 }
 
 /// Joins two guard lists; `None` when they contradict (a guard and its exact negation with
-/// at least one strict side: the intersection is empty). Identical guards are kept once; of
+/// at least one strict side, or two or three guards that cancel with one strict, a
+/// cycle: the intersection is empty). Identical guards are kept once; of
 /// a strict and a non-strict copy of the same half-space the strict one is kept.
 fn merge_guards(left: &[Guard], right: &[Guard]) -> Option<Vec<Guard>> {
     let mut merged: Vec<Guard> = Vec::with_capacity(left.len() + right.len());
@@ -152,6 +157,10 @@ fn merge_guards(left: &[Guard], right: &[Guard]) -> Option<Vec<Guard>> {
             merged.push(guard.clone());
         }
     }
+    let spelled: Vec<&Guard> = merged.iter().collect();
+    if guards_contradict(&spelled) {
+        return None;
+    }
     Some(merged)
 }
 
@@ -163,32 +172,34 @@ fn negated_form(a: &LinearForm, b: &LinearForm) -> bool {
     a.constant == -b.constant && a.coeffs.iter().zip(&b.coeffs).all(|(p, q)| *p == -*q)
 }
 
-/// `k!` for the order statistic or range with the most arguments `k` among the model's
-/// functions (saturating): the orderings, each a linear piece, that multiplying it out
-/// needs at least.
-fn largest_ordering_count(model: &CompiledModel) -> usize {
-    fn most_arguments(f: &Formula) -> usize {
+/// The most pieces that one order statistic or range of the model's functions needs on its
+/// own (its rank patterns, see `model::order_piece_count`; saturating).
+fn largest_order_piece_count(model: &CompiledModel) -> usize {
+    fn most_pieces(f: &Formula) -> usize {
         match f {
             Formula::Channel(_) => 0,
-            Formula::Sum { terms, .. } => terms
+            Formula::Sum { terms, .. } => {
+                terms.iter().map(|(_, t)| most_pieces(t)).max().unwrap_or(0)
+            }
+            Formula::Order { stat, args } => args
                 .iter()
-                .map(|(_, t)| most_arguments(t))
-                .max()
-                .unwrap_or(0),
-            Formula::Order { args, .. } | Formula::Range(args) => args
-                .iter()
-                .map(most_arguments)
+                .map(most_pieces)
                 .max()
                 .unwrap_or(0)
-                .max(args.len()),
+                .max(order_piece_count(Some(*stat), args.len())),
+            Formula::Range(args) => args
+                .iter()
+                .map(most_pieces)
+                .max()
+                .unwrap_or(0)
+                .max(order_piece_count(None, args.len())),
         }
     }
-    let k = std::iter::once(&model.output_formula)
+    std::iter::once(&model.output_formula)
         .chain(model.checks.iter().map(|c| &c.formula))
-        .map(most_arguments)
+        .map(most_pieces)
         .max()
-        .unwrap_or(0);
-    (1..=k).fold(1usize, |f, i| f.saturating_mul(i))
+        .unwrap_or(0)
 }
 
 #[cfg(test)]

@@ -5,6 +5,8 @@
 //! The residual `p_vu` is a sum of polytopes of its own (output outside, every check
 //! quiet): it is integrated directly, never obtained as a difference of large numbers.
 
+use rayon::prelude::*;
+
 use crate::model::{Detection, Guard, LinearForm};
 use crate::prob::polytope::{Band, Gaussian, Polytope, Tolerance};
 use crate::prob::{Estimate, tolerance};
@@ -216,9 +218,16 @@ impl Evaluator {
         figure: Figure,
         tolerance: &Tolerance,
     ) -> Result<Estimate, AnalysisError> {
+        // The polytopes are independent: computed in parallel, summed in their fixed order,
+        // so the total has the same bits whatever the thread count.
+        let parts: Vec<Result<Estimate, AnalysisError>> = self
+            .polytopes(figure)
+            .par_iter()
+            .map(|poly| probability_at(gaussian, poly, figure, tolerance))
+            .collect();
         let mut total = Estimate::zero();
-        for poly in self.polytopes(figure) {
-            total = total.add(probability_at(gaussian, poly, figure, tolerance)?);
+        for part in parts {
+            total = total.add(part?);
         }
         Ok(total.clamp_probability())
     }

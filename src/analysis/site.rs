@@ -439,31 +439,29 @@ pub(crate) fn uniform_total(
     range: (f64, f64),
     options: &AnalysisOptions,
     label: &str,
-    probability: &dyn Fn(&Gaussian, &Polytope) -> Result<Estimate, AnalysisError>,
+    probability: &(dyn Fn(&Gaussian, &Polytope) -> Result<Estimate, AnalysisError> + Sync),
 ) -> Result<Estimate, AnalysisError> {
     let (lower, upper) = range;
     let width = upper - lower;
     let outside = crate::prob::normal::sf(AMPLITUDE_REACH);
-    let mut total = Estimate::zero();
-    for polytope in polytopes {
+    // Polytope by polytope, in parallel; summed in their fixed order, so the total has the
+    // same bits whatever the thread count.
+    let one = |polytope: &Polytope| -> Result<Estimate, AnalysisError> {
         // One random direction left (one of two channels replaced): closed form.
         if let Some(mean) =
             mean_over_uniform_shift(&scenario.base, polytope, &scenario.direction, lower, upper)
         {
-            total = total.add(mean.scale(width));
-            continue;
+            return Ok(mean.scale(width));
         }
         let Some(window) = amplitude_window(polytope, scenario, lower, upper) else {
-            total = total.add(Estimate::new(0.0, outside * width));
-            continue;
+            return Ok(Estimate::new(0.0, outside * width));
         };
         let span = window.upper - window.lower;
         let beyond = Estimate::new(0.0, outside * (width - span).max(0.0));
         if !window.moving {
             let g = scenario.at_amplitude(window.lower)?;
             let p = probability(&g, polytope)?;
-            total = total.add(p.scale(span)).add(beyond);
-            continue;
+            return Ok(p.scale(span).add(beyond));
         }
         let mut quad = options.quadrature();
         quad.max_intervals += window.breakpoints.len();
@@ -480,9 +478,12 @@ pub(crate) fn uniform_total(
             &quad,
         )
         .map_err(|e| AnalysisError::engine(format!("integral of {label} over the amplitude"), e))?;
-        total = total
-            .add(Estimate::new(integral.value, integral.error))
-            .add(beyond);
+        Ok(Estimate::new(integral.value, integral.error).add(beyond))
+    };
+    let parts: Vec<Result<Estimate, AnalysisError>> = polytopes.par_iter().map(one).collect();
+    let mut total = Estimate::zero();
+    for part in parts {
+        total = total.add(part?);
     }
     Ok(total)
 }
@@ -656,12 +657,20 @@ fn worst_case(
     let at = |s: f64| -> Result<Outcome, AnalysisError> {
         Ok(engine.outcome(Scenario::Gaussian(scenario, mean, s))?.0)
     };
-    let centre = at(sigma)?;
     // The location of the maximum is known to sigma_rel_tol: the figures may move by as much
-    // as they do over that distance, so widen every bound by it.
+    // as they do over that distance, so widen every bound by it. The three sigmas are
+    // independent and computed in parallel.
     let step = options.sigma_rel_tol.max(MIN_WIDENING_STEP_REL);
-    let left = at((sigma * (1.0 - step)).max(lo))?;
-    let right = at((sigma * (1.0 + step)).min(hi))?;
+    let (centre, (left, right)) = rayon::join(
+        || at(sigma),
+        || {
+            rayon::join(
+                || at((sigma * (1.0 - step)).max(lo)),
+                || at((sigma * (1.0 + step)).min(hi)),
+            )
+        },
+    );
+    let (centre, left, right) = (centre?, left?, right?);
     let outcome = centre.widened(|f| {
         let c = centre.get(f).value;
         (left.get(f).value - c)

@@ -11,7 +11,7 @@ use nalgebra::DMatrix;
 use super::compiled::*;
 use super::error::Sink;
 use super::limits;
-use super::pieces::{Builder, OrderKind, PieceError, Pw};
+use super::pieces::{Builder, OrderKind, PieceError, Pw, rank_pattern_count};
 use super::resolved::*;
 use super::text::linear_formula;
 
@@ -136,6 +136,15 @@ pub(crate) fn compile(v: &Resolved, order: &[usize], sink: &mut Sink<'_>) -> Opt
     })
 }
 
+/// The piece builder's kind of an order statistic.
+fn order_kind(stat: Stat) -> OrderKind {
+    match stat {
+        Stat::Median => OrderKind::Median,
+        Stat::Min => OrderKind::Min,
+        Stat::Max => OrderKind::Max,
+    }
+}
+
 /// The linear pieces of every signal, the output and every check, or the first limit
 /// that building them passes.
 #[allow(clippy::type_complexity)]
@@ -145,13 +154,13 @@ fn all_pieces(
     order: &[usize],
     n: usize,
 ) -> Result<(Vec<PiecewiseLinear>, PiecewiseLinear, Vec<PiecewiseLinear>), PieceError> {
-    // k arguments give at least k! pieces: refuse before building any of them.
+    // An order statistic of k arguments has at least its rank patterns as pieces: refuse
+    // before building any of them.
     let too_many = |def: &FnDef| match def {
-        FnDef::Order(_, rs) | FnDef::Range(rs) => (1..=rs.len())
-            .try_fold(1usize, |f, k| {
-                f.checked_mul(k).filter(|p| *p <= limits::MAX_PIECES)
-            })
-            .is_none(),
+        FnDef::Order(stat, rs) => {
+            rank_pattern_count(rs.len(), order_kind(*stat)) > limits::MAX_PIECES
+        }
+        FnDef::Range(rs) => rank_pattern_count(rs.len(), OrderKind::Range) > limits::MAX_PIECES,
         _ => false,
     };
     let defs = v
@@ -314,12 +323,7 @@ fn build(
         FnDef::Order(stat, rs) => {
             let rs = sorted(rs);
             let args: Vec<&Pw> = rs.iter().map(pw).collect();
-            let kind = match stat {
-                Stat::Median => OrderKind::Median,
-                Stat::Min => OrderKind::Min,
-                Stat::Max => OrderKind::Max,
-            };
-            b.order(&args, kind)
+            b.order(&args, order_kind(*stat))
         }
         FnDef::Range(rs) => {
             let rs = sorted(rs);

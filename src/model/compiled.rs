@@ -81,6 +81,66 @@ impl Guard {
     }
 }
 
+/// True when two or three of `guards` cannot hold together: their forms add up, exactly
+/// (the sums checked to be free of rounding), to a constant that is negative, or zero while
+/// one of them is strict. `f + g + h = c` with `f, g, h >= 0` and `c < 0` is impossible, and
+/// so is `c = 0` with `h > 0`; for two guards this includes a guard and its exact negation.
+/// Order statistics over the same readings say "a before b", "b before c" and "c before a"
+/// this way (a reading that is another plus a constant gives `c < 0`), a cycle that no pair
+/// of guards shows. Used to drop empty products of pieces; a missed case only costs an
+/// empty piece, which the engine proves empty later.
+pub fn guards_contradict(guards: &[&Guard]) -> bool {
+    let n = guards.len();
+    let zero = Guard {
+        form: LinearForm::zero(guards.first().map_or(0, |g| g.form.coeffs.len())),
+        strict: false,
+    };
+    for i in 0..n {
+        for j in i + 1..n {
+            let (a, b) = (guards[i], guards[j]);
+            if cannot_hold_together(a, b, &zero) {
+                return true;
+            }
+            for c in &guards[j + 1..] {
+                if cannot_hold_together(a, b, c) {
+                    return true;
+                }
+            }
+        }
+    }
+    false
+}
+
+/// Whether `a`, `b` and `c` sum to a constant form whose value rules them out together
+/// (see [`guards_contradict`]); `false` whenever a sum is not exact.
+fn cannot_hold_together(a: &Guard, b: &Guard, c: &Guard) -> bool {
+    /// `x + y + z` when `x + y` is exact (its rounding error, by Knuth's two-sum, zero):
+    /// then the last addition is correctly rounded and has the exact sum's sign.
+    fn exact_sum(x: f64, y: f64, z: f64) -> Option<f64> {
+        let s = x + y;
+        let y_part = s - x;
+        let error = (x - (s - y_part)) + (y - y_part);
+        (error == 0.0).then_some(s + z)
+    }
+    let (fa, fb, fc) = (&a.form, &b.form, &c.form);
+    if fa.coeffs.len() != fb.coeffs.len() || fb.coeffs.len() != fc.coeffs.len() {
+        return false;
+    }
+    let cancel = fa
+        .coeffs
+        .iter()
+        .zip(&fb.coeffs)
+        .zip(&fc.coeffs)
+        .all(|((x, y), z)| exact_sum(*x, *y, *z) == Some(0.0));
+    if !cancel {
+        return false;
+    }
+    match exact_sum(fa.constant, fb.constant, fc.constant) {
+        Some(total) => total < 0.0 || (total == 0.0 && (a.strict || b.strict || c.strict)),
+        None => false,
+    }
+}
+
 /// One linear piece: `value(x)` wherever all guards hold.
 #[derive(Debug, Clone, PartialEq)]
 pub struct Piece {

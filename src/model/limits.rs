@@ -3,9 +3,10 @@
 
 /// Most channels (the dimension of the gaussian vector the engine integrates).
 pub const MAX_CHANNELS: usize = 16;
-/// Most arguments of an order statistic (median, min, max) or a range check. Up to
-/// seven (7! = 5040 = `MAX_PIECES`) the polytope engine can multiply them out; beyond,
-/// only the order-statistic engine (`prob::order`) analyses them.
+/// Most arguments of an order statistic (median, min, max) or a range check. While their
+/// rank patterns stay within `MAX_PIECES` (every min, max and range; medians of up to
+/// eleven) the polytope engine can multiply them out; beyond, only the order-statistic
+/// engine (`prob::order`) analyses them.
 pub const MAX_ORDER_ARGS: usize = 16;
 /// Most shared sources.
 pub const MAX_SOURCES: usize = 64;
@@ -15,7 +16,8 @@ pub const MAX_SIGNALS: usize = 64;
 pub const MAX_CHECKS: usize = 32;
 /// Most fault sites.
 pub const MAX_FAULTS: usize = 1000;
-/// Most linear pieces of one compiled function (7! = 5040: a median of seven).
+/// Most linear pieces of one compiled function (a median of eleven has 2772, of twelve
+/// 16632).
 pub const MAX_PIECES: usize = 5040;
 /// Most pairs of pieces examined when multiplying out piecewise functions.
 pub const MAX_PRODUCT_PAIRS: usize = 2_000_000;

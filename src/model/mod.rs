@@ -40,11 +40,12 @@ pub use bands::{BandForm, CheckBand};
 pub use compiled::{
     Amplitude, Architecture, CompiledCheck, CompiledFault, CompiledModel, DegradedModel, Detection,
     FaultMode, Formula, Guard, Isolation, IsolationRule, LinearForm, OrderStat, Piece,
-    PiecewiseLinear, Timing,
+    PiecewiseLinear, Timing, guards_contradict,
 };
 pub use error::{Diagnostic, ModelError, Severity};
 pub use faults::default_sigma_range;
 pub use graph::{GraphNode, ModelGraph, NodeKind};
+pub use pieces::order_piece_count;
 
 /// Compiles a degraded architecture (derived, so valid by construction); its warnings are
 /// dropped (they would name spans of the full file).

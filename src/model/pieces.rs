@@ -1,8 +1,11 @@
 //! Building piecewise-linear functions: linear forms, order statistics (median, min, max,
 //! range) and linear combinations of piecewise functions.
 //!
-//! An order statistic of k arguments has one piece per total ordering of the arguments (k!
-//! pieces), each carrying all k(k-1)/2 pairwise guards. For arguments p < q (by position in
+//! An order statistic of k arguments has one piece per rank pattern that decides its value
+//! (which argument is the minimum; which two are the minimum and the maximum of a range;
+//! which is the middle, or the middle pair, of a median and which lie below it), not one
+//! per ordering: 12 pieces for a range or an even median of four where the orderings are 24.
+//! A piece's guards compare neighbouring blocks of its pattern. For arguments p < q (by position in
 //! the canonical order of readings: channels in file order, then signals in file order) with
 //! `d = arg_q - arg_p`, the ordering that puts p first has the guard `d >= 0` and the one that
 //! puts q first has `-d > 0`: ties go to the lower position, so every point lies in exactly
@@ -10,14 +13,15 @@
 //! for bit, zeros stored as +0.0), which the analysis uses to find empty intersections.
 //!
 //! A linear combination of piecewise functions multiplies out their pieces; a pair of pieces
-//! whose guards hold a guard and its exact negation is empty and dropped; identical guards are
+//! whose guards hold a guard and its exact negation, or two or three guards whose forms
+//! cancel with one strict (a cycle, [`guards_contradict`]), is empty and dropped; identical guards are
 //! merged (the same argument pair always yields the same guard, since it is built from the
 //! same forms by the same arithmetic). Guards are interned so that these tests are integer
 //! comparisons.
 
 use std::collections::HashMap;
 
-use super::compiled::{Guard, LinearForm, Piece, PiecewiseLinear};
+use super::compiled::{Guard, LinearForm, OrderStat, Piece, PiecewiseLinear, guards_contradict};
 use super::limits::{MAX_PIECES, MAX_PRODUCT_PAIRS};
 
 /// Why a function could not be built.
@@ -125,22 +129,173 @@ fn combine_forms(terms: &[(f64, &LinearForm)], constant: f64, n: usize) -> Linea
     out
 }
 
-/// All permutations of `0..k` in lexicographic order.
-fn permutations(k: usize) -> Vec<Vec<usize>> {
-    let mut p: Vec<usize> = (0..k).collect();
-    let mut out = vec![p.clone()];
+/// The arguments of an order statistic split into blocks, every argument of a block before
+/// every argument of the next, and the value as weights on arguments: the rank pattern that
+/// decides the statistic. "Before" is the strict total order of the readings with ties
+/// broken by position, so every point has exactly one ordering and lies in exactly one
+/// pattern of each kind.
+#[derive(Debug, Clone, PartialEq)]
+struct RankPattern {
+    blocks: Vec<Vec<usize>>,
+    value: Vec<(f64, usize)>,
+}
+
+/// `n choose r`, saturating.
+fn choose(n: usize, r: usize) -> usize {
+    if r > n {
+        return 0;
+    }
+    let r = r.min(n - r);
+    let mut out: usize = 1;
+    for i in 0..r {
+        out = out.saturating_mul(n - i) / (i + 1);
+    }
+    out
+}
+
+/// How many rank patterns [`rank_patterns`] gives, without building them.
+pub(crate) fn rank_pattern_count(k: usize, kind: OrderKind) -> usize {
+    match kind {
+        _ if k <= 1 => 1,
+        OrderKind::Min | OrderKind::Max => k,
+        OrderKind::Range => k * (k - 1),
+        OrderKind::Median if k % 2 == 1 => k.saturating_mul(choose(k - 1, k / 2)),
+        OrderKind::Median => choose(k, 2).saturating_mul(choose(k - 2, k / 2 - 1)),
+    }
+}
+
+/// The pieces an order statistic `stat` (a range for `None`) of `k` arguments compiles to,
+/// at least (each combination with the pieces of its arguments adds more).
+pub fn order_piece_count(stat: Option<OrderStat>, k: usize) -> usize {
+    let kind = match stat {
+        None => OrderKind::Range,
+        Some(OrderStat::Median) => OrderKind::Median,
+        Some(OrderStat::Min) => OrderKind::Min,
+        Some(OrderStat::Max) => OrderKind::Max,
+    };
+    rank_pattern_count(k, kind)
+}
+
+/// The rank patterns of an order statistic of `k` arguments: the pieces it needs.
+/// - min (max): which argument is first (last): `k` patterns;
+/// - range: which is first and which is last: `k (k - 1)`;
+/// - median of odd `k`: which is the middle and which lie below it: `k C(k-1, (k-1)/2)`;
+/// - median of even `k` (the mean of the middle two): which pair is in the middle and which
+///   lie below it: `C(k, 2) C(k-2, k/2-1)`.
+///
+/// Every ordering of the arguments falls in exactly one pattern, and the statistic is the
+/// same linear form on all of them, so these pieces are the orderings merged where the
+/// value agrees (`k!` orderings before: 24 for four arguments, where a range or an even
+/// median needs 12).
+fn rank_patterns(k: usize, kind: OrderKind) -> Vec<RankPattern> {
+    let all: Vec<usize> = (0..k).collect();
+    let without = |skip: &[usize]| -> Vec<usize> {
+        all.iter().copied().filter(|i| !skip.contains(i)).collect()
+    };
+    let mut out = Vec::new();
+    if k == 1 {
+        let value = match kind {
+            OrderKind::Range => Vec::new(),
+            _ => vec![(1.0, 0)],
+        };
+        out.push(RankPattern {
+            blocks: vec![vec![0]],
+            value,
+        });
+        return out;
+    }
+    match kind {
+        OrderKind::Min => {
+            for i in 0..k {
+                out.push(RankPattern {
+                    blocks: vec![vec![i], without(&[i])],
+                    value: vec![(1.0, i)],
+                });
+            }
+        }
+        OrderKind::Max => {
+            for i in 0..k {
+                out.push(RankPattern {
+                    blocks: vec![without(&[i]), vec![i]],
+                    value: vec![(1.0, i)],
+                });
+            }
+        }
+        OrderKind::Range => {
+            for first in 0..k {
+                for last in 0..k {
+                    if first == last {
+                        continue;
+                    }
+                    let middle = without(&[first, last]);
+                    let blocks = if middle.is_empty() {
+                        vec![vec![first], vec![last]]
+                    } else {
+                        vec![vec![first], middle, vec![last]]
+                    };
+                    out.push(RankPattern {
+                        blocks,
+                        value: vec![(1.0, last), (-1.0, first)],
+                    });
+                }
+            }
+        }
+        OrderKind::Median => {
+            let middles: Vec<Vec<usize>> = if k % 2 == 1 {
+                (0..k).map(|i| vec![i]).collect()
+            } else {
+                (0..k)
+                    .flat_map(|j| (j + 1..k).map(move |l| vec![j, l]))
+                    .collect()
+            };
+            let below_count = (k - 1) / 2;
+            for middle in middles {
+                let rest = without(&middle);
+                for below in subsets(&rest, below_count) {
+                    let above: Vec<usize> = rest
+                        .iter()
+                        .copied()
+                        .filter(|i| !below.contains(i))
+                        .collect();
+                    let mut blocks = Vec::with_capacity(3);
+                    if !below.is_empty() {
+                        blocks.push(below);
+                    }
+                    blocks.push(middle.clone());
+                    if !above.is_empty() {
+                        blocks.push(above);
+                    }
+                    let value = if middle.len() == 1 {
+                        vec![(1.0, middle[0])]
+                    } else {
+                        middle.iter().map(|i| (0.5, *i)).collect()
+                    };
+                    out.push(RankPattern { blocks, value });
+                }
+            }
+        }
+    }
+    out
+}
+
+/// Every subset of `items` with `size` elements, in lexicographic order of positions.
+fn subsets(items: &[usize], size: usize) -> Vec<Vec<usize>> {
+    let n = items.len();
+    if size > n {
+        return Vec::new();
+    }
+    let mut out = Vec::new();
+    let mut idx: Vec<usize> = (0..size).collect();
     loop {
-        // next permutation (Knuth, TAOCP 7.2.1.2, Algorithm L)
-        let Some(i) = (1..k).rev().find(|&i| p[i - 1] < p[i]) else {
+        out.push(idx.iter().map(|i| items[*i]).collect());
+        // next combination: the rightmost index that can still move
+        let Some(i) = (0..size).rev().find(|&i| idx[i] < n - size + i) else {
             return out;
         };
-        let i = i - 1;
-        let Some(j) = (i + 1..k).rev().find(|&j| p[j] > p[i]) else {
-            return out;
-        };
-        p.swap(i, j);
-        p[i + 1..].reverse();
-        out.push(p.clone());
+        idx[i] += 1;
+        for j in i + 1..size {
+            idx[j] = idx[j - 1] + 1;
+        }
     }
 }
 
@@ -218,6 +373,13 @@ impl Builder {
                 return None;
             }
         }
+        let spelled: Vec<&Guard> = out
+            .iter()
+            .filter_map(|id| self.guards.get(*id as usize))
+            .collect();
+        if guards_contradict(&spelled) {
+            return None;
+        }
         Some(out)
     }
 
@@ -277,16 +439,24 @@ impl Builder {
     }
 
     /// An order statistic of `args` (given in canonical order).
+    ///
+    /// One piece per rank pattern that decides the value (see [`rank_patterns`]), not per
+    /// ordering: the guards say which arguments come before which, between neighbouring
+    /// blocks of the pattern only (the rest follows by transitivity).
     pub(crate) fn order(&mut self, args: &[&Pw], kind: OrderKind) -> Result<Pw, PieceError> {
         let k = args.len();
         if k == 0 {
             return Ok(self.linear(LinearForm::zero(self.n)));
         }
+        let count = rank_pattern_count(k, kind);
+        if count > MAX_PIECES {
+            return Err(PieceError::TooManyPieces);
+        }
         let combos = self.product(args)?;
-        let perms = permutations(k);
-        if perms.len().saturating_mul(combos.len()) > MAX_PRODUCT_PAIRS {
+        if count.saturating_mul(combos.len()) > MAX_PRODUCT_PAIRS {
             return Err(PieceError::TooManyPairs);
         }
+        let patterns = rank_patterns(k, kind);
         let mut pieces = Vec::new();
         for (base, vals) in combos {
             // pair guards: (p, q) -> (guard when p comes first, guard when q comes first)
@@ -306,20 +476,20 @@ impl Builder {
                 }
                 pair.push(row);
             }
-            'perm: for perm in &perms {
-                let mut pos = vec![0usize; k];
-                for (rank, arg) in perm.iter().enumerate() {
-                    pos[*arg] = rank;
-                }
+            // the guard "a comes before b"
+            let before = |a: usize, b: usize| -> &Interned {
+                if a < b { &pair[a][b].0 } else { &pair[b][a].1 }
+            };
+            'pattern: for pattern in &patterns {
                 let mut own = Vec::new();
-                for p in 0..k {
-                    for q in p + 1..k {
-                        let (a, b) = &pair[p][q];
-                        let g = if pos[p] < pos[q] { a } else { b };
-                        match g {
-                            Interned::Always => {}
-                            Interned::Never => continue 'perm,
-                            Interned::Id(id) => own.push(*id),
+                for blocks in pattern.blocks.windows(2) {
+                    for &a in &blocks[0] {
+                        for &b in &blocks[1] {
+                            match before(a, b) {
+                                Interned::Always => {}
+                                Interned::Never => continue 'pattern,
+                                Interned::Id(id) => own.push(*id),
+                            }
                         }
                     }
                 }
@@ -328,17 +498,11 @@ impl Builder {
                 let Some(guards) = self.merge(&base, &own) else {
                     continue;
                 };
-                let v = |r: usize| &vals[perm[r]];
-                let value = match kind {
-                    OrderKind::Min => v(0).clone(),
-                    OrderKind::Max => v(k - 1).clone(),
-                    OrderKind::Range => {
-                        combine_forms(&[(1.0, v(k - 1)), (-1.0, v(0))], 0.0, self.n)
-                    }
-                    OrderKind::Median if k % 2 == 1 => v(k / 2).clone(),
-                    OrderKind::Median => {
-                        combine_forms(&[(0.5, v(k / 2 - 1)), (0.5, v(k / 2))], 0.0, self.n)
-                    }
+                let terms: Vec<(f64, &LinearForm)> =
+                    pattern.value.iter().map(|(w, i)| (*w, &vals[*i])).collect();
+                let value = match terms.as_slice() {
+                    [(w, form)] if *w == 1.0 => (*form).clone(),
+                    _ => combine_forms(&terms, 0.0, self.n),
                 };
                 pieces.push(IPiece { guards, value });
                 if pieces.len() > MAX_PIECES {
@@ -373,17 +537,85 @@ mod tests {
     use super::*;
 
     #[test]
-    fn permutations_are_all_distinct() {
-        let p = permutations(4);
-        assert_eq!(p.len(), 24); // 4! = 24
-        let mut q = p.clone();
-        q.sort();
-        q.dedup();
-        assert_eq!(q.len(), 24);
+    fn rank_patterns_are_counted_and_distinct() {
+        // Counts of the rank patterns (combinatorics, common practice): which argument is
+        // first or last, which pair of them, or which is the middle and which lie below.
+        for k in 1..=8 {
+            for kind in [
+                OrderKind::Min,
+                OrderKind::Max,
+                OrderKind::Range,
+                OrderKind::Median,
+            ] {
+                let patterns = rank_patterns(k, kind);
+                assert_eq!(patterns.len(), rank_pattern_count(k, kind), "{k} {kind:?}");
+                let mut distinct = patterns.clone();
+                distinct.dedup();
+                assert_eq!(distinct.len(), patterns.len());
+            }
+        }
+        assert_eq!(rank_pattern_count(4, OrderKind::Median), 12); // 6 pairs x 2 below
+        assert_eq!(rank_pattern_count(5, OrderKind::Median), 30); // 5 x C(4, 2)
+        assert_eq!(rank_pattern_count(16, OrderKind::Range), 240);
     }
 
     #[test]
-    fn median_of_three_has_six_pieces_with_three_guards() {
+    fn every_ordering_falls_in_exactly_one_rank_pattern() {
+        // Every ordering of five distinct readings (the 120 orderings of a small brute
+        // force) lies in one piece of each statistic, whose value is the statistic.
+        for k in 1..=5usize {
+            let mut b = Builder::new(k);
+            let args: Vec<Pw> = (0..k)
+                .map(|i| b.linear(LinearForm::coordinate(k, i)))
+                .collect();
+            let refs: Vec<&Pw> = args.iter().collect();
+            let mut x: Vec<f64> = (0..k).map(|i| i as f64).collect();
+            // Heap's algorithm over the values (order of visits does not matter)
+            let mut orderings = Vec::new();
+            permute(&mut x, k, &mut orderings);
+            for kind in [
+                OrderKind::Min,
+                OrderKind::Max,
+                OrderKind::Range,
+                OrderKind::Median,
+            ] {
+                let f = b
+                    .order(&refs, kind)
+                    .map(|pw| b.export(&pw))
+                    .unwrap_or(PiecewiseLinear { pieces: vec![] });
+                for point in &orderings {
+                    assert_eq!(f.count_containing(point), 1, "{kind:?} {point:?}");
+                    let mut sorted = point.clone();
+                    sorted.sort_by(f64::total_cmp);
+                    let want = match kind {
+                        OrderKind::Min => sorted[0],
+                        OrderKind::Max => sorted[k - 1],
+                        OrderKind::Range => sorted[k - 1] - sorted[0],
+                        OrderKind::Median if k % 2 == 1 => sorted[k / 2],
+                        OrderKind::Median => 0.5 * (sorted[k / 2 - 1] + sorted[k / 2]),
+                    };
+                    assert_eq!(f.eval(point), want, "{kind:?} {point:?}");
+                }
+                // ties lie in exactly one piece too
+                assert_eq!(f.count_containing(&vec![1.0; k]), 1);
+            }
+        }
+    }
+
+    fn permute(x: &mut Vec<f64>, m: usize, out: &mut Vec<Vec<f64>>) {
+        if m <= 1 {
+            out.push(x.clone());
+            return;
+        }
+        for i in 0..m {
+            permute(x, m - 1, out);
+            let j = if m.is_multiple_of(2) { i } else { 0 };
+            x.swap(j, m - 1);
+        }
+    }
+
+    #[test]
+    fn median_of_three_has_six_pieces_with_two_guards() {
         let mut b = Builder::new(3);
         let args: Vec<Pw> = (0..3)
             .map(|i| b.linear(LinearForm::coordinate(3, i)))
@@ -393,7 +625,7 @@ mod tests {
             .order(&refs, OrderKind::Median)
             .unwrap_or(Pw { pieces: vec![] });
         assert_eq!(m.pieces.len(), 6);
-        assert!(m.pieces.iter().all(|p| p.guards.len() == 3));
+        assert!(m.pieces.iter().all(|p| p.guards.len() == 2));
         let f = b.export(&m);
         // ties: (1, 1, 0) lies in exactly one piece, and the median is 1
         assert_eq!(f.count_containing(&[1.0, 1.0, 0.0]), 1);
