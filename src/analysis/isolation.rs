@@ -23,7 +23,7 @@ use rayon::prelude::*;
 use crate::model::{Amplitude, CompiledFault};
 use crate::model::{CompiledModel, Detection, FaultMode, IsolationRule};
 use crate::prob::Estimate;
-use crate::prob::optimise::{Stage, log_grid, scan_then_refine_staged};
+use crate::prob::optimise::log_grid;
 use crate::prob::polytope::{Band, Gaussian, Polytope, Tolerance};
 
 use super::cells::CellSet;
@@ -33,7 +33,7 @@ use super::evaluate::{Pattern, Side, polytope};
 use super::options::AnalysisOptions;
 use super::run::{Analysis, analyze};
 use super::scenario::FaultScenario;
-use super::site::{SiteResult, uniform_total};
+use super::site::{SiteResult, search_largest, uniform_total};
 
 /// The polytopes of "detected, and the rule blames class c": one class per candidate channel
 /// (in the order of the model's candidates), then one for "none blamed".
@@ -841,28 +841,12 @@ fn worst_wrong_sigma(
     if precomputed.iter().all(|v| matches!(v, Ok(w) if *w == 0.0)) {
         return Ok((fallback, false));
     }
-    let scan = scan_then_refine_staged(
-        |sigma, stage| {
-            let cached = match stage {
-                Stage::Scan => grid
-                    .iter()
-                    .position(|g| *g == sigma)
-                    .and_then(|i| precomputed.get(i)),
-                Stage::Refine => None,
-            };
-            let v = match cached {
-                Some(found) => found.clone(),
-                None => wrong_at(sigma, &full_tol),
-            };
-            v.map(|w| -w).map_err(|e| match e {
-                AnalysisError::Engine { source, .. } => source,
-                other => crate::prob::ProbError::InvalidArgument(other.to_string()),
-            })
-        },
+    let (scan, _) = search_largest(
         &grid,
-        options.sigma_rel_tol,
-        options.sigma_max_evaluations,
-        true,
+        &precomputed,
+        |sigma, _| wrong_at(sigma, &full_tol),
+        |w: &f64| *w,
+        options,
     )
     .map_err(|e| AnalysisError::engine("search of the sigma that most often blames wrongly", e))?;
     Ok(scan

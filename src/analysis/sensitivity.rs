@@ -22,7 +22,7 @@
 
 use rayon::prelude::*;
 
-use crate::model::{Amplitude, Architecture};
+use crate::model::{Amplitude, Architecture, CompiledModel};
 use crate::prob::Estimate;
 
 use super::error::AnalysisError;
@@ -129,22 +129,31 @@ fn dimensionless(key: &str) -> bool {
         || key.contains(".of.")
 }
 
-/// The analysis of `arch` with `overrides`, the unknown sigmas pinned (`pins`), and timing
+/// The model of `arch` with `overrides`, the unknown sigmas pinned (`pins`), and timing
 /// and isolation left out. `None` when the overrides make the file invalid.
+fn pinned_model(
+    arch: &Architecture,
+    pins: &[(String, f64)],
+    overrides: &[(String, f64)],
+) -> Option<CompiledModel> {
+    let mut all = pins.to_vec();
+    all.extend_from_slice(overrides);
+    let mut model = arch.with_overrides(&all).ok()?.model;
+    model.timing = None;
+    model.isolation = None;
+    Some(model)
+}
+
+/// The analysis of [`pinned_model`]; `None` when the overrides make the file invalid.
 fn pinned_analysis(
     arch: &Architecture,
     pins: &[(String, f64)],
     overrides: &[(String, f64)],
     options: &AnalysisOptions,
 ) -> Result<Option<Analysis>, AnalysisError> {
-    let mut all = pins.to_vec();
-    all.extend_from_slice(overrides);
-    let Ok(edited) = arch.with_overrides(&all) else {
+    let Some(model) = pinned_model(arch, pins, overrides) else {
         return Ok(None);
     };
-    let mut model = edited.model;
-    model.timing = None;
-    model.isolation = None;
     analyze(&model, options, false).map(Some)
 }
 
@@ -376,14 +385,9 @@ fn site_analysis(
     i: usize,
     options: &AnalysisOptions,
 ) -> Result<Option<Analysis>, AnalysisError> {
-    let mut all = pins.to_vec();
-    all.extend_from_slice(overrides);
-    let Ok(edited) = arch.with_overrides(&all) else {
+    let Some(mut model) = pinned_model(arch, pins, overrides) else {
         return Ok(None);
     };
-    let mut model = edited.model;
-    model.timing = None;
-    model.isolation = None;
     let Some(fault) = model.faults.get(i).cloned() else {
         return Ok(None);
     };

@@ -6,7 +6,7 @@ use rayon::prelude::*;
 
 use crate::model::{Amplitude, CompiledFault, FaultMode};
 use crate::prob::Estimate;
-use crate::prob::optimise::{Stage, log_grid, scan_then_refine_staged};
+use crate::prob::optimise::{Scan, Stage, log_grid, scan_then_refine_staged};
 use crate::prob::polytope::{Gaussian, Polytope};
 use crate::prob::quadrature::integrate_best_effort;
 use crate::prob::shift_average::mean_over_uniform_shift;
@@ -586,6 +586,48 @@ fn engine_of(e: AnalysisError) -> crate::prob::ProbError {
 
 type WorstFound = (WorstCase, Outcome, Option<Vec<CurvePoint>>);
 
+/// The largest value over a log grid of sigmas and the Brent refinements of its local
+/// maxima ([`scan_then_refine_staged`]), with every evaluation in the order made.
+/// `precomputed` holds `at(g, Stage::Scan)` for each grid point `g`, computed by the caller
+/// in parallel (each exactly as the scan would ask, so the result does not depend on the
+/// thread count); the scan reads them back and the refinement asks `at` afresh. `value`
+/// turns an evaluation into the number maximised.
+///
+/// # Errors
+/// The first failed evaluation the search reads, or a failure of the search itself.
+pub(crate) fn search_largest<T: Clone>(
+    grid: &[f64],
+    precomputed: &[Result<T, AnalysisError>],
+    mut at: impl FnMut(f64, Stage) -> Result<T, AnalysisError>,
+    value: impl Fn(&T) -> f64,
+    options: &AnalysisOptions,
+) -> Result<(Scan, Vec<(f64, T)>), crate::prob::ProbError> {
+    let mut evaluated = Vec::with_capacity(grid.len());
+    let scan = scan_then_refine_staged(
+        |sigma, stage| {
+            let cached = match stage {
+                Stage::Scan => grid
+                    .iter()
+                    .position(|g| *g == sigma)
+                    .and_then(|i| precomputed.get(i)),
+                Stage::Refine => None,
+            };
+            let found = match cached {
+                Some(found) => found.clone().map_err(engine_of)?,
+                None => at(sigma, stage).map_err(engine_of)?,
+            };
+            let v = value(&found);
+            evaluated.push((sigma, found));
+            Ok(-v)
+        },
+        grid,
+        options.sigma_rel_tol,
+        options.sigma_max_evaluations,
+        true,
+    )?;
+    Ok((scan, evaluated))
+}
+
 fn worst_case(
     engine: &Engine<'_>,
     scenario: &FaultScenario,
@@ -607,40 +649,22 @@ fn worst_case(
             Stage::Refine => engine.residual(at, options.polytope_rel),
         }
     };
-    // The grid points do not depend on one another: they are computed in parallel first
-    // (each exactly as the scan would, so the result does not depend on the thread count),
-    // and the scan reads them back.
     let precomputed: Vec<Result<Estimate, AnalysisError>> = grid
         .par_iter()
         .map(|&sigma| residual_at(sigma, Stage::Scan))
         .collect();
-    let mut scan_values = Vec::with_capacity(grid.len());
-    let scan = scan_then_refine_staged(
-        |sigma, stage| {
-            let cached = match stage {
-                Stage::Scan => grid
-                    .iter()
-                    .position(|g| *g == sigma)
-                    .and_then(|i| precomputed.get(i)),
-                Stage::Refine => None,
-            };
-            let r = match cached {
-                Some(found) => found.clone().map_err(engine_of)?,
-                None => residual_at(sigma, stage).map_err(engine_of)?,
-            };
-            scan_values.push((sigma, r));
-            Ok(-r.value)
-        },
+    let (scan, evaluated) = search_largest(
         &grid,
-        options.sigma_rel_tol,
-        options.sigma_max_evaluations,
-        true,
+        &precomputed,
+        residual_at,
+        |r: &Estimate| r.value,
+        options,
     )
     .map_err(|e| AnalysisError::engine("search of the worst fault sigma", e))?;
     // Keep the grid part of the evaluations, in grid order, for the report.
     let mut scan_grid: Vec<(f64, Estimate)> = Vec::with_capacity(grid.len());
     for g in &grid {
-        if let Some(found) = scan_values.iter().find(|(s, _)| s == g) {
+        if let Some(found) = evaluated.iter().find(|(s, _)| s == g) {
             scan_grid.push(*found);
         }
     }
