@@ -324,7 +324,7 @@ pub fn episode_rate_sensitivity(rule: &Debounce, p: f64, error: f64) -> Result<f
 
 fn window_rate(count: usize, window: usize, p: f64) -> f64 {
     let ways = binomial(window - 1, count - 1);
-    ways * p.powi(count as i32) * (1.0 - p).powi((window - count + 1) as i32)
+    ways * super::int_pow(p, count as u32) * super::int_pow(1.0 - p, (window - count + 1) as u32)
 }
 
 /// `C(n, k)` as a float (exact for the sizes of [`MAX_WINDOW`]).
@@ -450,8 +450,10 @@ mod tests {
         // (p / (1 - p))^l (detailed balance, common practice); entering L = pi_{L-1} p.
         let (p, trip) = (0.2, 4);
         let rho: f64 = p / (1.0 - p);
-        let norm: f64 = (0..=trip).map(|l| rho.powi(l as i32)).sum();
-        let expected = rho.powi(trip as i32 - 1) / norm * p;
+        let norm: f64 = (0..=trip)
+            .map(|l| crate::prob::int_pow(rho, l as u32))
+            .sum();
+        let expected = crate::prob::int_pow(rho, trip as u32 - 1) / norm * p;
         let got = counter_rate(1, 1, trip, p);
         assert!(
             (got - expected).abs() <= 1e-15 * expected,

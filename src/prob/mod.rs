@@ -49,3 +49,15 @@ pub mod vector_quadrature;
 
 pub use error::ProbError;
 pub use estimate::Estimate;
+
+/// `x^n` by repeated multiplication in a fixed order. `f64::powi` is documented as of
+/// unspecified precision, and the compiler folds it differently from the runtime routine,
+/// so the same source gave results one unit in the last place apart in two builds; plain
+/// products are rounded once each by IEEE 754 and give the same bits in every build.
+pub fn int_pow(x: f64, n: u32) -> f64 {
+    let mut result = 1.0;
+    for _ in 0..n {
+        result *= x;
+    }
+    result
+}

@@ -5,6 +5,7 @@
 use crate::analysis::{AnalysisOptions, analyze};
 use crate::model::load_str;
 use crate::prob::debounce::Debounce;
+use crate::prob::int_pow;
 
 use super::whole::outside;
 use super::{Case, Measure, ReferenceData};
@@ -19,7 +20,7 @@ const FELLER: &str = "Feller, An Introduction to Probability Theory, vol. 1, 3rd
 /// `(1 - p^r s^r) / (1 - s + q p^r s^(r+1))` as a recurrence.
 fn no_run(p: f64, r: usize, n: usize) -> f64 {
     let q = 1.0 - p;
-    let pr = p.powi(r as i32);
+    let pr = int_pow(p, r as u32);
     let mut v = vec![0.0f64; n + 1];
     for k in 0..=n {
         let prev = if k >= 1 { v[k - 1] } else { 0.0 };
@@ -61,7 +62,7 @@ pub fn timing_cases(_data: &ReferenceData) -> Vec<Case> {
         ));
     }
     for (p, r) in [(0.5f64, 3usize), (0.7, 4)] {
-        let reference = (1.0 - p.powi(r as i32)) / ((1.0 - p) * p.powi(r as i32));
+        let reference = (1.0 - int_pow(p, r as u32)) / ((1.0 - p) * int_pow(p, r as u32));
         let computed = Debounce::Consecutive { count: r }
             .chain()
             .map(|c| {

@@ -6,6 +6,7 @@ use rayon::prelude::*;
 use serde::Deserialize;
 
 use crate::model::load_str;
+use crate::prob::int_pow;
 
 use super::super::montecarlo::{MonteCarloOptions, verify};
 use super::super::options::AnalysisOptions;
@@ -256,7 +257,7 @@ pub fn order_statistic_cases(_data: &ReferenceData) -> Vec<Case> {
                 for i in 0..j {
                     c = c * (n - i) as f64 / (i + 1) as f64;
                 }
-                reference += c * q.powi(j as i32) * (1.0 - q).powi((n - j) as i32);
+                reference += c * int_pow(q, j as u32) * int_pow(1.0 - q, (n - j) as u32);
             }
             let computed = ordered_residual(run_file(&iid_median_file(n, t), "iid-median.toml"));
             cases.push(Case::new(
@@ -284,7 +285,9 @@ pub fn order_statistic_cases(_data: &ReferenceData) -> Vec<Case> {
         for t in ORDER_LIMITS {
             let g = |u: f64| {
                 let density = (-0.5 * u * u).exp() / (2.0 * std::f64::consts::PI).sqrt();
-                phi(u).powi(m as i32 - 1) * density * (1.0 - phi(u.max(2.0 * t - u))).powi(m as i32)
+                int_pow(phi(u), m as u32 - 1)
+                    * density
+                    * int_pow(1.0 - phi(u.max(2.0 * t - u)), m as u32)
             };
             let reference = factor * (simpson(&g, -10.0, t) + simpson(&g, t, 10.0));
             let computed = ordered_residual(run_file(&iid_median_file(n, t), "iid-median.toml"));
