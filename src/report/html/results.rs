@@ -282,7 +282,13 @@ pub(super) fn metrics(o: &mut String, doc: &AnalysisJson) {
     let m = &doc.metrics;
     section_start(o, "metrics", 8, "Hardware metrics against the ASIL targets");
     o.push_str("<p>Targets of ISO 26262-5:2018 Tables 4 to 6, recalled, not checked against the published text: check them against the standard in force. The residual rate is the single-point part of the PMHF only. A target counts as met only when the value minus its error bound meets it (for the residual rate: the value plus its bound stays below it), so that numerical error never lifts a design a level; every mark, the column “reached”, the summary of section 1, the terminal output and the JSON use this one rule.</p>\n");
-    o.push_str(r#"<table class="wide metrics"><thead><tr><th>metric</th><th class="num">value</th><th>ASIL B</th><th>ASIL C</th><th>ASIL D</th><th>reached</th></tr></thead><tbody>"#);
+    let worst = worst_over_box(doc);
+    if worst.is_some() {
+        o.push_str("<p>The file states tolerances of its inputs (section 11): every mark and the column “reached” judge the worst value over the box of tolerances, not the value with the inputs as written, which is shown beside it.</p>\n");
+        o.push_str(r#"<table class="wide metrics"><thead><tr><th>metric</th><th class="num">value as written</th><th class="num">worst over the tolerances</th><th>ASIL B</th><th>ASIL C</th><th>ASIL D</th><th>reached</th></tr></thead><tbody>"#);
+    } else {
+        o.push_str(r#"<table class="wide metrics"><thead><tr><th>metric</th><th class="num">value</th><th>ASIL B</th><th>ASIL C</th><th>ASIL D</th><th>reached</th></tr></thead><tbody>"#);
+    }
     let target_cells =
         |value: f64, error: f64, targets: &[(Asil, f64)], minimum: bool, unit: &str| {
             let mut s = String::new();
@@ -296,23 +302,71 @@ pub(super) fn metrics(o: &mut String, doc: &AnalysisJson) {
             }
             s
         };
+    // The value the verdicts judge, its cell beside the value as written, and the verdict.
+    let judged = |written: (f64, f64),
+                  over_box: Option<&JudgedMetric>,
+                  key: &str,
+                  percent: bool,
+                  nominal_label: &str|
+     -> ((f64, f64), String, String) {
+        match over_box {
+            Some(w) => {
+                let shown = if percent {
+                    percent_cell(key, w.value, Some(w.error), " %")
+                } else {
+                    cell(
+                        key,
+                        w.value,
+                        &format!("{} FIT", fit(w.value)),
+                        Some(w.error),
+                        &sci_html(&bound(w.error)),
+                    )
+                };
+                ((w.value, w.error), shown, w.label.clone())
+            }
+            None => (written, String::new(), nominal_label.to_string()),
+        }
+    };
+    let (spfm_judged, spfm_box, spfm_label) = judged(
+        (m.spfm, m.error.spfm),
+        worst.as_ref().map(|w| &w.spfm),
+        "tolerances/lowest/spfm",
+        true,
+        &m.asil_spfm,
+    );
     let _ = writeln!(
         o,
-        "<tr><th scope=\"row\">SPFM</th>{}{}<td>{}</td></tr>",
+        "<tr><th scope=\"row\">SPFM</th>{}{}{}<td>{}</td></tr>",
         percent_cell("metrics/spfm", m.spfm, Some(m.error.spfm), " %"),
-        target_cells(m.spfm, m.error.spfm, &SPFM_TARGETS, true, "%"),
-        esc(&m.asil_spfm)
+        spfm_box,
+        target_cells(spfm_judged.0, spfm_judged.1, &SPFM_TARGETS, true, "%"),
+        esc(&spfm_label)
+    );
+    let (lfm_judged, lfm_box, lfm_label) = judged(
+        (m.lfm, m.error.lfm),
+        worst.as_ref().map(|w| &w.lfm),
+        "tolerances/lowest/lfm",
+        true,
+        &m.asil_lfm,
     );
     let _ = writeln!(
         o,
-        "<tr><th scope=\"row\">LFM</th>{}{}<td>{}</td></tr>",
+        "<tr><th scope=\"row\">LFM</th>{}{}{}<td>{}</td></tr>",
         percent_cell("metrics/lfm", m.lfm, Some(m.error.lfm), " %"),
-        target_cells(m.lfm, m.error.lfm, &LFM_TARGETS, true, "%"),
-        esc(&m.asil_lfm)
+        lfm_box,
+        target_cells(lfm_judged.0, lfm_judged.1, &LFM_TARGETS, true, "%"),
+        esc(&lfm_label)
+    );
+    let (rate_judged, rate_box, rate_label) = judged(
+        (m.residual_fit, m.error.residual_fit),
+        worst.as_ref().map(|w| &w.residual),
+        "tolerances/highest/residual_fit",
+        false,
+        &m.asil_residual_budget,
     );
     let _ = writeln!(
         o,
-        "<tr><th scope=\"row\">residual rate</th>{}{}<td>{}</td></tr>",
+        "<tr><th scope=\"row\">residual rate</th>{}{}{}<td>{}</td></tr>",
         cell(
             "metrics/residual_fit",
             m.residual_fit,
@@ -320,14 +374,15 @@ pub(super) fn metrics(o: &mut String, doc: &AnalysisJson) {
             Some(m.error.residual_fit),
             &sci_html(&bound(m.error.residual_fit))
         ),
+        rate_box,
         target_cells(
-            m.residual_fit,
-            m.error.residual_fit,
+            rate_judged.0,
+            rate_judged.1,
             &PMHF_TARGETS_FIT,
             false,
             "FIT"
         ),
-        esc(&m.asil_residual_budget)
+        esc(&rate_label)
     );
     o.push_str("</tbody></table>\n");
     o.push_str(r#"<table class="kv"><tbody>"#);
@@ -366,4 +421,46 @@ pub(super) fn metrics(o: &mut String, doc: &AnalysisJson) {
         );
     }
     o.push_str("</tbody></table>\n</section>\n");
+}
+
+/// A metric's worst value over the box of tolerances, with its bound and the ASIL it reaches.
+pub(super) struct JudgedMetric {
+    pub value: f64,
+    pub error: f64,
+    pub label: String,
+}
+
+/// The worst SPFM, LFM (their lowest) and residual rate (its highest) over the box of
+/// tolerances, when the analysis has one: what the verdicts of sections 1 and 8 judge.
+pub(super) struct WorstOverBox {
+    pub spfm: JudgedMetric,
+    pub lfm: JudgedMetric,
+    pub residual: JudgedMetric,
+}
+
+pub(super) fn worst_over_box(doc: &AnalysisJson) -> Option<WorstOverBox> {
+    let t = doc.tolerances.as_ref()?;
+    let metric = |key: &str| {
+        t.figures
+            .iter()
+            .find(|f| f.site.is_none() && f.figure == key)
+    };
+    let (spfm, lfm, rate) = (metric("spfm")?, metric("lfm")?, metric("residual_fit")?);
+    Some(WorstOverBox {
+        spfm: JudgedMetric {
+            value: spfm.lowest,
+            error: spfm.lowest_error,
+            label: t.asil_spfm.clone(),
+        },
+        lfm: JudgedMetric {
+            value: lfm.lowest,
+            error: lfm.lowest_error,
+            label: t.asil_lfm.clone(),
+        },
+        residual: JudgedMetric {
+            value: rate.highest,
+            error: rate.highest_error,
+            label: t.asil_residual_budget.clone(),
+        },
+    })
 }

@@ -29,13 +29,31 @@ pub(super) fn summary(o: &mut String, doc: &AnalysisJson) {
             note
         );
     };
+    // With tolerances of the inputs the verdicts judge the worst value over their box.
+    let worst_box = super::results::worst_over_box(doc);
+    let note = |label: &str, worst: Option<(String, &str)>| match worst {
+        Some((shown, verdict)) => format!(
+            "{} (worst over the tolerances: {})",
+            asil_note(verdict),
+            esc(&shown)
+        ),
+        None => asil_note(label),
+    };
     fig(
         o,
         "SPFM",
         "metrics/spfm",
         m.spfm,
         format!("{} %", percent_floor(m.spfm)),
-        asil_note(&m.asil_spfm),
+        note(
+            &m.asil_spfm,
+            worst_box.as_ref().map(|w| {
+                (
+                    format!("{} %", percent_floor(w.spfm.value)),
+                    w.spfm.label.as_str(),
+                )
+            }),
+        ),
     );
     fig(
         o,
@@ -43,7 +61,15 @@ pub(super) fn summary(o: &mut String, doc: &AnalysisJson) {
         "metrics/lfm",
         m.lfm,
         format!("{} %", percent_floor(m.lfm)),
-        asil_note(&m.asil_lfm),
+        note(
+            &m.asil_lfm,
+            worst_box.as_ref().map(|w| {
+                (
+                    format!("{} %", percent_floor(w.lfm.value)),
+                    w.lfm.label.as_str(),
+                )
+            }),
+        ),
     );
     fig(
         o,
@@ -51,7 +77,15 @@ pub(super) fn summary(o: &mut String, doc: &AnalysisJson) {
         "metrics/residual_fit",
         m.residual_fit,
         format!("{} FIT", fit(m.residual_fit)),
-        asil_note(&m.asil_residual_budget),
+        note(
+            &m.asil_residual_budget,
+            worst_box.as_ref().map(|w| {
+                (
+                    format!("{} FIT", fit(w.residual.value)),
+                    w.residual.label.as_str(),
+                )
+            }),
+        ),
     );
     fig(
         o,
@@ -63,6 +97,9 @@ pub(super) fn summary(o: &mut String, doc: &AnalysisJson) {
     );
     o.push_str("</div>\n");
     o.push_str("<p>A target counts as met only when the value minus its error bound meets it (for the residual rate: the value plus its bound stays below it); section 8 lists the targets.</p>\n");
+    if worst_box.is_some() {
+        o.push_str("<p>The file states tolerances of its inputs: the key figures are for the inputs as written, and each verdict judges the worst value over the box of tolerances (section 11).</p>\n");
+    }
     if let Some(w) = worst {
         let _ = writeln!(
             o,
