@@ -173,3 +173,45 @@ fn files_beyond_the_size_limit_are_refused() {
         "{e}"
     );
 }
+
+/// Below the limits a file may still be slow: the work is counted before the analysis
+/// starts and announced when its least time is long. The counts follow from counting
+/// (common practice): an even median of 8 has C(8,2) C(6,3) = 560 rank-pattern pieces; two
+/// difference checks with detection on both have 4 detecting patterns (each fires below or
+/// above) and 9 - 4 = 5 that do not, so a violated output (2 sides) gives 560 x 2 x 4 = 4480
+/// polytopes of p_vd, 560 x 2 x 5 = 5600 of p_vu, and a safe one 560 x 4 = 2240 of p_sd.
+#[test]
+fn a_long_computation_is_counted_and_announced_before_it_starts() {
+    use concord::analysis::workload::estimate;
+    let checks = "[checks.a]\nkind = \"difference\"\nof = [\"c0\", \"c1\"]\nlimit = 2.0\n\n\
+                  [checks.b]\nkind = \"difference\"\nof = [\"c2\", \"c3\"]\nlimit = 2.0\n\n\
+                  [detection]\nfires = { at_least = 2 }\n\n\
+                  [faults.f]\nfit = 10.0\nhits = { c0 = 1.0 }\nmode = \"add\"\n\
+                  amplitude = { gaussian = { mean = 0.0, sigma = 2.0 } }\n";
+    let text = file(
+        8,
+        &format!("kind = \"median\"\nof = [{}]", names(8)),
+        checks,
+    );
+    let arch = load_str(&text, "slow.toml").expect("valid");
+    let options = AnalysisOptions::default();
+    let w = estimate(&arch.model, &options).expect("polytopes build");
+    assert_eq!(w.polytopes_per_scenario, 4480 + 5600 + 2240);
+    // The baseline and the one known amplitude.
+    assert_eq!(w.polytope_scenarios, 2);
+    assert_eq!(w.integrals, 2 * (4480 + 5600 + 2240));
+    assert_eq!(w.dimension, 8);
+    let note = w.announcement().expect("announced");
+    assert!(note.contains("detection needs 2 firing checks"), "{note}");
+    assert!(note.contains("24640 polytope integrals"), "{note}");
+
+    // A two-channel file takes milliseconds: nothing to announce.
+    let small = file(
+        2,
+        "kind = \"mean\"\nof = [\"c0\", \"c1\"]",
+        "[checks.d]\nkind = \"difference\"\nof = [\"c0\", \"c1\"]\nlimit = 2.0\n",
+    );
+    let arch = load_str(&small, "small.toml").expect("valid");
+    let w = estimate(&arch.model, &options).expect("polytopes build");
+    assert!(w.announcement().is_none());
+}

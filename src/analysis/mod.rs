@@ -44,6 +44,7 @@ pub mod timed_tune;
 pub mod timing;
 pub mod tolerances;
 pub mod tune;
+pub mod workload;
 
 pub use error::{AnalysisError, RequestField};
 pub use options::AnalysisOptions;

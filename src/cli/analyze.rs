@@ -6,7 +6,7 @@ use crate::analysis::tolerances::over_box;
 use crate::report::{ReportInput, csv, json, table};
 
 use super::args::{AnalyzeArgs, Format, MethodArg};
-use super::{CliError, load};
+use super::{CliError, announce_workload, load};
 
 /// `KEY=LO:HI` of `--within`.
 fn parse_within(text: &str) -> Result<(String, f64, f64), CliError> {
@@ -29,7 +29,10 @@ pub fn run(args: &AnalyzeArgs) -> Result<String, CliError> {
     let arch = load(&args.file)?;
     let options = args.accuracy.options()?;
     let (analysis, method) = match args.method {
-        MethodArg::Exact => (analyze(&arch.model, &options, args.curve)?, "exact"),
+        MethodArg::Exact => {
+            announce_workload(&args.file, &arch.model, &options);
+            (analyze(&arch.model, &options, args.curve)?, "exact")
+        }
         MethodArg::Montecarlo => {
             let sampling = MonteCarloOptions {
                 samples: args.samples,

@@ -4,7 +4,7 @@ use crate::analysis::compare::{ArchitectureSummary, summarise};
 use crate::report::compare::{csv, json, table};
 
 use super::args::{CompareArgs, CompareColumn, CoverageArg, Format};
-use super::{CliError, load};
+use super::{CliError, announce_workload, load};
 
 /// Analyses every file (in the order given) and renders them side by side.
 pub fn run(args: &CompareArgs) -> Result<String, CliError> {
@@ -12,6 +12,7 @@ pub fn run(args: &CompareArgs) -> Result<String, CliError> {
     let mut rows = Vec::with_capacity(args.files.len());
     for path in &args.files {
         let arch = load(path)?;
+        announce_workload(path, &arch.model, &options);
         rows.push(summarise(&arch, &options)?);
     }
     let all_dangerous = args.figure == CoverageArg::DcAllDangerous;

@@ -86,3 +86,17 @@ pub fn load(path: &Path) -> Result<crate::model::Architecture, CliError> {
 pub fn write_output(path: &Path, contents: impl AsRef<[u8]>) -> Result<(), CliError> {
     std::fs::write(path, contents).map_err(|e| CliError::write(path, e))
 }
+
+/// Says on stderr, before a long exact analysis starts, how much work it is and why (see
+/// [`crate::analysis::workload`]); silent for the analyses of seconds.
+pub fn announce_workload(
+    path: &Path,
+    model: &crate::model::CompiledModel,
+    options: &crate::analysis::AnalysisOptions,
+) {
+    if let Some(text) =
+        crate::analysis::workload::estimate(model, options).and_then(|w| w.announcement())
+    {
+        eprintln!("note: {}: {text}", path.display());
+    }
+}

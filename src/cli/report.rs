@@ -9,7 +9,7 @@ use crate::report::date::report_date;
 use crate::report::html::{self, HtmlOptions};
 
 use super::args::ReportArgs;
-use super::{CliError, load, write_output};
+use super::{CliError, announce_workload, load, write_output};
 
 /// A written report, for the message the command prints.
 #[derive(Debug, Clone, PartialEq)]
@@ -37,6 +37,7 @@ pub fn build(
     let epoch = std::env::var("SOURCE_DATE_EPOCH").ok();
     let date = report_date(date, epoch.as_deref())?;
     let arch = load(file)?;
+    announce_workload(file, &arch.model, options);
     let mut analysis = analyze(&arch.model, options, true)?;
     if !arch.tolerances.is_empty() {
         analysis.tolerances = Some(crate::analysis::tolerances::over_box(
