@@ -469,3 +469,109 @@ fn the_sampler_agrees_on_every_bundled_file_with_isolation() {
         }
     }
 }
+
+#[test]
+fn a_stated_degraded_architecture_matches_closed_forms_of_the_pair_left() {
+    // `[isolation.degraded]` states the output after a drop (the minimum of the channels
+    // kept) and a tighter comparator. Dropping a leaves b and c, independent N(0, s^2), read
+    // by their minimum and compared at 1.0. Closed forms (common practice, independence):
+    // P(min > L) = Phi(-L/s)^2, P(min < -L) = 1 - (1 - Phi(-L/s))^2, and the comparator fires
+    // when |b - c| > T with b - c ~ N(0, 2 s^2): P = 2 Phi(-T / (s sqrt 2)).
+    let stated = "rule = \"in_every_fired_check\"\n[isolation.degraded]\noutput = \"min\"\n\
+                  set = { \"checks.bc.limit\" = 1.0 }";
+    let text = three_channels(
+        "mode = \"add\"\namplitude = { gaussian = { mean = 0.0, sigma = 3.0 } }",
+        stated,
+    );
+    let a = run(&text);
+    let iso = isolation(&a);
+    let stage = iso
+        .degraded
+        .iter()
+        .find(|d| d.dropped == "a")
+        .expect("a stage without a");
+    assert_eq!(stage.output, "min(b, c)");
+    let b = &stage.analysis.as_ref().expect("analysed").baseline;
+    let l = 1.5 / SIGMA;
+    let violated = phi(-l) * phi(-l) + 1.0 - (1.0 - phi(-l)) * (1.0 - phi(-l));
+    let alarm = 2.0 * phi(-1.0 / (SIGMA * std::f64::consts::SQRT_2));
+    let got_violated = b.p_vd.value + b.p_vu.value;
+    let got_alarm = b.p_vd.value + b.p_sd.value;
+    assert!(
+        (got_violated - violated).abs() <= b.p_vd.error + b.p_vu.error + 1e-14,
+        "violated {got_violated} against {violated}"
+    );
+    assert!(
+        (got_alarm - alarm).abs() <= b.p_vd.error + b.p_sd.error + 1e-14,
+        "alarm {got_alarm} against {alarm}"
+    );
+    // The file's own figures do not move: the values hold after a drop only.
+    let plain = run(&three_channels(
+        "mode = \"add\"\namplitude = { gaussian = { mean = 0.0, sigma = 3.0 } }",
+        "rule = \"in_every_fired_check\"",
+    ));
+    assert_eq!(plain.baseline, a.baseline);
+    assert_eq!(plain.metrics, a.metrics);
+    // Stated as "median" (the median of two is their mean), without values, the stage is
+    // the derived one, figure for figure.
+    let as_median = run(&three_channels(
+        "mode = \"add\"\namplitude = { gaussian = { mean = 0.0, sigma = 3.0 } }",
+        "rule = \"in_every_fired_check\"\n[isolation.degraded]\noutput = \"mean\"",
+    ));
+    let derived = isolation(&plain).degraded[0]
+        .analysis
+        .as_ref()
+        .expect("derived");
+    let stated = isolation(&as_median).degraded[0]
+        .analysis
+        .as_ref()
+        .expect("stated");
+    let close = |x: &concord::prob::Estimate, y: &concord::prob::Estimate| {
+        (x.value - y.value).abs() <= x.error + y.error + 1e-15
+    };
+    assert!(close(&derived.baseline.p_vu, &stated.baseline.p_vu));
+    assert!(close(&derived.baseline.p_sd, &stated.baseline.p_sd));
+    assert!(close(&derived.metrics.spfm, &stated.metrics.spfm));
+}
+
+#[test]
+fn a_stated_degraded_architecture_with_wrong_words_or_values_is_refused_by_key() {
+    let with = |section: &str| {
+        three_channels(
+            "mode = \"add\"\namplitude = { gaussian = { mean = 0.0, sigma = 3.0 } }",
+            &format!("rule = \"in_every_fired_check\"\n[isolation.degraded]\n{section}"),
+        )
+    };
+    for (section, key, words) in [
+        (
+            "output = \"average\"",
+            "isolation.degraded.output",
+            "unknown output",
+        ),
+        (
+            "set = { \"checks.zz.limit\" = 1.0 }",
+            "isolation.degraded.set.checks.zz.limit",
+            "not a numeric input",
+        ),
+        (
+            "set = { \"checks.bc.limit\" = -1.0 }",
+            "isolation.degraded.set",
+            "not valid",
+        ),
+        (
+            "set = { checks = 1.0 }",
+            "isolation.degraded.set.checks",
+            "not a numeric input",
+        ),
+        (
+            "colour = \"red\"",
+            "isolation.degraded.colour",
+            "unknown key",
+        ),
+    ] {
+        let err = load_str(&with(section), "t.toml").expect_err(section);
+        let text = err.to_string();
+        assert!(text.contains(key), "{section}: {text}");
+        assert!(text.contains(words), "{section}: {text}");
+    }
+}

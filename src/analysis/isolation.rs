@@ -485,6 +485,9 @@ pub struct IsolationAnalysis {
     pub end_states: EndStates,
     /// One degraded architecture per candidate.
     pub degraded: Vec<DegradedStage>,
+    /// What the file states of the degraded architectures (`[isolation.degraded]`), when
+    /// it states anything; otherwise they are derived alone.
+    pub stated: Option<crate::model::StatedDegraded>,
     /// Warnings for the analyst.
     pub warnings: Vec<String>,
 }
@@ -567,6 +570,7 @@ pub fn analyze_isolation(
         end_states: end_states(&results, &model.faults),
         sites: results,
         degraded,
+        stated: isolation.stated.clone(),
         warnings,
     }))
 }

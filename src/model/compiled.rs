@@ -439,6 +439,17 @@ pub struct Isolation {
     pub check_channels: Vec<Vec<usize>>,
     /// One degraded architecture per candidate, in the order of `candidates`.
     pub degraded: Vec<DegradedModel>,
+    /// What the file states of the degraded architectures on top of the derivation
+    /// (`[isolation.degraded]`), when it states anything.
+    pub stated: Option<StatedDegraded>,
+}
+
+/// `[isolation.degraded]` as compiled: how the output combines the channels it keeps after
+/// a drop (`None`: as derived) and the values in force after the drop, by dotted key.
+#[derive(Debug, Clone, PartialEq)]
+pub struct StatedDegraded {
+    pub output: Option<String>,
+    pub set: Vec<(String, f64)>,
 }
 
 /// The model the analysis integrates.

@@ -7,7 +7,7 @@
 //! mean that lists it; a check, signal or fixed-weight sum that needs it is lost with it) and
 //! compiled like any file.
 
-use super::compiled::{CompiledModel, DegradedModel, Isolation, IsolationRule};
+use super::compiled::{CompiledModel, DegradedModel, Isolation, IsolationRule, StatedDegraded};
 use super::error::Sink;
 use super::names::{NameRef, Namespace};
 use super::raw::RawIsolation;
@@ -22,6 +22,27 @@ pub const RULE_WORDS: [&str; 2] = ["in_every_fired_check", "farthest_from_median
 pub(crate) struct VIsolation {
     pub rule: IsolationRule,
     pub among: Option<Vec<usize>>,
+    pub loc: Loc,
+    /// What `[isolation.degraded]` states on top of the derivation.
+    pub degraded: Option<VDegraded>,
+}
+
+/// The output words of `[isolation.degraded]`.
+pub const DEGRADED_OUTPUT_WORDS: [&str; 4] = ["mean", "median", "min", "max"];
+
+/// How the output combines the channels it keeps after a drop.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub(crate) enum DegradedOutput {
+    Mean,
+    Order(Stat),
+}
+
+/// The validated `[isolation.degraded]`: the output's combination and the values in force
+/// after the drop (their keys are checked against the file's inputs when it is loaded).
+#[derive(Debug, Clone, PartialEq)]
+pub(crate) struct VDegraded {
+    pub output: Option<DegradedOutput>,
+    pub set: Vec<(String, f64)>,
     pub loc: Loc,
 }
 
@@ -103,6 +124,41 @@ pub(crate) fn validate_isolation(
         }
         among = Some(found);
     }
+    let degraded = raw.degraded.as_ref().map(|d| {
+        let output = d.output.as_ref().and_then(|o| match o.value.as_str() {
+            "mean" => Some(DegradedOutput::Mean),
+            "median" => Some(DegradedOutput::Order(Stat::Median)),
+            "min" => Some(DegradedOutput::Order(Stat::Min)),
+            "max" => Some(DegradedOutput::Order(Stat::Max)),
+            other => {
+                let quoted: Vec<String> = DEGRADED_OUTPUT_WORDS
+                    .iter()
+                    .map(|w| format!("\"{w}\""))
+                    .collect();
+                o.error(
+                    sink,
+                    format!("unknown output \"{other}\" after a drop"),
+                    format!(
+                        "use one of {} (how the output combines the channels it keeps)",
+                        quoted.join(", ")
+                    ),
+                );
+                None
+            }
+        });
+        VDegraded {
+            output,
+            set: d
+                .set
+                .iter()
+                .map(|(k, v)| (k.value.clone(), v.value))
+                .collect(),
+            loc: Loc {
+                span: d.span,
+                key: "isolation.degraded".into(),
+            },
+        }
+    });
     if sink.error_count() > errors_before {
         return None;
     }
@@ -113,6 +169,7 @@ pub(crate) fn validate_isolation(
             span: raw.span,
             key: "isolation".into(),
         },
+        degraded,
     })
 }
 
@@ -120,9 +177,13 @@ pub(crate) fn validate_isolation(
 /// degraded architecture per candidate. Records an error when fewer than two channels may be
 /// blamed. `compile` is the compiler of the model layer (given so that this file does not
 /// depend on it).
+///
+/// `stage_base` is the resolved file with the values of `[isolation.degraded]` set (the file
+/// itself when it sets none); each degraded architecture is derived from it, and its output
+/// recombined as the section states.
 pub(crate) fn compile_isolation(
     v: &VIsolation,
-    resolved: &Resolved,
+    stage_base: &Resolved,
     model: &CompiledModel,
     sink: &mut Sink<'_>,
     compile: impl Fn(&Resolved) -> Result<CompiledModel, String>,
@@ -149,17 +210,56 @@ pub(crate) fn compile_isolation(
         .iter()
         .map(|&dropped| DegradedModel {
             dropped,
-            model: without_channel(resolved, dropped)
+            model: without_channel(stage_base, dropped)
+                .and_then(|r| match v.degraded.as_ref().and_then(|d| d.output) {
+                    Some(output) => recombined(r, output),
+                    None => Ok(r),
+                })
                 .and_then(|r| compile(&r))
                 .map(Box::new),
         })
         .collect();
+    let stated = v.degraded.as_ref().map(|d| StatedDegraded {
+        output: d.output.map(|o| {
+            match o {
+                DegradedOutput::Mean => "mean",
+                DegradedOutput::Order(Stat::Median) => "median",
+                DegradedOutput::Order(Stat::Min) => "min",
+                DegradedOutput::Order(Stat::Max) => "max",
+            }
+            .to_string()
+        }),
+        set: d.set.clone(),
+    });
     Some(Isolation {
         rule: v.rule,
         candidates,
         check_channels,
         degraded,
+        stated,
     })
+}
+
+/// The degraded architecture with its output recombined as `[isolation.degraded]` states:
+/// the same readings, taken as their mean, median, minimum or maximum.
+fn recombined(mut r: Resolved, output: DegradedOutput) -> Result<Resolved, String> {
+    let readings = match &r.output.def {
+        FnDef::Mean(rs) | FnDef::Order(_, rs) => rs.clone(),
+        FnDef::Select(reading) => vec![*reading],
+        _ => {
+            return Err(
+                "the output after the drop is a weighted sum, not a set of readings, so \
+                        isolation.degraded.output cannot recombine it"
+                    .into(),
+            );
+        }
+    };
+    r.output.def = match output {
+        DegradedOutput::Mean => FnDef::Mean(readings),
+        DegradedOutput::Order(stat) => FnDef::Order(stat, readings),
+    };
+    r.name = format!("{}, output as stated", r.name);
+    Ok(r)
 }
 
 /// Whether a reading is lost once channel `dropped` is gone.

@@ -40,7 +40,7 @@ pub use bands::{BandForm, CheckBand};
 pub use compiled::{
     Amplitude, Architecture, CompiledCheck, CompiledFault, CompiledModel, DegradedModel, Detection,
     FaultMode, Formula, Guard, Isolation, IsolationRule, LinearForm, OrderStat, Piece,
-    PiecewiseLinear, Timing, guards_contradict,
+    PiecewiseLinear, StatedDegraded, Timing, guards_contradict,
 };
 pub use error::{Diagnostic, ModelError, Severity};
 pub use faults::default_sigma_range;
@@ -59,6 +59,50 @@ fn compile_degraded(
     let model = graph::signal_order(resolved, &graph, &mut sink)
         .and_then(|order| compile::compile(resolved, &order, &mut sink));
     model.ok_or_else(|| "the degraded architecture could not be compiled".to_string())
+}
+
+/// The resolved file with the values of `[isolation.degraded]` set, from which every
+/// degraded architecture is derived; an error on the section when those values make the
+/// file invalid (its first problem named).
+fn with_degraded_values(
+    root: &tree::Node,
+    set: &[(String, f64)],
+    path: &str,
+    text: &str,
+    v: &isolation::VIsolation,
+    sink: &mut error::Sink<'_>,
+) -> Option<resolved::Resolved> {
+    let mut stage_sink = error::Sink::new(path, text);
+    let mut stage_root = root.clone();
+    overrides::apply(&mut stage_root, set, &mut stage_sink);
+    let raw = read::read(&stage_root, &mut stage_sink);
+    let stage = validate::validate(&raw, &mut stage_sink);
+    let problem = match stage_sink.finish() {
+        Ok(_) => None,
+        Err(ModelError::Invalid { diagnostics }) => diagnostics.into_iter().next(),
+        Err(_) => None,
+    };
+    match (stage, problem) {
+        (Some(stage), None) => Some(stage),
+        (_, problem) => {
+            let span = v.degraded.as_ref().map_or(v.loc.span, |d| d.loc.span);
+            sink.error(
+                span,
+                "isolation.degraded.set",
+                match problem {
+                    Some(d) => format!(
+                        "with the values of isolation.degraded.set the file is not valid: {} \
+                         ({})",
+                        d.message, d.key
+                    ),
+                    None => "with the values of isolation.degraded.set the file is not valid"
+                        .to_string(),
+                },
+                "give values that keep the file valid (each as a sweep would set it)",
+            );
+            None
+        }
+    }
 }
 
 /// Reads and compiles an architecture file.
@@ -153,19 +197,34 @@ pub fn load_str_with_overrides(
     overrides::apply(&mut root, overrides, &mut sink);
     let raw = read::read(&root, &mut sink);
     let inputs = overrides::numeric_leaves(&root);
-    for (key, range) in &raw.tolerances {
-        if !inputs.iter().any(|(k, _)| *k == key.value) {
-            let known: Vec<&str> = inputs.iter().map(|(k, _)| k.as_str()).take(8).collect();
-            key.error(
-                &mut sink,
-                format!("`{}` is not a numeric input of the file", key.value),
-                format!(
-                    "name a number of the file by its dotted key, e.g. {}",
-                    known.join(", ")
-                ),
-            );
+    // A key that names no number of the file is an error at the key, with examples.
+    let known_input = |key: &raw::Spanned<String>, sink: &mut error::Sink<'_>| -> bool {
+        if inputs.iter().any(|(k, _)| *k == key.value) {
+            return true;
         }
-        let _ = range;
+        let known: Vec<&str> = inputs.iter().map(|(k, _)| k.as_str()).take(8).collect();
+        key.error(
+            sink,
+            format!("`{}` is not a numeric input of the file", key.value),
+            format!(
+                "name a number of the file by its dotted key, e.g. {}",
+                known.join(", ")
+            ),
+        );
+        false
+    };
+    for (key, _) in &raw.tolerances {
+        known_input(key, &mut sink);
+    }
+    // The values of [isolation.degraded] name numbers of the file, as overrides do.
+    let mut degraded_keys_ok = true;
+    for (key, _) in raw
+        .isolation
+        .iter()
+        .flat_map(|i| i.degraded.iter())
+        .flat_map(|d| d.set.iter())
+    {
+        degraded_keys_ok &= known_input(key, &mut sink);
     }
     let tolerances: Vec<(String, f64, f64)> = raw
         .tolerances
@@ -179,9 +238,21 @@ pub fn load_str_with_overrides(
         graph::unused(&resolved, &graph, &mut sink);
         let mut model = compile::compile(&resolved, &order, &mut sink)?;
         if let Some(v) = &resolved.isolation {
-            model.isolation = isolation::compile_isolation(v, &resolved, &model, &mut sink, |r| {
-                compile_degraded(r, path_for_messages, text)
-            });
+            let set = v.degraded.as_ref().map_or(&[][..], |d| d.set.as_slice());
+            let stage_base = if set.is_empty() {
+                Some(resolved.clone())
+            } else if !degraded_keys_ok {
+                // (each unknown key is already an error of its own)
+                None
+            } else {
+                with_degraded_values(&root, set, path_for_messages, text, v, &mut sink)
+            };
+            if let Some(stage_base) = stage_base {
+                model.isolation =
+                    isolation::compile_isolation(v, &stage_base, &model, &mut sink, |r| {
+                        compile_degraded(r, path_for_messages, text)
+                    });
+            }
         }
         Some((model, graph))
     });

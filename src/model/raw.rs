@@ -231,6 +231,18 @@ pub(crate) struct RawIsolation {
     pub rule: Option<Spanned<String>>,
     pub margin: Option<Spanned<f64>>,
     pub among: Option<Vec<Spanned<String>>>,
+    pub degraded: Option<RawDegraded>,
+}
+
+/// `[isolation.degraded]`: what the file states of the architecture that runs on after a
+/// channel is dropped, on top of the derivation.
+#[derive(Debug, Clone, PartialEq)]
+pub(crate) struct RawDegraded {
+    pub span: Span,
+    /// How the output combines the channels it keeps: "mean", "median", "min" or "max".
+    pub output: Option<Spanned<String>>,
+    /// Values in force after the drop, by the dotted keys of an override.
+    pub set: Vec<(Spanned<String>, Spanned<f64>)>,
 }
 
 /// One tolerance of `[tolerances]`: the dotted key and `[lower, upper]`.

@@ -230,6 +230,19 @@ pub fn describe(arch: &Architecture) -> String {
         for line in super::format::wrap(&head, 98) {
             let _ = writeln!(o, "{line}");
         }
+        if let Some(st) = &iso.stated {
+            let mut parts = Vec::new();
+            if let Some(output) = &st.output {
+                parts.push(format!("output the {output} of the channels kept"));
+            }
+            for (key, value) in &st.set {
+                parts.push(format!("{key} = {}", super::format::number(*value)));
+            }
+            let text = format!("stated after a drop: {}", parts.join(", "));
+            for line in super::format::wrap(&text, 96) {
+                let _ = writeln!(o, "  {line}");
+            }
+        }
         for d in &iso.degraded {
             let name = m.channels.get(d.dropped).map_or("?", String::as_str);
             let text = match &d.model {

@@ -15,7 +15,10 @@
 //!   `fault_stays`, `residual`, with `error`;
 //! - `degraded`: per candidate, `dropped`, `output`, `checks`, and either `false_alarm`,
 //!   `metrics` (as the top-level `metrics`) and `sites` (`name`, `dc`, `p_vu`, `error`), or
-//!   `why_not`.
+//!   `why_not`;
+//! - `stated`: what the file's `[isolation.degraded]` states on top of the derivation,
+//!   `output` (`mean`, `median`, `min`, `max`, or null: as derived) and `set` (`key`,
+//!   `value`: values in force after a drop); null when the section is absent.
 
 use serde::{Deserialize, Serialize};
 
@@ -116,6 +119,21 @@ pub struct IsolationJson {
     pub sites: Vec<SiteIsolationJson>,
     pub end_states: EndStatesJson,
     pub degraded: Vec<DegradedJson>,
+    pub stated: Option<StatedDegradedJson>,
+}
+
+/// `[isolation.degraded]` as stated in the file.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct StatedDegradedJson {
+    pub output: Option<String>,
+    pub set: Vec<StatedValueJson>,
+}
+
+/// One value in force after a drop.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct StatedValueJson {
+    pub key: String,
+    pub value: f64,
 }
 
 /// The rule's name in the file and in JSON.
@@ -228,5 +246,16 @@ pub fn isolation_json(i: &IsolationAnalysis) -> IsolationJson {
                 },
             })
             .collect(),
+        stated: i.stated.as_ref().map(|st| StatedDegradedJson {
+            output: st.output.clone(),
+            set: st
+                .set
+                .iter()
+                .map(|(key, value)| StatedValueJson {
+                    key: key.clone(),
+                    value: *value,
+                })
+                .collect(),
+        }),
     }
 }

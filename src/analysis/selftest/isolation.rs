@@ -110,5 +110,33 @@ pub fn isolation_cases(_data: &ReferenceData) -> Vec<Case> {
             Measure::Absolute,
         ));
     }
+    // A degraded stage stated in the file: dropping a leaves b and c, independent
+    // N(0, 0.5^2), read by their minimum (`output = "min"`); fault-free it leaves the band
+    // [-1.5, 1.5] with P = Phi(-3)^2 + 1 - (1 - Phi(-3))^2 (independence).
+    let stated = format!(
+        "{every}\n[isolation.degraded]\noutput = \"min\"\nset = {{ \"checks.bc.limit\" = 1.0 }}"
+    );
+    let tail = 0.5 * libm::erfc(3.0 / std::f64::consts::SQRT_2);
+    cases.push(Case::new(
+        ISOLATION,
+        "stated stage, min of two: violated without a fault",
+        "common practice: the minimum of two independent normals, Phi by libm erfc",
+        stated_violation(&stuck_far(&stated)),
+        tail * tail + 1.0 - (1.0 - tail) * (1.0 - tail),
+        SUM_ABS,
+        Measure::Absolute,
+    ));
     cases
+}
+
+/// `p_vd + p_vu` of the fault-free degraded stage without channel a, with its bound.
+fn stated_violation(text: &str) -> Result<Bounded, String> {
+    let arch = load_str(text, "isolation.toml").map_err(|e| e.to_string())?;
+    let a = analyze(&arch.model, &AnalysisOptions::default(), false).map_err(|e| e.to_string())?;
+    let stage = a
+        .isolation
+        .and_then(|i| i.degraded.into_iter().find(|d| d.dropped == "a"))
+        .ok_or_else(|| "no stage without a".to_string())?;
+    let b = stage.analysis?.baseline;
+    Ok((b.p_vd.value + b.p_vu.value, b.p_vd.error + b.p_vu.error))
 }

@@ -681,39 +681,83 @@ pub(super) fn read_isolation(sink: &mut Sink<'_>, node: &Node) -> Option<RawIsol
             "among = [\"a\", \"b\", \"c\"]",
         )
     });
+    let degraded = t
+        .take("degraded")
+        .and_then(|e| read_degraded(sink, &e.value));
     let span = t.span;
-    t.finish(sink, &["rule", "margin", "among"]);
+    t.finish(sink, &["rule", "margin", "among", "degraded"]);
     Some(RawIsolation {
         span,
         rule,
         margin,
         among,
+        degraded,
     })
 }
 
-/// The `[tolerances]` section: `"channels.a.sigma" = [0.4, 0.6]`, a quoted dotted key per
-/// input with its lower and upper value.
-pub(super) fn read_tolerances(sink: &mut Sink<'_>, node: &Node) -> Vec<RawTolerance> {
-    let example = "\"channels.a.sigma\" = [0.4, 0.6]";
+/// `[isolation.degraded]`: `output = "mean"` and `set = { "checks.bc.limit" = 1.5 }`.
+fn read_degraded(sink: &mut Sink<'_>, node: &Node) -> Option<RawDegraded> {
+    let mut t = TableReader::of(node, "isolation.degraded", sink)?;
+    let output = t.take("output").and_then(|e| {
+        string(
+            sink,
+            &e.value,
+            "isolation.degraded.output",
+            "output = \"mean\"",
+        )
+    });
+    let example = "set = { \"checks.bc.limit\" = 1.5 }";
+    let mut set = Vec::new();
+    if let Some(e) = t.take("set") {
+        for (entry, key) in quoted_key_entries(sink, &e.value, "isolation.degraded.set", example) {
+            if let Some(value) = number(sink, &entry.value, &key, example) {
+                set.push((Spanned::new(entry.key.clone(), entry.key_span, key), value));
+            }
+        }
+    }
+    let span = t.span;
+    t.finish(sink, &["output", "set"]);
+    Some(RawDegraded { span, output, set })
+}
+
+/// The entries of a table keyed by quoted dotted keys (`"channels.a.sigma" = ...`), each with
+/// its whole key path; an entry read as a table (the key was not quoted) is an error.
+fn quoted_key_entries<'n>(
+    sink: &mut Sink<'_>,
+    node: &'n Node,
+    section: &str,
+    example: &str,
+) -> Vec<(&'n Entry, String)> {
     let Some(entries) = node.entries() else {
-        type_error(sink, node, "tolerances", "a table", example);
+        type_error(sink, node, section, "a table", example);
         return Vec::new();
     };
     let mut out = Vec::new();
     for e in entries {
-        let key = join("tolerances", &e.key);
+        let key = join(section, &e.key);
         if matches!(e.value.value, Value::Table(_)) {
             sink.error(
                 e.key_span,
                 &key,
                 format!(
-                    "`{}` is read as a table: the key of a tolerance is one quoted string",
+                    "`{}` is read as a table: the key is one quoted string",
                     e.key
                 ),
                 format!("quote the whole key: {example}"),
             );
             continue;
         }
+        out.push((e, key));
+    }
+    out
+}
+
+/// The `[tolerances]` section: `"channels.a.sigma" = [0.4, 0.6]`, a quoted dotted key per
+/// input with its lower and upper value.
+pub(super) fn read_tolerances(sink: &mut Sink<'_>, node: &Node) -> Vec<RawTolerance> {
+    let example = "\"channels.a.sigma\" = [0.4, 0.6]";
+    let mut out = Vec::new();
+    for (e, key) in quoted_key_entries(sink, node, "tolerances", example) {
         if let Some(range) = pair(sink, &e.value, &key, example) {
             let name = Spanned::new(e.key.clone(), e.key_span, key);
             if range.value.0 >= range.value.1 {

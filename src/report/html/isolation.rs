@@ -34,6 +34,30 @@ pub(super) fn isolation(o: &mut String, doc: &AnalysisJson) {
     false_alarms(o, i);
     sites(o, i);
     end_states(o, i);
+    if let Some(st) = &i.stated {
+        let mut parts = Vec::new();
+        if let Some(output) = &st.output {
+            parts.push(format!(
+                "the output is the {output} of the channels it keeps"
+            ));
+        }
+        if !st.set.is_empty() {
+            let values: Vec<String> = st
+                .set
+                .iter()
+                .map(|v| format!("{} = {}", v.key, crate::report::format::number(v.value)))
+                .collect();
+            parts.push(format!(
+                "these values hold after a drop: {}",
+                values.join(", ")
+            ));
+        }
+        let _ = writeln!(
+            o,
+            "<p>The file states the architecture that runs on after a drop (<code>[isolation.degraded]</code>): {}; the rest follows from the file without the dropped channel.</p>",
+            esc(&parts.join("; "))
+        );
+    }
     degraded(o, i);
     o.push_str("<p>Isolation is computed for one sample, with the same engine and error bounds as the coverage figures. For a site of unknown spread the figures are taken at the σ where a healthy channel is most often blamed (the worst case for isolation, which may differ from the worst case of the residual). \"After drop\" treats the next sample as independent of the one that blamed, and takes the architecture without the channel at its own figures (at its own worst σ).</p>\n</section>\n");
 }
