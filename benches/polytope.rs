@@ -4,7 +4,7 @@
 //! conditioning variables) and forced through the plain lattice rule, and the exact one-
 //! and two-direction paths for comparison. Inputs are fixed.
 
-use concord::prob::polytope::{Band, Gaussian, Options, Polytope, Tolerance};
+use concord::prob::polytope::{Band, ErrorTarget, Gaussian, Options, Polytope};
 use concord::prob::rng::SplitMix64;
 use criterion::{Criterion, black_box, criterion_group, criterion_main};
 use nalgebra::DMatrix;
@@ -47,7 +47,7 @@ fn bench(c: &mut Criterion) {
     for (name, r, m, abs) in cases {
         let g = gaussian(r, 11);
         let p = polytope(r, m, 12);
-        let tol = Tolerance {
+        let tol = ErrorTarget {
             abs,
             rel: 0.0,
             max_points: 4_000_000,
@@ -76,7 +76,7 @@ fn bench(c: &mut Criterion) {
         }
     }
     let g = gaussian(3, 11);
-    let tol = Tolerance::default();
+    let tol = ErrorTarget::default();
     let mut two = Polytope::new();
     two.push(vec![1.0, 0.5, 0.0], Band::closed(-1.0, 2.0));
     two.push(vec![0.0, 1.0, -1.0], Band::below(0.7));

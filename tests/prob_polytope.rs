@@ -10,7 +10,7 @@
 use std::f64::consts::PI;
 
 use concord::prob::ProbError;
-use concord::prob::polytope::{Band, Gaussian, Method, Options, Polytope, Tolerance};
+use concord::prob::polytope::{Band, ErrorTarget, Gaussian, IntegrationPath, Options, Polytope};
 use nalgebra::DMatrix;
 
 mod common;
@@ -40,7 +40,7 @@ fn sheppard_orthant_default_path() {
         if rho.abs() == 1.0 {
             // Perfect correlation: rank 1, both rows merge into one direction.
             assert_eq!(r.rank, 1);
-            assert_eq!(r.method, Method::Univariate);
+            assert_eq!(r.method, IntegrationPath::Univariate);
         }
     }
 }
@@ -193,9 +193,9 @@ fn ordering_polytopes_are_one_over_r_factorial() {
         // The differences of r coordinates span r - 1 dimensions: two conditioning
         // variables are exact, three nested, more go to the lattice.
         let expected = match r {
-            3 => Method::Planar,
-            4 => Method::Nested,
-            _ => Method::Lattice,
+            3 => IntegrationPath::Planar,
+            4 => IntegrationPath::Nested,
+            _ => IntegrationPath::Lattice,
         };
         assert_eq!(res.method, expected, "r = {r}");
         let exact = 1.0 / factorial(r);
@@ -218,12 +218,12 @@ fn empty_bands_and_whole_space() {
     let mut p = Polytope::new();
     p.push(vec![1.0, 0.0, 0.0], Band::closed(1.0, 0.5));
     p.push(vec![0.0, 1.0, 0.0], Band::above(0.0));
-    let r = g.probability_detailed(&p, &Tolerance::default()).unwrap();
+    let r = g.probability_detailed(&p, &ErrorTarget::default()).unwrap();
     assert_eq!(r.estimate.value, 0.0);
     assert_eq!(r.estimate.error, 0.0);
     // No constraint at all: probability 1.
     let r = g
-        .probability_detailed(&Polytope::new(), &Tolerance::default())
+        .probability_detailed(&Polytope::new(), &ErrorTarget::default())
         .unwrap();
     assert_eq!(r.estimate.value, 1.0);
     // Only infinite bands: 1.
@@ -232,12 +232,18 @@ fn empty_bands_and_whole_space() {
         vec![1.0, 2.0, 0.0],
         Band::closed(f64::NEG_INFINITY, f64::INFINITY),
     );
-    assert_eq!(g.probability(&p, &Tolerance::default()).unwrap().value, 1.0);
+    assert_eq!(
+        g.probability(&p, &ErrorTarget::default()).unwrap().value,
+        1.0
+    );
     // Antiparallel rows with disjoint bands: 0.
     let mut p = Polytope::new();
     p.push(vec![1.0, 1.0, 0.0], Band::above(1.0));
     p.push(vec![-2.0, -2.0, 0.0], Band::above(-1.0));
-    assert_eq!(g.probability(&p, &Tolerance::default()).unwrap().value, 0.0);
+    assert_eq!(
+        g.probability(&p, &ErrorTarget::default()).unwrap().value,
+        0.0
+    );
 }
 
 #[test]
@@ -254,8 +260,8 @@ fn univariate_path_matches_erfc() {
         let mut p = Polytope::new();
         p.push(vec![1.0, 1.0], Band::closed(l, u));
         p.push(vec![2.0, 2.0], Band::closed(2.0 * l - 1.0, 2.0 * u + 1.0));
-        let r = g.probability_detailed(&p, &Tolerance::default()).unwrap();
-        assert_eq!(r.method, Method::Univariate);
+        let r = g.probability_detailed(&p, &ErrorTarget::default()).unwrap();
+        assert_eq!(r.method, IntegrationPath::Univariate);
         let s = 8.0_f64.sqrt();
         let exact = ref_interval((l + 1.0) / s, (u + 1.0) / s);
         assert!(
@@ -301,19 +307,19 @@ fn bad_input_is_reported() {
     let mut p = Polytope::new();
     p.push(vec![1.0, 0.0, 0.0], Band::above(0.0));
     assert!(matches!(
-        g.probability(&p, &Tolerance::default()),
+        g.probability(&p, &ErrorTarget::default()),
         Err(ProbError::DimensionMismatch { .. })
     ));
     let mut p = Polytope::new();
     p.push(vec![1.0, f64::NAN], Band::above(0.0));
     assert!(matches!(
-        g.probability(&p, &Tolerance::default()),
+        g.probability(&p, &ErrorTarget::default()),
         Err(ProbError::NonFinite { .. })
     ));
     let mut p = Polytope::new();
     p.push(vec![1.0, 0.0], Band::above(f64::NAN));
     assert!(matches!(
-        g.probability(&p, &Tolerance::default()),
+        g.probability(&p, &ErrorTarget::default()),
         Err(ProbError::NonFinite { .. })
     ));
     let mut p = Polytope::new();
@@ -321,12 +327,12 @@ fn bad_input_is_reported() {
         p.push(vec![1.0, 0.0], Band::above(0.0));
     }
     assert!(matches!(
-        g.probability(&p, &Tolerance::default()),
+        g.probability(&p, &ErrorTarget::default()),
         Err(ProbError::TooLarge { .. })
     ));
-    let bad_tol = Tolerance {
+    let bad_tol = ErrorTarget {
         abs: -1.0,
-        ..Tolerance::default()
+        ..ErrorTarget::default()
     };
     assert!(matches!(
         g.probability(&Polytope::new(), &bad_tol),
@@ -362,7 +368,7 @@ fn same_bits_on_repeated_calls() {
     let b = g.probability_detailed(&p, &t).unwrap();
     let (g2, _) = three_row_problem();
     let c = g2.probability_detailed(&p, &t).unwrap();
-    assert_eq!(a.method, Method::Nested);
+    assert_eq!(a.method, IntegrationPath::Nested);
     assert_eq!(a.estimate.value.to_bits(), b.estimate.value.to_bits());
     assert_eq!(a.estimate.error.to_bits(), b.estimate.error.to_bits());
     assert_eq!(a.estimate.value.to_bits(), c.estimate.value.to_bits());
@@ -374,7 +380,7 @@ fn same_bits_on_repeated_calls() {
     };
     let d = g.probability_with(&p, &t, &lattice).unwrap();
     let e = g2.probability_with(&p, &t, &lattice).unwrap();
-    assert_eq!(d.method, Method::Lattice);
+    assert_eq!(d.method, IntegrationPath::Lattice);
     assert_eq!(d.estimate.value.to_bits(), e.estimate.value.to_bits());
     assert_eq!(d.estimate.error.to_bits(), e.estimate.error.to_bits());
     // The two paths agree within their bounds.
@@ -390,7 +396,7 @@ fn budget_exhaustion_and_best_effort() {
     // The lattice rule with 256 points per shift, and the nested rule with one interval
     // (21 evaluations), cannot reach 1e-15.
     for (exact_paths, max_points) in [(false, 12 * 256), (true, 21)] {
-        let t = Tolerance {
+        let t = ErrorTarget {
             abs: 1e-15,
             rel: 0.0,
             max_points,
@@ -430,10 +436,10 @@ fn budget_exhaustion_and_best_effort() {
     let shifted = g.shifted(&[0.5, 0.0, 0.0]).unwrap();
     let mut q = Polytope::new();
     q.push(vec![1.0, 0.0, 0.0], Band::closed(-0.5, 1.5));
-    let a = shifted.probability(&q, &Tolerance::default()).unwrap();
+    let a = shifted.probability(&q, &ErrorTarget::default()).unwrap();
     let mut q0 = Polytope::new();
     q0.push(vec![1.0, 0.0, 0.0], Band::closed(-1.0, 1.0));
-    let b = g.probability(&q0, &Tolerance::default()).unwrap();
+    let b = g.probability(&q0, &ErrorTarget::default()).unwrap();
     assert!((a.value - b.value).abs() <= a.error + b.error);
 }
 

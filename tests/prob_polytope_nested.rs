@@ -3,7 +3,7 @@
 //! the `owens-t` crate, closed forms and the plain lattice rule. Every check names its
 //! source.
 
-use concord::prob::polytope::{Band, Gaussian, Method, Options, Polytope, Tolerance};
+use concord::prob::polytope::{Band, ErrorTarget, Gaussian, IntegrationPath, Options, Polytope};
 
 mod common;
 
@@ -92,7 +92,7 @@ fn four_variables_past_the_lattice_budget_go_to_the_nested_rule() {
             ordering,
             1.0 / 120.0,
             tol(1e-12, 0.0),
-            Method::Nested,
+            IntegrationPath::Nested,
         ),
         (
             "equicorrelated orthant",
@@ -100,7 +100,7 @@ fn four_variables_past_the_lattice_budget_go_to_the_nested_rule() {
             orthant,
             0.2,
             tol(1e-12, 0.0),
-            Method::Lattice,
+            IntegrationPath::Lattice,
         ),
         (
             "ordered tail",
@@ -108,7 +108,7 @@ fn four_variables_past_the_lattice_budget_go_to_the_nested_rule() {
             tail,
             sf3.powi(4) / 24.0,
             tol(0.0, 1e-8),
-            Method::Lattice,
+            IntegrationPath::Lattice,
         ),
     ];
     for (name, g, p, exact, t, method) in cases {
@@ -173,7 +173,7 @@ fn four_channels_with_comparators_agree_across_paths() {
         let plain = g
             .probability_with(
                 &p,
-                &Tolerance {
+                &ErrorTarget {
                     abs: 1e-6,
                     rel: 0.0,
                     max_points: 2_000_000,
@@ -194,7 +194,7 @@ fn four_channels_with_comparators_agree_across_paths() {
             plain.estimate.value,
             plain.estimate.error
         );
-        if tight.method == Method::Nested {
+        if tight.method == IntegrationPath::Nested {
             nested += 1;
         }
         assert_covers(

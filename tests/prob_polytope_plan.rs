@@ -5,7 +5,7 @@
 
 use std::f64::consts::PI;
 
-use concord::prob::polytope::{Band, Method, Options, Polytope};
+use concord::prob::polytope::{Band, IntegrationPath, Options, Polytope};
 
 mod common;
 
@@ -24,7 +24,7 @@ fn sheppard_orthant_forced_through_lattice() {
             ..Options::default()
         };
         let r = g.probability_with(&p, &tol(1e-7, 0.0), &options).unwrap();
-        assert_eq!(r.method, Method::Lattice);
+        assert_eq!(r.method, IntegrationPath::Lattice);
         // Sheppard (1899).
         assert_covers(
             &format!("forced rho {rho}"),
@@ -38,7 +38,7 @@ fn sheppard_orthant_forced_through_lattice() {
         // problem.
         p.push(vec![1.0, 1.0], Band::above(-60.0));
         let r = g.probability_detailed(&p, &tol(1e-7, 0.0)).unwrap();
-        assert_eq!(r.method, Method::Planar);
+        assert_eq!(r.method, IntegrationPath::Planar);
         assert_eq!(r.directions, 3);
         assert_covers(
             &format!("redundant row rho {rho}"),

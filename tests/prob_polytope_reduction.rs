@@ -3,7 +3,7 @@
 //! merged, against products of normal intervals (libm's erfc) and reduced problems. Every
 //! check names its source.
 
-use concord::prob::polytope::{Band, Gaussian, Method, Polytope};
+use concord::prob::polytope::{Band, Gaussian, IntegrationPath, Polytope};
 use nalgebra::DMatrix;
 
 mod common;
@@ -146,7 +146,7 @@ fn singular_twelve_dimensional_with_deterministic_rows() {
         );
         if !inside {
             assert_eq!(res.estimate.value, 0.0);
-            assert_eq!(res.method, Method::Deterministic);
+            assert_eq!(res.method, IntegrationPath::Deterministic);
         }
     }
 }

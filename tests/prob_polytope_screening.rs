@@ -5,7 +5,7 @@
 
 use std::f64::consts::PI;
 
-use concord::prob::polytope::{Band, Method, Options, Polytope, Tolerance};
+use concord::prob::polytope::{Band, ErrorTarget, IntegrationPath, Options, Polytope};
 use nalgebra::DMatrix;
 
 mod common;
@@ -261,7 +261,7 @@ fn a_round_without_a_point_inside_is_not_reported_as_exact_zero() {
         exact_paths: false,
         best_effort: true,
     };
-    let budget = Tolerance {
+    let budget = ErrorTarget {
         abs: 0.0,
         rel: 0.0,
         max_points: 12 * 65_536,
@@ -293,7 +293,7 @@ fn contradictory_rows_are_proven_empty() {
         assert_eq!(r.value, 0.0);
         assert!(r.error <= 1e-15, "{r:?}");
         let d = g.probability_detailed(&p, &tol(0.0, 1e-3)).unwrap();
-        assert_eq!(d.method, Method::Empty);
+        assert_eq!(d.method, IntegrationPath::Empty);
         assert_eq!(d.points, 0);
     }
 }

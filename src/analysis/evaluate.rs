@@ -8,7 +8,7 @@
 use rayon::prelude::*;
 
 use crate::model::{Detection, Guard, LinearForm};
-use crate::prob::polytope::{Band, Gaussian, Polytope, Tolerance};
+use crate::prob::polytope::{Band, ErrorTarget, Gaussian, Polytope};
 use crate::prob::{Estimate, tolerance};
 
 use super::cells::{Cell, CellSet};
@@ -141,7 +141,7 @@ pub fn polytope(cells: &CellSet, cell: &Cell, pattern: &Pattern) -> Option<Polyt
 #[derive(Debug, Clone)]
 pub struct Evaluator {
     polytopes: [Vec<Polytope>; 4],
-    tolerance: Tolerance,
+    tolerance: ErrorTarget,
 }
 
 impl Evaluator {
@@ -151,7 +151,7 @@ impl Evaluator {
     /// [`AnalysisError::TooLarge`] when one figure needs more than `max_polytopes`.
     pub fn new(
         cells: &CellSet,
-        tolerance: Tolerance,
+        tolerance: ErrorTarget,
         max_polytopes: usize,
     ) -> Result<Self, AnalysisError> {
         let k = cells.check_bands.len();
@@ -216,7 +216,7 @@ impl Evaluator {
         &self,
         gaussian: &Gaussian,
         figure: Figure,
-        tolerance: &Tolerance,
+        tolerance: &ErrorTarget,
     ) -> Result<Estimate, AnalysisError> {
         // The polytopes are independent: computed in parallel, summed in their fixed order,
         // so the total has the same bits whatever the thread count.
@@ -258,7 +258,7 @@ fn probability_at(
     gaussian: &Gaussian,
     polytope: &Polytope,
     figure: Figure,
-    tolerance: &Tolerance,
+    tolerance: &ErrorTarget,
 ) -> Result<Estimate, AnalysisError> {
     gaussian
         .probability_best_effort(polytope, tolerance)

@@ -24,7 +24,7 @@ use crate::model::{Amplitude, CompiledFault};
 use crate::model::{CompiledModel, Detection, FaultMode, IsolationRule};
 use crate::prob::Estimate;
 use crate::prob::optimise::log_grid;
-use crate::prob::polytope::{Band, Gaussian, Polytope, Tolerance};
+use crate::prob::polytope::{Band, ErrorTarget, Gaussian, Polytope};
 
 use super::cells::CellSet;
 use super::engine::{Engine, Scenario};
@@ -42,7 +42,7 @@ pub struct BlamePlan {
     classes: Vec<Vec<Polytope>>,
     /// The candidate channels (indices into the model's channels).
     pub candidates: Vec<usize>,
-    tolerance: Tolerance,
+    tolerance: ErrorTarget,
 }
 
 /// The detected share split by the channel blamed.
@@ -162,7 +162,7 @@ impl BlamePlan {
         &self,
         g: &Gaussian,
         p: &Polytope,
-        tolerance: &Tolerance,
+        tolerance: &ErrorTarget,
     ) -> Result<Estimate, AnalysisError> {
         g.probability_best_effort(p, tolerance)
             .map(|r| r.estimate)
@@ -177,7 +177,7 @@ impl BlamePlan {
         &self,
         g: &Gaussian,
         wanted: &[usize],
-        tolerance: &Tolerance,
+        tolerance: &ErrorTarget,
     ) -> Result<Vec<Estimate>, AnalysisError> {
         let mut out = vec![Estimate::zero(); self.classes.len()];
         for &c in wanted {
@@ -834,7 +834,7 @@ fn worst_wrong_sigma(
         .map_err(|e| AnalysisError::engine("grid over the fault sigma", e))?;
     let scan_tol = options.scan_tolerance();
     let full_tol = options.polytope_tolerance();
-    let wrong_at = |sigma: f64, tol: &Tolerance| -> Result<f64, AnalysisError> {
+    let wrong_at = |sigma: f64, tol: &ErrorTarget| -> Result<f64, AnalysisError> {
         let g = scenario.with_gaussian_amplitude(mean, sigma)?;
         let c = plan.classes_at(&g, healthy, tol)?;
         Ok(c.iter().map(|e| e.value).sum())

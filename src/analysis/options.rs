@@ -2,7 +2,7 @@
 
 use serde::Serialize;
 
-use crate::prob::polytope::Tolerance;
+use crate::prob::polytope::ErrorTarget;
 use crate::prob::quadrature::QuadratureOptions;
 
 /// Settings of the exact analysis. Every figure it returns carries an error bound; these
@@ -58,8 +58,8 @@ impl Default for AnalysisOptions {
 
 impl AnalysisOptions {
     /// The tolerance handed to the polytope engine.
-    pub fn polytope_tolerance(&self) -> Tolerance {
-        Tolerance {
+    pub fn polytope_tolerance(&self) -> ErrorTarget {
+        ErrorTarget {
             abs: self.polytope_abs,
             rel: self.polytope_rel,
             max_points: self.polytope_max_points,
@@ -67,8 +67,8 @@ impl AnalysisOptions {
     }
 
     /// The tolerance of the scan over an unknown sigma.
-    pub fn scan_tolerance(&self) -> Tolerance {
-        Tolerance {
+    pub fn scan_tolerance(&self) -> ErrorTarget {
+        ErrorTarget {
             rel: self.sigma_scan_rel.max(self.polytope_rel),
             ..self.polytope_tolerance()
         }

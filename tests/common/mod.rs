@@ -7,7 +7,7 @@
 
 use std::f64::consts::PI;
 
-use concord::prob::polytope::{Band, Gaussian, Polytope, Tolerance};
+use concord::prob::polytope::{Band, ErrorTarget, Gaussian, Polytope};
 use nalgebra::DMatrix;
 
 /// `P(a < Z < b)` for a standard normal, from libm's erfc (an implementation outside the
@@ -42,8 +42,8 @@ pub fn unit(n: usize, i: usize) -> Vec<f64> {
     v
 }
 
-pub fn tol(abs: f64, rel: f64) -> Tolerance {
-    Tolerance {
+pub fn tol(abs: f64, rel: f64) -> ErrorTarget {
+    ErrorTarget {
         abs,
         rel,
         max_points: 4_000_000,

@@ -4,7 +4,7 @@
 use nalgebra::DMatrix;
 use serde::Deserialize;
 
-use crate::prob::polytope::{Band, Gaussian, Polytope, Tolerance};
+use crate::prob::polytope::{Band, ErrorTarget, Gaussian, Polytope};
 use crate::prob::quadrature::{QuadratureOptions, integrate};
 use crate::prob::{Estimate, bivariate, normal, tolerance};
 
@@ -179,7 +179,7 @@ pub fn sheppard_cases(data: &ReferenceData) -> Vec<Case> {
 /// Gaussian vectors of three to six coordinates in boxes, against mpmath one-factor
 /// reductions (40 digits); relative, so the tail cases near 1e-11 count.
 pub fn polytope_cases(data: &ReferenceData) -> Vec<Case> {
-    let tol = Tolerance {
+    let tol = ErrorTarget {
         abs: 1e-15,
         rel: 1e-7,
         max_points: 4_000_000,
@@ -203,7 +203,10 @@ pub fn polytope_cases(data: &ReferenceData) -> Vec<Case> {
         .collect()
 }
 
-fn box_probability(row: &PolytopeRow, tol: &Tolerance) -> Result<Estimate, crate::prob::ProbError> {
+fn box_probability(
+    row: &PolytopeRow,
+    tol: &ErrorTarget,
+) -> Result<Estimate, crate::prob::ProbError> {
     let n = row.mean.len();
     let cov = DMatrix::from_fn(n, n, |i, j| {
         row.cov

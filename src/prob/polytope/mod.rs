@@ -25,11 +25,11 @@
 //!
 //! 5. The last two variables of the conditioning are integrated exactly as a polygon
 //!    probability of a standard normal pair ([`crate::prob::strip`]): with two variables that is the
-//!    answer ([`Method::Planar`]); with three, the first variable is integrated by adaptive
+//!    answer ([`IntegrationPath::Planar`]); with three, the first variable is integrated by adaptive
 //!    Gauss–Kronrod with breakpoints at the projections of the polytope's vertices and
 //!    wherever a later row, or a pair of them, switches over a small share of the mass
 //!    (`Plan::switches`; nearly parallel directions make such switches narrow)
-//!    ([`Method::Nested`], deterministic, error four times the Kronrod estimate), unless
+//!    ([`IntegrationPath::Nested`], deterministic, error four times the Kronrod estimate), unless
 //!    the vertex enumeration would pass [`tolerance::NESTED_MAX_PLANE_SETS`] sets of planes
 //!    (then the lattice rule); with four or more, the lattice rule runs over two
 //!    dimensions fewer than the variables.
@@ -42,7 +42,7 @@
 //!    into the bound (`UnitRow::tilt`).
 //! 6. Before integrating (three or more variables; two on the plain lattice path of
 //!    [`Options::exact_paths`]), linear programming duality either proves
-//!    the polytope empty ([`Method::Empty`]) or bounds its probability by how thin it is
+//!    the polytope empty ([`IntegrationPath::Empty`]) or bounds its probability by how thin it is
 //!    (`depth_bound`; the smallest slab if that is less). A lattice round in which some
 //!    shift met no point inside says little about how small the inside is (all shifts
 //!    missing it report 0 with a spread of 0): until every shift has met it, that bound is
@@ -50,7 +50,7 @@
 //!    target.
 //!
 //! Files, in the order of the steps: this file holds the types ([`Gaussian`], [`Polytope`],
-//! [`Band`], [`Tolerance`], [`Options`], [`Method`], [`PolytopeProbability`]), the input
+//! [`Band`], [`ErrorTarget`], [`Options`], [`IntegrationPath`], [`PolytopeProbability`]), the input
 //! checks, step 1 and the entry points with the dispatch between the paths of step 4;
 //! `reduction.rs` steps 2 and 3 (unit rows, their merging and their error terms);
 //! `screening.rs` the bounds that answer or bound a polytope before integration (the pair
@@ -100,7 +100,7 @@ pub const DEFAULT_SEED: u64 = 0x636f_6e63_6f72_6401;
 /// `max(abs, rel * value)`; `max_points` bounds the integrand evaluations over all shifts.
 /// Exact paths (one or two directions) ignore the targets: their error is rounding only.
 #[derive(Debug, Clone, Copy, PartialEq)]
-pub struct Tolerance {
+pub struct ErrorTarget {
     /// Absolute error target.
     pub abs: f64,
     /// Relative error target.
@@ -109,7 +109,7 @@ pub struct Tolerance {
     pub max_points: usize,
 }
 
-impl Default for Tolerance {
+impl Default for ErrorTarget {
     fn default() -> Self {
         Self {
             abs: 1e-12,
@@ -119,7 +119,7 @@ impl Default for Tolerance {
     }
 }
 
-impl Tolerance {
+impl ErrorTarget {
     fn validate(&self) -> Result<(), ProbError> {
         if self.abs.is_nan() || self.abs < 0.0 || self.abs.is_infinite() {
             return Err(ProbError::InvalidArgument(format!(
@@ -259,7 +259,7 @@ impl Polytope {
 
 /// How a probability was computed.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
-pub enum Method {
+pub enum IntegrationPath {
     /// No random constraint is left (or a band is empty): the answer is 0 or 1 exactly.
     Deterministic,
     /// One random direction: the normal interval.
@@ -293,7 +293,7 @@ pub struct PolytopeProbability {
     /// The probability and its absolute error bound.
     pub estimate: Estimate,
     /// The path that computed it.
-    pub method: Method,
+    pub method: IntegrationPath,
     /// Lattice points evaluated (0 on exact paths).
     pub points: usize,
     /// Rank of the covariance factor.
@@ -316,7 +316,7 @@ pub struct Options {
     /// variables exactly); `false` sends
     /// everything with two or more directions through the plain lattice rule, a code path
     /// for cross-checks (it shares the reduction of the rows and the emptiness proof,
-    /// [`Method::Empty`], with the default one).
+    /// [`IntegrationPath::Empty`], with the default one).
     pub exact_paths: bool,
     /// Return the last estimate with its honest error instead of
     /// [`ProbError::BudgetExhausted`] when the point budget runs out.
@@ -507,7 +507,11 @@ impl Gaussian {
     /// # Errors
     /// Input errors (see [`Gaussian::probability_with`]) and
     /// [`ProbError::BudgetExhausted`] when neither tolerance is met within the budget.
-    pub fn probability(&self, polytope: &Polytope, tol: &Tolerance) -> Result<Estimate, ProbError> {
+    pub fn probability(
+        &self,
+        polytope: &Polytope,
+        tol: &ErrorTarget,
+    ) -> Result<Estimate, ProbError> {
         Ok(self.probability_detailed(polytope, tol)?.estimate)
     }
 
@@ -518,7 +522,7 @@ impl Gaussian {
     pub fn probability_detailed(
         &self,
         polytope: &Polytope,
-        tol: &Tolerance,
+        tol: &ErrorTarget,
     ) -> Result<PolytopeProbability, ProbError> {
         self.probability_with(polytope, tol, &Options::default())
     }
@@ -531,7 +535,7 @@ impl Gaussian {
     pub fn probability_best_effort(
         &self,
         polytope: &Polytope,
-        tol: &Tolerance,
+        tol: &ErrorTarget,
     ) -> Result<PolytopeProbability, ProbError> {
         let options = Options {
             best_effort: true,
@@ -550,7 +554,7 @@ impl Gaussian {
     pub fn probability_with(
         &self,
         polytope: &Polytope,
-        tol: &Tolerance,
+        tol: &ErrorTarget,
         options: &Options,
     ) -> Result<PolytopeProbability, ProbError> {
         tol.validate()?;
@@ -558,7 +562,7 @@ impl Gaussian {
         let rank = self.rank();
         let exact = |value: f64, directions: usize| PolytopeProbability {
             estimate: Estimate::new(value, 0.0),
-            method: Method::Deterministic,
+            method: IntegrationPath::Deterministic,
             points: 0,
             rank,
             directions,
@@ -577,7 +581,7 @@ impl Gaussian {
                 .map(|row| row.rounding_error(value) + row.tilt_error())
                 .sum()
         };
-        let with_error = |value: f64, error: f64, method: Method, points, variables| {
+        let with_error = |value: f64, error: f64, method: IntegrationPath, points, variables| {
             let value = value.clamp(0.0, 1.0);
             PolytopeProbability {
                 estimate: Estimate::new(value, error + rounding(value)),
@@ -593,12 +597,12 @@ impl Gaussian {
         }
         if rows.iter().any(|row| row.lower >= row.upper) {
             // A random direction confined to a single point (or less) after merging.
-            return Ok(with_error(0.0, 0.0, Method::Univariate, 0, 1));
+            return Ok(with_error(0.0, 0.0, IntegrationPath::Univariate, 0, 1));
         }
         if rows.len() == 1 {
             let value = normal::interval(rows[0].lower, rows[0].upper);
             let error = value * tolerance::ROUNDING_REL;
-            return Ok(with_error(value, error, Method::Univariate, 0, 1));
+            return Ok(with_error(value, error, IntegrationPath::Univariate, 0, 1));
         }
         if rows.len() == 2 && options.exact_paths {
             // Two unit directions: the bivariate normal rectangle (Genz 2004) with the cosine
@@ -607,7 +611,13 @@ impl Gaussian {
                 [rows[0].lower, rows[1].lower],
                 [rows[0].upper, rows[1].upper],
             );
-            return Ok(with_error(e.value, e.error, Method::Bivariate, 0, 2));
+            return Ok(with_error(
+                e.value,
+                e.error,
+                IntegrationPath::Bivariate,
+                0,
+                2,
+            ));
         }
         // The polytope lies inside each of its slabs, so the smallest slab probability
         // bounds it from above.
@@ -639,7 +649,7 @@ impl Gaussian {
                 let half = 0.5 * bound;
                 return Ok(PolytopeProbability {
                     estimate: Estimate::new(half, half + rounding(half)),
-                    method: Method::Bounded,
+                    method: IntegrationPath::Bounded,
                     points: 0,
                     rank,
                     directions,
@@ -651,18 +661,26 @@ impl Gaussian {
         if plan.variables == 1 {
             let value = plan.first_factor();
             let error = value * tolerance::ROUNDING_REL + plan.neglect_error();
-            return Ok(with_error(value, error, Method::Univariate, 0, 1));
+            return Ok(with_error(value, error, IntegrationPath::Univariate, 0, 1));
         }
         if options.exact_paths && plan.variables == 2 {
             let e = plan.pair_tail(&[]);
             let error = e.error + plan.neglect_error();
-            return Ok(with_error(e.value, error, Method::Planar, 0, 2));
+            return Ok(with_error(e.value, error, IntegrationPath::Planar, 0, 2));
         }
         // What the geometry alone says (module notes, step 6): a proof of emptiness
         // answers at once; otherwise the bound stands in for the lattice's error until
         // every shift has met the polytope.
         let known_bound = match depth_bound(&rows, rank) {
-            Depth::Empty => return Ok(with_error(0.0, 0.0, Method::Empty, 0, plan.variables)),
+            Depth::Empty => {
+                return Ok(with_error(
+                    0.0,
+                    0.0,
+                    IntegrationPath::Empty,
+                    0,
+                    plan.variables,
+                ));
+            }
             Depth::Thin(bound) => bound.min(slab_bound),
         };
         // Rounding of the sums and of the integrand, relative to the value.
@@ -684,7 +702,7 @@ impl Gaussian {
                 outcome.error,
                 outcome.points,
                 outcome.converged,
-                Method::Lattice,
+                IntegrationPath::Lattice,
             )
         };
         let (value, error, points, converged, method) = if nested_fits {
@@ -705,7 +723,7 @@ impl Gaussian {
             // 1e-8 reported for 2.4e-8). It is reported times a safety factor, and the rule
             // aims that much tighter so that the reported bound still meets the target.
             let safety = tolerance::NESTED_ESTIMATE_SAFETY;
-            let aim = Tolerance {
+            let aim = ErrorTarget {
                 abs: tol.abs / safety,
                 rel: tol.rel / safety,
                 max_points: tol.max_points,
@@ -716,7 +734,7 @@ impl Gaussian {
                     nested.error * safety,
                     spent + nested.evaluations,
                     nested.converged,
-                    Method::Nested,
+                    IntegrationPath::Nested,
                 )
             };
             match first {

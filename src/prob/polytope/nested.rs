@@ -7,7 +7,7 @@ use crate::prob::normal;
 use crate::prob::quadrature::{self, QuadratureOptions};
 use crate::prob::tolerance;
 
-use super::Tolerance;
+use super::ErrorTarget;
 use super::plan::{Plan, PlanRow, W_CLAMP, bounds, conditional_draw};
 
 /// The interval of one nested variable cut to where the integrand can be non-zero, and
@@ -39,7 +39,7 @@ impl Plan {
     /// [`ProbError::BudgetExhausted`], for the caller to go back to the lattice rule.
     pub(super) fn nested(
         &self,
-        tol: &Tolerance,
+        tol: &ErrorTarget,
         max_evaluations: usize,
     ) -> Result<NestedOutcome, ProbError> {
         let outer_budget = (tol.max_points / 21).clamp(1, tolerance::NESTED_MAX_INTERVALS);
