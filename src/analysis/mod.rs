@@ -20,6 +20,7 @@
 //! - [`options`]: the numerical settings of an analysis (tolerances and budgets).
 //! - [`error`]: the errors of the analysis layer.
 
+pub mod blame;
 pub mod cells;
 pub mod compare;
 pub mod engine;
@@ -42,8 +43,10 @@ pub mod sweep;
 pub mod timed_sampling;
 pub mod timed_tune;
 pub mod timing;
+mod timing_split;
 pub mod tolerances;
 pub mod tune;
+pub mod uniform;
 pub mod workload;
 
 pub use error::{AnalysisError, RequestField};

@@ -5,12 +5,14 @@
 //! `mod.rs` reads the top level; `toolkit.rs` holds the generic reading of tables and typed
 //! values with their spans, `sections.rs` the reader of each section.
 
+mod extensions;
 mod sections;
 mod toolkit;
 
 use super::error::Sink;
 use super::raw::*;
 use super::tree::Node;
+use extensions::*;
 use sections::*;
 use toolkit::*;
 
