@@ -1,12 +1,14 @@
 //! The order-statistic engine: a median of N channels with a range check over all N, one
 //! shared term (a common supply), at the default accuracy of the analysis; and the whole
-//! analysis of such a file with a known-sigma drift.
+//! analysis of such a file with a known-sigma drift; and k-of-n windows on an even median.
 
 use criterion::{Criterion, criterion_group, criterion_main};
 
 use concord::analysis::{AnalysisOptions, analyze};
 use concord::model::load_str;
-use concord::prob::order::{Accuracy, Agreement, Question, Rank, SharedGaussian, figures};
+use concord::prob::order::{
+    Accuracy, Agreement, ChannelBand, Question, Rank, SharedGaussian, figures,
+};
 
 #[path = "common/chains.rs"]
 mod chains;
@@ -28,6 +30,7 @@ fn median_question(n: usize) -> (SharedGaussian, Question) {
             limit: 2.5,
         },
         bands: Vec::new(),
+        detection_needed: 1,
     };
     (g, q)
 }
@@ -52,6 +55,33 @@ fn order_figures(c: &mut Criterion) {
         let options = AnalysisOptions::default();
         group.bench_function(format!("analyze median of {n}, one drift"), |b| {
             b.iter(|| analyze(&arch.model, &options, false).expect("analysis"))
+        });
+    }
+    // k of n windows (checks of single channels, one per channel) on an even median: the
+    // count of firing windows as a second Poisson-binomial count.
+    for (n, k) in [(4usize, 2usize), (8, 3)] {
+        let g = SharedGaussian {
+            mean: vec![0.0; n],
+            own_sd: vec![1.0; n],
+            shared: vec![vec![0.4; n]],
+            uniform: None,
+        };
+        let q = Question {
+            output: Rank::median((0..n).collect()).into(),
+            safe_lower: -1.0,
+            safe_upper: 1.0,
+            agreement: Agreement::Always,
+            bands: (0..n)
+                .map(|channel| ChannelBand {
+                    channel,
+                    lower: -2.0,
+                    upper: 2.0,
+                })
+                .collect(),
+            detection_needed: k,
+        };
+        group.bench_function(format!("median of {n}, {k} of {n} windows"), |b| {
+            b.iter(|| figures(&g, &q, &accuracy).expect("figures"))
         });
     }
     group.finish();

@@ -419,6 +419,7 @@ fn range_exceeds(n: usize, r: f64) -> (f64, f64) {
             limit: r,
         },
         bands: Vec::new(),
+        detection_needed: 1,
     };
     let f = figures(
         &g,
@@ -611,4 +612,121 @@ fn hunt_against_the_polytope_engine() {
         }
     }
     println!("{cases} cases, largest difference / bounds {worst}");
+}
+
+/// `n` channels, each with its own plausibility window `[-window, window]` (a check of one
+/// channel), the median output, detection on `k` firing windows; `source` the sigma of a
+/// shared supply (0: none) and `fault` a fault section or "".
+fn windows_file(n: usize, k: usize, source: f64, window: f64, fault: &str) -> String {
+    let mut s = String::from("name = \"k of n\"\nunit = \"mm\"\n");
+    if source > 0.0 {
+        s.push_str(&format!("[sources.supply]\nsigma = {source}\n"));
+    }
+    for i in 0..n {
+        s.push_str(&format!("[channels.c{i}]\nmean = 0.0\nsigma = 1.0\n"));
+        if source > 0.0 {
+            s.push_str("from = { supply = 1.0 }\n");
+        }
+    }
+    let all: Vec<String> = (0..n).map(|i| format!("\"c{i}\"")).collect();
+    s.push_str(&format!(
+        "[output]\nkind = \"median\"\nof = [{}]\n",
+        all.join(", ")
+    ));
+    for i in 0..n {
+        s.push_str(&format!(
+            "[checks.w{i}]\nkind = \"linear\"\nof = {{ c{i} = 1.0 }}\nlimit = {window}\n"
+        ));
+    }
+    s.push_str(&format!(
+        "[detection]\nfires = {{ at_least = {k} }}\n[safety]\nlimit = 1.0\n{fault}"
+    ));
+    s
+}
+
+#[test]
+fn k_of_n_windows_match_enumeration_of_every_class_assignment() {
+    // Five independent N(0, 1) channels, windows at 2, safety band [-1, 1], median output,
+    // detection on two windows. Each channel falls in one of five classes: below -2 (fires,
+    // below the band), [-2, -1) (below, quiet), [-1, 1], (1, 2] (above, quiet), above 2
+    // (fires, above). The reference sums the product probabilities of all 5^5 class
+    // assignments (common practice: enumeration of independent outcomes), Phi by libm erfc.
+    let phi = |x: f64| 0.5 * libm::erfc(-x / std::f64::consts::SQRT_2);
+    let p = [
+        phi(-2.0),
+        phi(-1.0) - phi(-2.0),
+        phi(1.0) - phi(-1.0),
+        phi(2.0) - phi(1.0),
+        1.0 - phi(2.0),
+    ];
+    let (n, k) = (5usize, 2usize);
+    let (mut p_vd, mut p_vu, mut p_sd, mut p_sq) = (0.0, 0.0, 0.0, 0.0);
+    for code in 0..5usize.pow(n as u32) {
+        let mut rest = code;
+        let (mut below, mut above, mut fired, mut prob) = (0, 0, 0, 1.0);
+        for _ in 0..n {
+            let class = rest % 5;
+            rest /= 5;
+            prob *= p[class];
+            below += usize::from(class <= 1);
+            above += usize::from(class >= 3);
+            fired += usize::from(class == 0 || class == 4);
+        }
+        // The median of five is below -1 when three or more are, above 1 likewise.
+        let violated = below >= 3 || above >= 3;
+        match (violated, fired >= k) {
+            (true, true) => p_vd += prob,
+            (true, false) => p_vu += prob,
+            (false, true) => p_sd += prob,
+            (false, false) => p_sq += prob,
+        }
+    }
+    let a = run(&windows_file(n, k, 0.0, 2.0, ""), true);
+    assert_eq!(a.baseline_method, FigureMethod::OrderStatistics);
+    for (got, want, name) in [
+        (a.baseline.p_vd, p_vd, "p_vd"),
+        (a.baseline.p_vu, p_vu, "p_vu"),
+        (a.baseline.p_sd, p_sd, "p_sd"),
+        (a.baseline.p_sq, p_sq, "p_sq"),
+    ] {
+        assert!(
+            (got.value - want).abs() <= got.error + 1e-14,
+            "{name}: {:e} +- {:e} against {want:e}",
+            got.value,
+            got.error
+        );
+    }
+}
+
+#[test]
+fn k_of_n_windows_agree_with_the_polytopes_under_a_shared_supply_and_a_fault() {
+    // Three channels on one supply, two of three windows, a drift of known spread on c0 and
+    // a channel stuck at 1.5: both engines on every figure, within their bounds.
+    for fault in [
+        "[faults.drift]\nfit = 10.0\nhits = { c0 = 1.0 }\nmode = \"add\"\n\
+         amplitude = { gaussian = { mean = 0.5, sigma = 2.0 } }\n",
+        "[faults.stuck]\nfit = 10.0\nhits = { c1 = 1.0 }\nmode = \"replace\"\n\
+         amplitude = { points = [[1.5, 1.0]] }\n",
+    ] {
+        let text = windows_file(3, 2, 0.4, 2.0, fault);
+        let order = run(&text, true);
+        let poly = run(&text, false);
+        assert_eq!(order.sites[0].method, FigureMethod::OrderStatistics);
+        agree(&order.baseline, &poly.baseline, "baseline");
+        agree(&order.sites[0].outcome, &poly.sites[0].outcome, fault);
+    }
+}
+
+#[test]
+fn k_of_n_windows_with_an_even_median_agree_with_the_polytopes() {
+    // Four channels on one supply (the median is the mean of the middle two), two of four
+    // windows, a drift of known spread on c0: both engines, every figure within the bounds.
+    let fault = "[faults.drift]\nfit = 10.0\nhits = { c0 = 1.0 }\nmode = \"add\"\n\
+                 amplitude = { gaussian = { mean = 0.5, sigma = 2.0 } }\n";
+    let text = windows_file(4, 2, 0.4, 2.0, fault);
+    let order = run(&text, true);
+    let poly = run(&text, false);
+    assert_eq!(order.sites[0].method, FigureMethod::OrderStatistics);
+    agree(&order.baseline, &poly.baseline, "baseline");
+    agree(&order.sites[0].outcome, &poly.sites[0].outcome, "drift");
 }

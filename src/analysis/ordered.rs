@@ -4,7 +4,8 @@
 //! A model fits when its output is an order statistic of channels (minimum, maximum, a
 //! median of an odd count, or one channel), its checks pass together in a region the
 //! engine counts (no checks; one range check; difference checks of channel pairs that all
-//! share one channel) and it detects on any firing check. A scenario fits when its
+//! share one channel) and it detects on any firing check, or on k of its checks when they are
+//! checks of single channels against fixed limits, one per channel. A scenario fits when its
 //! covariance is a diagonal plus at most [`MAX_SHARED_TERMS`] shared terms: each shared
 //! source is one term, a positive correlation between own noises is one term per group
 //! of correlated channels when the group's correlations factor as `rho_ij = a_i a_j`, a
@@ -115,14 +116,27 @@ pub fn question(model: &CompiledModel) -> Result<Question, String> {
             }
         }
     }
-    // Detection on k >= 2 firing checks is not a pass region the counts describe; without a
-    // check that can fire, nothing is ever detected whatever k is (`Agreement::Always`).
-    if let Detection::AtLeast(k) = model.detection
-        && k > 1
-        && firing_checks > 0
-    {
-        return Err(format!("detection needs {k} firing checks"));
-    }
+    // Detection on k >= 2 firing checks is counted for checks of single channels alone (one
+    // per channel, beside no range or difference check); without a check that can fire,
+    // nothing is ever detected whatever k is (`Agreement::Always`).
+    let detection_needed = match model.detection {
+        Detection::AtLeast(k) if k > 1 && firing_checks > 0 => {
+            if range.is_some() || !differences.is_empty() {
+                return Err(format!(
+                    "detection needs {k} firing checks, with a range or difference check"
+                ));
+            }
+            let mut channels: Vec<usize> = bands.iter().map(|b| b.channel).collect();
+            channels.sort_unstable();
+            if channels.windows(2).any(|w| w[0] == w[1]) {
+                return Err(format!(
+                    "detection needs {k} firing checks, two of them on one channel"
+                ));
+            }
+            k
+        }
+        _ => 1,
+    };
     let agreement = match (range, differences.is_empty()) {
         (None, true) => Agreement::Always,
         (Some(r), true) => r,
@@ -138,6 +152,7 @@ pub fn question(model: &CompiledModel) -> Result<Question, String> {
         safe_upper: model.safety_upper,
         agreement,
         bands,
+        detection_needed,
     })
 }
 

@@ -177,6 +177,10 @@ pub struct Question {
     pub safe_upper: f64,
     pub agreement: Agreement,
     pub bands: Vec<ChannelBand>,
+    /// Firing checks a detection needs (1: any check). Above 1 only for checks of single
+    /// channels against fixed limits, one per channel, with no agreement check: the count
+    /// of firing checks is then one more Poisson-binomial count (see `counted_tails`).
+    pub detection_needed: usize,
 }
 
 impl Question {
@@ -222,6 +226,11 @@ pub struct Accuracy {
 
 /// Why a case does not fit this method (the caller uses the general engine instead).
 pub fn unsupported_reason(g: &SharedGaussian, q: &Question) -> Option<String> {
+    if q.detection_needed > 1
+        && let Some(reason) = counted_detection_unfit(q)
+    {
+        return Some(reason);
+    }
     match &q.output {
         Output::Order(_) if g.shared.len() > MAX_SHARED_TERMS => {
             return Some(format!(
@@ -257,6 +266,34 @@ pub fn unsupported_reason(g: &SharedGaussian, q: &Question) -> Option<String> {
     if matches!(q.agreement, Agreement::Differences(_)) && q.agreement.common_channels().is_empty()
     {
         return Some("difference checks that do not share one channel".into());
+    }
+    None
+}
+
+/// Why a detection on `k >= 2` firing checks is not counted here, if it is not: the count
+/// of firing checks is taken over checks of single channels, one per channel, beside an
+/// order statistic without agreement checks.
+fn counted_detection_unfit(q: &Question) -> Option<String> {
+    let k = q.detection_needed;
+    if q.agreement != Agreement::Always {
+        return Some(format!(
+            "detection on {k} firing checks together with a range or difference check"
+        ));
+    }
+    match &q.output {
+        Output::Order(_) => {}
+        Output::Weighted(_) => {
+            return Some(format!(
+                "detection on {k} firing checks with a weighted-sum output"
+            ));
+        }
+    }
+    let mut seen: Vec<usize> = q.bands.iter().map(|b| b.channel).collect();
+    seen.sort_unstable();
+    if seen.windows(2).any(|w| w[0] == w[1]) {
+        return Some(format!(
+            "detection on {k} firing checks with two checks of one channel"
+        ));
     }
     None
 }
@@ -667,6 +704,107 @@ fn banded_tails(cond: &Conditional, rank: &Rank, q: &Question, in_output: &[bool
     [below[need_lo], above[need_hi], pass]
 }
 
+/// Detection on `k = q.detection_needed >= 2` firing checks of single channels (one per
+/// channel, no agreement check): `P(y < lo, fewer than k fire)`, `P(y > hi, fewer than k
+/// fire)` and `P(fewer than k fire)`. Given the shared terms the channels are independent,
+/// so each channel adds to two saturating counts at once: below (or above) the safety end,
+/// and firing (outside its own band); the joint count is a two-dimensional Poisson-binomial
+/// programme, `O(n need k)` per point (the count of firing checks is the usual k-out-of-n
+/// reliability recursion; Barlow and Heidtmann 1984, IEEE Trans. Reliability R-33(4), from
+/// memory).
+fn counted_tails(cond: &Conditional, rank: &Rank, q: &Question, in_output: &[bool]) -> [f64; 3] {
+    let k = q.detection_needed;
+    let (need_lo, need_hi) = output_needs(rank);
+    let (lo, hi) = (q.safe_lower, q.safe_upper);
+    // poly[c * k + f]: c counted toward the output (saturating at need), f checks fired
+    // (f < k; a state with k or more fired is detected and dropped).
+    let mut below = vec![0.0; (need_lo + 1) * k];
+    let mut above = vec![0.0; (need_hi + 1) * k];
+    let mut quiet = vec![0.0; k];
+    below[0] = 1.0;
+    above[0] = 1.0;
+    quiet[0] = 1.0;
+    // Adds one channel: `(yes, no)` for staying quiet and for firing.
+    let step =
+        |poly: &mut Vec<f64>, need: usize, quiet_parts: (f64, f64), fired_parts: (f64, f64)| {
+            let mut next = vec![0.0; poly.len()];
+            for c in 0..=need {
+                for f in 0..k {
+                    let p = poly[c * k + f];
+                    if p == 0.0 {
+                        continue;
+                    }
+                    let up = (c + 1).min(need);
+                    let (q_yes, q_no) = quiet_parts;
+                    let (f_yes, f_no) = fired_parts;
+                    next[up * k + f] += p * q_yes;
+                    next[c * k + f] += p * q_no;
+                    if f + 1 < k {
+                        next[up * k + f + 1] += p * f_yes;
+                        next[c * k + f + 1] += p * f_no;
+                    }
+                }
+            }
+            *poly = next;
+        };
+    for (j, &counted) in in_output.iter().enumerate().take(cond.mean.len()) {
+        let band = cond.band.get(j).copied().flatten();
+        let all = cond.parts(j, f64::NEG_INFINITY, f64::INFINITY, lo, hi);
+        let (inside, outside) = match band {
+            None => (all, [0.0; 3]),
+            Some((a, b)) => {
+                let inside = cond.parts(j, a, b, lo, hi);
+                let outside = if cond.is_point(j) {
+                    // Exact bits: a point is inside or not.
+                    [all[0] - inside[0], all[1] - inside[1], all[2] - inside[2]]
+                } else {
+                    let left = cond.parts(j, f64::NEG_INFINITY, a, lo, hi);
+                    let right = cond.parts(j, b, f64::INFINITY, lo, hi);
+                    [left[0] + right[0], left[1] + right[1], left[2] + right[2]]
+                };
+                (inside, outside)
+            }
+        };
+        let (in_all, out_all) = (
+            inside[0] + inside[1] + inside[2],
+            outside[0] + outside[1] + outside[2],
+        );
+        if counted {
+            step(
+                &mut below,
+                need_lo,
+                (inside[0], inside[1] + inside[2]),
+                (outside[0], outside[1] + outside[2]),
+            );
+            step(
+                &mut above,
+                need_hi,
+                (inside[2], inside[0] + inside[1]),
+                (outside[2], outside[0] + outside[1]),
+            );
+        } else if band.is_some() {
+            step(&mut below, need_lo, (0.0, in_all), (0.0, out_all));
+            step(&mut above, need_hi, (0.0, in_all), (0.0, out_all));
+        }
+        if band.is_some() {
+            let mut next = vec![0.0; k];
+            for f in 0..k {
+                next[f] += quiet[f] * in_all;
+                if f + 1 < k {
+                    next[f + 1] += quiet[f] * out_all;
+                }
+            }
+            quiet = next;
+        }
+    }
+    let tail = |poly: &[f64], need: usize| poly[need * k..(need + 1) * k].iter().sum::<f64>();
+    [
+        tail(&below, need_lo),
+        tail(&above, need_hi),
+        quiet.iter().sum(),
+    ]
+}
+
 /// The pivot structure of an agreement: the channels that can be the pivot, and for every
 /// constrained channel the interval `[u + alpha, u + beta]` it must lie in.
 struct Pivot {
@@ -842,11 +980,19 @@ fn conditional_figures(
             let [lower, upper] = paired_tails(cond, q, rank, false, &in_output, accuracy)?;
             evaluations += lower.evaluations + upper.evaluations;
             converged &= lower.converged && upper.converged;
-            let [_, _, pass] = banded_tails(cond, rank, q, &in_output);
+            let [_, _, pass] = if q.detection_needed > 1 {
+                counted_tails(cond, rank, q, &in_output)
+            } else {
+                banded_tails(cond, rank, q, &in_output)
+            };
             (
                 [lower.value, upper.value, pass],
                 [lower.error, upper.error, pass * ROUNDING_REL],
             )
+        }
+        None if q.detection_needed > 1 => {
+            let t = counted_tails(cond, rank, q, &in_output);
+            (t, t.map(|x| x * ROUNDING_REL))
         }
         None => {
             let t = banded_tails(cond, rank, q, &in_output);
@@ -970,6 +1116,7 @@ impl Mirrored {
                 output: q.output.clone(),
                 safe_lower: -q.safe_upper,
                 safe_upper: -q.safe_lower,
+                detection_needed: q.detection_needed,
                 agreement,
                 bands: q
                     .bands
@@ -1048,6 +1195,11 @@ fn paired_lower(
         in_output,
         k: rank.k,
         lo: q.safe_lower,
+        detection_needed: if pivot.is_some() {
+            1
+        } else {
+            q.detection_needed
+        },
     };
     let Some(pivot) = pivot else {
         // One dimension: cheap to hold to a thousandth of the relative target, which keeps
@@ -1204,6 +1356,7 @@ mod tests {
             safe_upper: 0.5,
             agreement: Agreement::Always,
             bands: Vec::new(),
+            detection_needed: 1,
         };
         let f = figures(&g, &q, &accuracy()).unwrap();
         let want = normal::sf(0.5) * normal::sf(-0.25);
@@ -1239,6 +1392,7 @@ mod tests {
                 safe_upper: f64::INFINITY,
                 agreement,
                 bands: Vec::new(),
+                detection_needed: 1,
             };
             let f = figures(&g, &q, &accuracy()).unwrap();
             let want = normal::interval(-1.3 / 2f64.sqrt(), 1.3 / 2f64.sqrt());

@@ -318,6 +318,54 @@ pub fn order_statistic_cases(_data: &ReferenceData) -> Vec<Case> {
          [checks.ab]\nkind = \"difference\"\nof = [\"a\", \"b\"]\nlimit = {limit}\n\n\
          [safety]\nlimit = {band}\n"
     );
+    // Two of five windows: five independent N(0, 1) channels, each checked against
+    // [-2, 2], the median against [-1, 1], detection on two firing windows. Each channel
+    // falls in one of five classes (below -2, [-2, -1), [-1, 1], (1, 2], above 2); the
+    // residual sums the products over all 5^5 class assignments where three or more lie on
+    // one side of the band and fewer than two fire (enumeration, common practice).
+    let class = [
+        phi(-2.0),
+        phi(-1.0) - phi(-2.0),
+        phi(1.0) - phi(-1.0),
+        phi(2.0) - phi(1.0),
+        1.0 - phi(2.0),
+    ];
+    let mut windows_reference = 0.0;
+    for code in 0..5usize.pow(5) {
+        let (mut rest, mut below, mut above, mut fired, mut prob) = (code, 0, 0, 0, 1.0);
+        for _ in 0..5 {
+            let c = rest % 5;
+            rest /= 5;
+            prob *= class[c];
+            below += usize::from(c <= 1);
+            above += usize::from(c >= 3);
+            fired += usize::from(c == 0 || c == 4);
+        }
+        if (below >= 3 || above >= 3) && fired < 2 {
+            windows_reference += prob;
+        }
+    }
+    let mut windows = String::from("name = \"two of five\"\nunit = \"V\"\n");
+    for i in 0..5 {
+        windows.push_str(&format!(
+            "[channels.c{i}]\nsigma = 1.0\n[checks.w{i}]\nkind = \"linear\"\n\
+             of = {{ c{i} = 1.0 }}\nlimit = 2.0\n"
+        ));
+    }
+    windows.push_str(
+        "[output]\nkind = \"median\"\nof = [\"c0\", \"c1\", \"c2\", \"c3\", \"c4\"]\n\
+         [detection]\nfires = { at_least = 2 }\n[safety]\nlimit = 1.0\n",
+    );
+    cases.push(Case::new(
+        ORDER,
+        "median of 5, two of five windows / p_vu".to_string(),
+        "enumeration of the 5^5 class assignments of independent channels (common practice); \
+         Phi by libm erfc",
+        ordered_residual(run_file(&windows, "windows.toml")),
+        windows_reference,
+        CLOSED_FORM_ABS + CLOSED_FORM_REL * windows_reference,
+        Measure::Absolute,
+    ));
     cases.push(Case::new(
         ORDER,
         "mean of two with a comparator / p_vu".to_string(),

@@ -47,6 +47,9 @@ pub(super) struct LowerSide<'a> {
     pub in_output: &'a [bool],
     pub k: usize,
     pub lo: f64,
+    /// Firing checks a detection needs (1: any, which confines every channel to its band;
+    /// above 1: own bands only, no agreement, see [`LowerSide::counted_density`]).
+    pub detection_needed: usize,
 }
 
 /// Index of a state: agreement pivot placed (`a`), `k`-th channel placed (`o`), a channel
@@ -59,6 +62,9 @@ impl LowerSide<'_> {
     /// The density at the point (`u` of the agreement, `t` of the `k`-th channel) of
     /// "every check passes, the `k`-th channel there, `y < lo`".
     fn density(&self, agreement: Option<AgreementAt>, kth: KthChannel) -> f64 {
+        if self.detection_needed > 1 && agreement.is_none() {
+            return self.counted_density(kth);
+        }
         let (k, lo) = (self.k, self.lo);
         let t = match kth {
             KthChannel::At(t, _) => t,
@@ -171,6 +177,118 @@ impl LowerSide<'_> {
         }
         // (In the combined case the pivot's transition set both flags.)
         state[slot(k, 1, 1, 1, k - 1)]
+    }
+
+    /// The density at `t` of the `k`-th channel of "fewer than `detection_needed` own bands
+    /// fire, the `k`-th channel at `t`, `y < lo`", for detection on several firing checks of
+    /// single channels (no agreement). The programme of [`LowerSide::density`] with one more
+    /// saturating count, the bands that fired: each channel splits into its part inside its
+    /// band (as before) and outside it (one more firing); the `k`-th channel at `t` fires
+    /// when `t` is outside its band.
+    fn counted_density(&self, kth: KthChannel) -> f64 {
+        let (k, lo, kd) = (self.k, self.lo, self.detection_needed);
+        let KthChannel::At(t, weight) = kth else {
+            return 0.0;
+        };
+        if t.is_nan() || t >= lo {
+            return 0.0;
+        }
+        let far_from = 2.0 * lo - t;
+        let at = |o: usize, seen: usize, c: usize, f: usize| ((o * 2 + seen) * k + c) * kd + f;
+        let mut state = vec![0.0; 4 * k * kd];
+        let mut next = vec![0.0; 4 * k * kd];
+        state[0] = 1.0;
+        for j in 0..self.cond.mean.len() {
+            let counted = self.in_output[j];
+            let band = self.cond.band.get(j).copied().flatten();
+            if !counted && band.is_none() {
+                continue;
+            }
+            let (l, h) = band.unwrap_or((f64::NEG_INFINITY, f64::INFINITY));
+            let seg = |a: f64, b: f64| {
+                if a < b {
+                    self.cond.between(j, a, b)
+                } else {
+                    0.0
+                }
+            };
+            // P(x_j in [a, b] and outside the band).
+            let point = self.cond.is_point(j);
+            let out = |a: f64, b: f64| {
+                if band.is_none() {
+                    0.0
+                } else if point {
+                    self.cond.between(j, a, b) - self.cond.between(j, a.max(l), b.min(h))
+                } else {
+                    seg(a, b.min(l)) + seg(a.max(h), b)
+                }
+            };
+            next.iter_mut().for_each(|x| *x = 0.0);
+            if counted {
+                let inside = [
+                    self.cond.between(j, l, h.min(t)),
+                    self.cond.between(j, l.max(t), h.min(far_from)),
+                    self.cond.between(j, l.max(far_from), h),
+                ];
+                let outside = [
+                    out(f64::NEG_INFINITY, t),
+                    out(t, far_from),
+                    out(far_from, f64::INFINITY),
+                ];
+                for (fired, [below, near, far]) in [(0, inside), (1, outside)] {
+                    for o in 0..2 {
+                        for c in 0..k {
+                            for f in 0..kd {
+                                if f + fired >= kd {
+                                    continue;
+                                }
+                                let g = f + fired;
+                                let unseen = state[at(o, 0, c, f)];
+                                let seen = state[at(o, 1, c, f)];
+                                next[at(o, 0, c, g)] += unseen * far;
+                                next[at(o, 1, c, g)] += seen * (near + far) + unseen * near;
+                                if c + 1 < k {
+                                    next[at(o, 0, c + 1, g)] += unseen * below;
+                                    next[at(o, 1, c + 1, g)] += seen * below;
+                                }
+                            }
+                        }
+                    }
+                }
+                // As the k-th channel, at t.
+                let w = weight(j);
+                if w != 0.0 {
+                    let fired = usize::from(t < l || t > h);
+                    for seen in 0..2 {
+                        for c in 0..k {
+                            for f in 0..kd {
+                                if f + fired < kd {
+                                    next[at(1, seen, c, f + fired)] += w * state[at(0, seen, c, f)];
+                                }
+                            }
+                        }
+                    }
+                }
+            } else {
+                let inside = self.cond.between(j, l, h);
+                let outside = out(f64::NEG_INFINITY, f64::INFINITY);
+                for o in 0..2 {
+                    for seen in 0..2 {
+                        for c in 0..k {
+                            for f in 0..kd {
+                                let s = state[at(o, seen, c, f)];
+                                next[at(o, seen, c, f)] += s * inside;
+                                if f + 1 < kd {
+                                    next[at(o, seen, c, f + 1)] += s * outside;
+                                }
+                            }
+                        }
+                    }
+                }
+            }
+            std::mem::swap(&mut state, &mut next);
+        }
+        (0..kd).map(|f| state[at(1, 1, k - 1, f)]).sum()
     }
 
     /// Whether the checks passing with the pivot at `u` confine every member of the output

@@ -166,6 +166,7 @@ pub(super) fn point(
                 safe_upper: f64::INFINITY,
                 agreement: q.agreement.clone(),
                 bands: Vec::new(),
+                detection_needed: 1,
             };
             let r = conditional_figures(cond, &pass_question, &rank, accuracy)?;
             let ([_, _, fail, pass], [_, _, e_fail, e_pass]) = r.point;
