@@ -2,7 +2,8 @@
 //! travel sensor) run end to end into a folder: three candidate architectures (1oo2 with a
 //! difference check, 1oo2 with a plausibility check against a model estimate, 2oo3 with a
 //! median vote) analysed, compared, their comparator bands tuned to a coverage target on the
-//! common-cause fault, and one HTML report per candidate. Prints what it wrote and the trade
+//! common-cause fault, the inputs of the first candidate ranked by their effect on every
+//! figure, and one HTML report per candidate. Prints what it wrote and the trade
 //! in one screen. demo/README.md walks a new user through the output.
 //!
 //! Each step is one call of a command's `run` (or of [`super::report::build`]) with the
@@ -18,8 +19,10 @@ use crate::analysis::tune::{CoverageFigure, TuneRequest, TuneResult, tune};
 use crate::report::format::probability;
 use crate::report::tune::{curve_csv, summary, trade_off_svg};
 
-use super::args::{AccuracyArgs, AnalyzeArgs, CompareArgs, CoverageArg, Format, MethodArg};
-use super::{CliError, analyze, compare, load, report, write_output};
+use super::args::{
+    AccuracyArgs, AnalyzeArgs, CompareArgs, CoverageArg, Format, MethodArg, SensitivityArgs,
+};
+use super::{CliError, analyze, compare, load, report, sensitivity, write_output};
 
 /// The scenario's architecture files, bundled into the binary: (file name, text).
 pub const FILES: [(&str, &str); 3] = [
@@ -216,7 +219,37 @@ pub fn run(args: &super::args::DemoArgs) -> Result<String, CliError> {
         tuned.push(tuned_line(s, &result));
     }
 
-    // 4. One report per candidate, for the safety case.
+    // 4. Which inputs matter: the sensitivity of every figure of the first candidate (two
+    // channels, milliseconds) to every number of its file, ranked.
+    let (first, first_name) = (&files[0], stem(FILES[0].0));
+    for (format, ext, what) in [
+        (
+            Format::Table,
+            "txt",
+            "concord sensitivity: every figure's derivative by every input of the file, ranked",
+        ),
+        (
+            Format::Csv,
+            "csv",
+            "the same as CSV (every input, every figure)",
+        ),
+    ] {
+        let text = sensitivity::run(&SensitivityArgs {
+            file: first.clone(),
+            format,
+            plot: None,
+            accuracy: AccuracyArgs { tolerance: None },
+        })?;
+        write(
+            dir,
+            &format!("sensitivity-{first_name}.{ext}"),
+            &text,
+            what,
+            &mut list,
+        )?;
+    }
+
+    // 5. One report per candidate, for the safety case.
     let mut reports = Vec::new();
     for (file, (name, _)) in files.iter().zip(FILES) {
         let (html, written) = report::build(

@@ -10,8 +10,10 @@
 //! - [`whole`]: whole analyses against the stored SciPy/mpmath table of two independent
 //!   integrations, a factorised closed form derived by hand, and agreement with the
 //!   independent Monte Carlo engine.
-//! - [`isolation`]: the blame of a channel stuck far outside by hand, and a pair that never
-//!   names a channel.
+//! - [`isolation`]: the blame of a channel stuck far outside by hand, a pair that never
+//!   names a channel, and a degraded stage stated in the file against a closed form.
+//! - [`sensitivity`]: derivatives of the false alarm and the residual of two channels on a
+//!   shared source, derived by hand.
 //! - [`timed`]: the confirmation chains against Feller's success runs and mean waiting time,
 //!   and a whole timed analysis against them.
 //!
@@ -22,6 +24,7 @@
 
 pub mod engine;
 pub mod isolation;
+pub mod sensitivity;
 pub mod timed;
 pub mod whole;
 
@@ -214,7 +217,7 @@ pub type Group = fn(&ReferenceData) -> Vec<Case>;
 pub fn run() -> Result<SelfTest, AnalysisError> {
     let data = reference_data()?;
     // Groups run in parallel; each is deterministic and the order of the result is fixed.
-    let jobs: [Group; 11] = [
+    let jobs: [Group; 12] = [
         engine::normal_cases,
         engine::bivariate_cases,
         engine::sheppard_cases,
@@ -226,6 +229,7 @@ pub fn run() -> Result<SelfTest, AnalysisError> {
         whole::monte_carlo_cases,
         timed::timing_cases,
         isolation::isolation_cases,
+        sensitivity::sensitivity_cases,
     ];
     let cases: Vec<Vec<Case>> = jobs.par_iter().map(|job| job(&data)).collect();
     Ok(SelfTest {
