@@ -8,6 +8,9 @@ use std::process::Command;
 use concord::report::html::SECTIONS;
 use serde_json::Value;
 
+/// The example whose report and JSON also carry the ranking of its inputs.
+const RANKED: &str = "plovrant_swa2_mean";
+
 const EXAMPLES: [&str; 4] = [
     "plovrant_swa2_mean",
     "plovrant_swa2_shared_ref",
@@ -36,7 +39,7 @@ fn report(name: &str, date: &str) -> String {
     std::fs::create_dir_all(&dir).expect("temp dir");
     let out = dir.join(format!("{name}-{date}.html"));
     let file = example(name);
-    let run = concord(&[
+    let mut args = vec![
         "report",
         file.to_str().expect("utf-8 path"),
         "-o",
@@ -47,7 +50,12 @@ fn report(name: &str, date: &str) -> String {
         SAMPLES,
         "--seed",
         SEED,
-    ]);
+    ];
+    // The two-channel example also ranks its inputs (section 11), as its JSON does.
+    if name == RANKED {
+        args.push("--with-sensitivity");
+    }
+    let run = concord(&args);
     assert!(
         run.status.success(),
         "report failed: {}",
@@ -60,7 +68,7 @@ fn report(name: &str, date: &str) -> String {
 
 fn analysis_json(name: &str) -> Value {
     let file = example(name);
-    let run = concord(&[
+    let mut args = vec![
         "analyze",
         file.to_str().expect("utf-8 path"),
         "--format",
@@ -70,7 +78,11 @@ fn analysis_json(name: &str) -> Value {
         SAMPLES,
         "--seed",
         SEED,
-    ]);
+    ];
+    if name == RANKED {
+        args.push("--with-sensitivity");
+    }
+    let run = concord(&args);
     assert!(run.status.success());
     serde_json::from_slice(&run.stdout).expect("JSON")
 }
@@ -120,6 +132,14 @@ fn lookup<'a>(json: &'a Value, key: &str) -> &'a Value {
             &b["p"]
         }
         ["isolation", "end_states", field] => &json["isolation"]["end_states"][*field],
+        ["sensitivity", figure, key] => {
+            let rows = json["sensitivity"].as_array().expect("sensitivity rows");
+            let r = rows
+                .iter()
+                .find(|r| r["site"].is_null() && r["figure"] == *figure && r["key"] == *key)
+                .unwrap_or_else(|| panic!("no sensitivity of {figure} by {key}"));
+            &r["derivative"]
+        }
         ["tolerances", end @ ("lowest" | "highest"), figure] => {
             let figures = json["tolerances"]["figures"].as_array().expect("figures");
             let f = figures
@@ -247,6 +267,15 @@ fn report_is_well_formed_complete_and_agrees_with_the_json() {
             }
             keys.push(key.to_string());
             compared += 1;
+        }
+        if name == RANKED {
+            for metric in ["spfm", "lfm", "residual_fit"] {
+                assert!(
+                    keys.iter()
+                        .any(|k| k.starts_with(&format!("sensitivity/{metric}/"))),
+                    "{name}: no ranked input of {metric}"
+                );
+            }
         }
         // Every figure of every site, the baseline and the metrics are among them.
         for site in json["sites"].as_array().expect("sites") {

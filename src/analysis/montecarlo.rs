@@ -431,6 +431,7 @@ pub fn analyze_montecarlo(
         timed: None,
         isolation: None,
         tolerances: None,
+        sensitivity: None,
         baseline,
         metrics: metrics(&sites),
         sites,

@@ -42,6 +42,9 @@ pub struct Analysis {
     /// Every figure's range over the tolerances of the inputs, when asked
     /// (`analyze --within`; set by the caller with `tolerances::over_box`).
     pub tolerances: Option<super::tolerances::ToleranceAnalysis>,
+    /// The derivative of every figure by every numeric input, when asked
+    /// (`--with-sensitivity`; set by the caller with `sensitivity::sensitivity`).
+    pub sensitivity: Option<super::sensitivity::SensitivityAnalysis>,
 }
 
 /// Precomputed state shared by every scenario of one architecture.
@@ -120,6 +123,7 @@ pub fn analyze(
         timed,
         isolation,
         tolerances: None,
+        sensitivity: None,
         baseline: baseline_outcome,
         metrics: metrics(&sites),
         sites,

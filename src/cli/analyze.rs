@@ -52,6 +52,9 @@ pub fn run(args: &AnalyzeArgs) -> Result<String, CliError> {
     if !within.is_empty() && args.method == MethodArg::Exact {
         analysis.tolerances = Some(over_box(&arch, &within, &options)?);
     }
+    if args.with_sensitivity && args.method == MethodArg::Exact {
+        analysis.sensitivity = Some(crate::analysis::sensitivity::sensitivity(&arch, &options)?);
+    }
     let verification = match args.verify {
         Some(samples) => {
             let sampling = MonteCarloOptions {

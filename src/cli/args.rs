@@ -106,6 +106,10 @@ pub struct AnalyzeArgs {
     /// and highest value over the box of tolerances, and the ASIL verdicts on the worst.
     #[arg(long, value_name = "KEY=LO:HI")]
     pub within: Vec<String>,
+    /// Also differentiate every figure by every numeric input (as `concord sensitivity`),
+    /// into the JSON's `sensitivity` list; it costs four analyses per input.
+    #[arg(long = "with-sensitivity")]
+    pub with_sensitivity: bool,
     #[command(flatten)]
     pub accuracy: AccuracyArgs,
 }
@@ -145,6 +149,10 @@ pub struct ReportArgs {
     /// Seed of the Monte Carlo cross-check.
     #[arg(long, default_value_t = 0x0C0C_0A7D)]
     pub seed: u64,
+    /// Also rank the inputs by their effect on the metrics (section 11; as `concord
+    /// sensitivity`, four analyses per input).
+    #[arg(long = "with-sensitivity")]
+    pub with_sensitivity: bool,
     #[command(flatten)]
     pub accuracy: AccuracyArgs,
 }

@@ -32,6 +32,7 @@ pub fn build(
     date: Option<&str>,
     samples: u64,
     seed: u64,
+    with_sensitivity: bool,
     options: &AnalysisOptions,
 ) -> Result<(String, Written), CliError> {
     let epoch = std::env::var("SOURCE_DATE_EPOCH").ok();
@@ -46,19 +47,30 @@ pub fn build(
             options,
         )?);
     }
+    if with_sensitivity {
+        analysis.sensitivity = Some(crate::analysis::sensitivity::sensitivity(&arch, options)?);
+    }
     let sampling = MonteCarloOptions { samples, seed };
     let verification = if samples > 0 {
         Some(verify(&arch.model, &analysis, &sampling)?)
     } else {
         None
     };
+    let ranked = if with_sensitivity {
+        " --with-sensitivity"
+    } else {
+        ""
+    };
     let command = if samples > 0 {
         format!(
-            "concord report {} --date {date} --verify {samples} --seed {seed}",
+            "concord report {} --date {date} --verify {samples} --seed {seed}{ranked}",
             file.display()
         )
     } else {
-        format!("concord report {} --date {date} --verify 0", file.display())
+        format!(
+            "concord report {} --date {date} --verify 0{ranked}",
+            file.display()
+        )
     };
     let input = ReportInput {
         architecture: &arch,
@@ -105,6 +117,7 @@ pub fn run(args: &ReportArgs) -> Result<String, CliError> {
         args.date.as_deref(),
         args.verify,
         args.seed,
+        args.with_sensitivity,
         &args.accuracy.options()?,
     )?;
     write_output(&args.output, &text)?;

@@ -35,6 +35,9 @@
 //! - `isolation` (only when the file has an `[isolation]` section): see
 //!   `report/isolation_json.rs`.
 //! - `tolerances` (only with `analyze --within`): see `report/tolerances.rs`.
+//! - `sensitivity` (only with `--with-sensitivity`): the rows of `concord sensitivity`
+//!   (`key`, `site`, `figure`, `value`, `derivative`, `error`, `elasticity`, `input`,
+//!   `sigma_held`), see `report/sensitivity.rs`.
 //!
 //! Fields may be added in later versions; none is dropped, and none is renamed except as
 //! listed here.
@@ -211,6 +214,10 @@ pub struct AnalysisJson {
     /// (`report/tolerances.rs`).
     #[serde(skip_serializing_if = "Option::is_none", default)]
     pub tolerances: Option<super::tolerances::TolerancesJson>,
+    /// The derivative of every figure by every numeric input, only with
+    /// `--with-sensitivity` (`report/sensitivity.rs`: the rows of `concord sensitivity`).
+    #[serde(skip_serializing_if = "Option::is_none", default)]
+    pub sensitivity: Option<Vec<super::sensitivity::SensitivityRowJson>>,
 }
 
 /// The confirmation rule of the timing section.
@@ -418,6 +425,7 @@ pub fn document(input: &ReportInput<'_>) -> AnalysisJson {
             .tolerances
             .as_ref()
             .map(super::tolerances::tolerances_json),
+        sensitivity: a.sensitivity.as_ref().map(super::sensitivity::rows_json),
     }
 }
 

@@ -5,7 +5,7 @@
 
 use std::fmt::Write as _;
 
-use serde::Serialize;
+use serde::{Deserialize, Serialize};
 
 use crate::analysis::sensitivity::{Sensitivity, SensitivityAnalysis};
 
@@ -100,22 +100,42 @@ fn clip(text: &str, width: usize) -> String {
     }
 }
 
-#[derive(Serialize)]
-struct RowJson<'a> {
-    key: &'a str,
-    site: Option<&'a str>,
-    figure: &'a str,
-    value: f64,
-    derivative: f64,
-    error: f64,
-    elasticity: Option<f64>,
-    input: f64,
-    sigma_held: bool,
+/// One row of the JSON: a figure's derivative by one input (also the `sensitivity` list of
+/// `analyze --with-sensitivity`).
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct SensitivityRowJson {
+    pub key: String,
+    pub site: Option<String>,
+    pub figure: String,
+    pub value: f64,
+    pub derivative: f64,
+    pub error: f64,
+    pub elasticity: Option<f64>,
+    pub input: f64,
+    pub sigma_held: bool,
+}
+
+/// The rows, ranked as computed.
+pub fn rows_json(a: &SensitivityAnalysis) -> Vec<SensitivityRowJson> {
+    a.rows
+        .iter()
+        .map(|r| SensitivityRowJson {
+            key: r.key.clone(),
+            site: r.site.clone(),
+            figure: r.figure.to_string(),
+            value: r.value,
+            derivative: r.derivative,
+            error: r.error,
+            elasticity: r.elasticity,
+            input: r.input,
+            sigma_held: r.sigma_held,
+        })
+        .collect()
 }
 
 #[derive(Serialize)]
-struct DocumentJson<'a> {
-    sensitivities: Vec<RowJson<'a>>,
+struct DocumentJson {
+    sensitivities: Vec<SensitivityRowJson>,
     cautions: Vec<String>,
 }
 
@@ -125,21 +145,7 @@ struct DocumentJson<'a> {
 /// Serialisation errors (none expected).
 pub fn json(a: &SensitivityAnalysis) -> Result<String, ReportError> {
     let doc = DocumentJson {
-        sensitivities: a
-            .rows
-            .iter()
-            .map(|r| RowJson {
-                key: &r.key,
-                site: r.site.as_deref(),
-                figure: r.figure,
-                value: r.value,
-                derivative: r.derivative,
-                error: r.error,
-                elasticity: r.elasticity,
-                input: r.input,
-                sigma_held: r.sigma_held,
-            })
-            .collect(),
+        sensitivities: rows_json(a),
         cautions: a
             .cautions
             .iter()
