@@ -8,7 +8,8 @@
 //! (`analysis::tune`): a wider band fires less in every sample, so every confirmation rule
 //! here (runs, counts in a window, counters: more firing samples never delay a confirmation)
 //! confirms less often and later; the coverage over the interval falls, and so do the false
-//! alarms. The widest meeting band is found by bisection on the log of the scale factor.
+//! alarms. The widest meeting band is found by secant steps on the log of the scale factor
+//! (`tune::close_by_secant`).
 
 use rayon::prelude::*;
 use serde::Serialize;
@@ -21,9 +22,9 @@ use super::engine::Engine;
 use super::error::{AnalysisError, RequestField};
 use super::options::AnalysisOptions;
 use super::timing::{false_alarms_per_sample, timed_site};
-use super::tune::{CoverageFigure, TuneRequest, checks_to_tune};
+use super::tune::{CoverageFigure, TuneRequest, checks_to_tune, close_by_secant};
 
-/// Relative step in the scale factor at which the bisection of one rule stops.
+/// Relative width of the scale factor's bracket at which the search of one rule stops.
 const SCALE_REL_TOL: f64 = 0.01;
 
 /// One candidate rule with its widest meeting band.
@@ -185,19 +186,18 @@ pub fn tune_with_confirmation(
                     evaluations,
                 ));
             }
-            let (mut good, mut good_at) = (lo, narrow);
-            let mut bad = hi;
-            while bad / good > 1.0 + SCALE_REL_TOL {
-                let mid = (good * bad).sqrt();
-                let at = evaluate(rule, mid)?;
-                evaluations += 1;
-                if meets(&at.0) {
-                    good = mid;
-                    good_at = at;
-                } else {
-                    bad = mid;
-                }
-            }
+            let margin = |at: &(Estimate, Estimate)| at.0.value - at.0.error - request.target;
+            let closed = close_by_secant(
+                (lo, margin(&narrow), narrow),
+                (hi, margin(&wide), wide),
+                SCALE_REL_TOL,
+                |scale| {
+                    let at = evaluate(rule, scale)?;
+                    Ok::<_, AnalysisError>((margin(&at), at))
+                },
+            )?;
+            evaluations += closed.spent;
+            let (good, good_at) = closed.good;
             Ok((
                 RuleChoice {
                     rule,

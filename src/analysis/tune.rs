@@ -277,39 +277,66 @@ fn margin(point: &TradeOffPoint, target: f64) -> f64 {
 
 /// Shrinks the bracket `[good, fail]` (the first meets the target, the second does not) until
 /// `fail / good <= 1 + scale_rel_tol`; returns it with the analyses spent.
+fn close_bracket(
+    good: TradeOffPoint,
+    fail: TradeOffPoint,
+    request: &TuneRequest,
+    point_at: &dyn Fn(f64) -> Result<TradeOffPoint, AnalysisError>,
+) -> Result<(TradeOffPoint, TradeOffPoint, usize), AnalysisError> {
+    let target = request.target;
+    let closed = close_by_secant(
+        (good.scale, margin(&good, target), good),
+        (fail.scale, margin(&fail, target), fail),
+        request.scale_rel_tol,
+        |scale| {
+            let point = point_at(scale)?;
+            Ok((margin(&point, target), point))
+        },
+    )?;
+    Ok((closed.good.1, closed.fail.1, closed.spent))
+}
+
+/// Shrinks a bracket of scale factors `[good, fail]`, given as `(scale, margin, payload)`
+/// with the margin at least zero at `good` and below zero at `fail`, until
+/// `fail / good <= 1 + rel_tol`; returns the two ends (scale, payload) and the evaluations
+/// spent. `evaluate` gives the margin and payload at a scale.
 ///
-/// The coverage is smooth in the log of the scale, so the secant through the last two points
-/// evaluated finds where the margin crosses zero far faster than halving (the secant method,
+/// The margin is smooth in the log of the scale, so the secant through the last two points
+/// evaluated finds where it crosses zero far faster than halving (the secant method,
 /// superlinear for a smooth function with a simple root; Dahlquist and Björck, Numerical
 /// Methods, sec. 6.3, from memory). To close the bracket rather than only approach one end,
 /// each probe is placed just past the crossing, by just under half the tolerance, on the far
 /// side from the last point; a probe outside the bracket is pulled into it, and after three
 /// probes that do not halve the bracket one halving step follows, so the work stays within a
-/// small factor of bisection's at worst.
-fn close_bracket(
-    mut good: TradeOffPoint,
-    mut fail: TradeOffPoint,
-    request: &TuneRequest,
-    point_at: &dyn Fn(f64) -> Result<TradeOffPoint, AnalysisError>,
-) -> Result<(TradeOffPoint, TradeOffPoint, usize), AnalysisError> {
-    let closed = (1.0 + request.scale_rel_tol).ln();
+/// small factor of bisection's at worst. A bracket wider than [`SECANT_FROM`] is halved
+/// first. A point counts as meeting when its margin is at least zero.
+pub(crate) fn close_by_secant<T, E>(
+    good: (f64, f64, T),
+    fail: (f64, f64, T),
+    rel_tol: f64,
+    mut evaluate: impl FnMut(f64) -> Result<(f64, T), E>,
+) -> Result<ClosedBracket<T>, E> {
+    let closed = (1.0 + rel_tol).ln();
     let nudge = 0.45 * closed;
     let mut spent = 0usize;
+    let (mut good_scale, mut good_payload) = (good.0, good.2);
+    let (mut fail_scale, mut fail_payload) = (fail.0, fail.2);
     // The last two points evaluated, (log scale, margin), the newest last.
-    let mut recent = [
-        (good.scale.ln(), margin(&good, request.target)),
-        (fail.scale.ln(), margin(&fail, request.target)),
-    ];
+    let mut recent = [(good.0.ln(), good.1), (fail.0.ln(), fail.1)];
     let mut slow_steps = 0usize;
     loop {
-        let (lg, lf) = (good.scale.ln(), fail.scale.ln());
+        let (lg, lf) = (good_scale.ln(), fail_scale.ln());
         let width = lf - lg;
         if width <= closed {
             break;
         }
         let [(x0, m0), (x1, m1)] = recent;
         let slope = (m1 - m0) / (x1 - x0);
-        let x = if slow_steps >= 3 || width <= 4.0 * nudge || !(slope < 0.0 && slope.is_finite()) {
+        let x = if slow_steps >= 3
+            || width <= 4.0 * nudge
+            || width > SECANT_FROM
+            || !(slope < 0.0 && slope.is_finite())
+        {
             slow_steps = 0;
             0.5 * (lg + lf)
         } else {
@@ -322,20 +349,39 @@ fn close_bracket(
             };
             aimed.clamp(lg + 0.5 * nudge, lf - 0.5 * nudge)
         };
-        let point = point_at(x.exp())?;
+        let (m, payload) = evaluate(x.exp())?;
         spent += 1;
-        recent = [recent[1], (x, margin(&point, request.target))];
-        if point.meets {
-            good = point;
+        recent = [recent[1], (x, m)];
+        if m >= 0.0 {
+            good_scale = x.exp();
+            good_payload = payload;
         } else {
-            fail = point;
+            fail_scale = x.exp();
+            fail_payload = payload;
         }
-        let new_width = fail.scale.ln() - good.scale.ln();
-        if new_width > 0.5 * width {
+        if fail_scale.ln() - good_scale.ln() > 0.5 * width {
             slow_steps += 1;
         }
     }
-    Ok((good, fail, spent))
+    Ok(ClosedBracket {
+        good: (good_scale, good_payload),
+        fail: (fail_scale, fail_payload),
+        spent,
+    })
+}
+
+/// Widest bracket (in the log of the scale, a ratio of 1.28) on which secant steps are
+/// taken; a wider one is halved first, since far from the crossing a coverage curve is flat
+/// or steep in turn (a sigmoid in the log of the band) and a secant through it lands poorly.
+/// The grid of `tune` brackets far narrower (a ratio of 1.12).
+const SECANT_FROM: f64 = 0.25;
+
+/// A bracket closed by [`close_by_secant`]: its two ends as (scale, payload), and the
+/// evaluations spent.
+pub(crate) struct ClosedBracket<T> {
+    pub good: (f64, T),
+    pub fail: (f64, T),
+    pub spent: usize,
 }
 
 fn point_of(
