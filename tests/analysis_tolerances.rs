@@ -125,3 +125,83 @@ fn a_tolerances_section_is_read_and_checked() {
         assert!(e.to_string().contains(needle), "{section}: {e}");
     }
 }
+
+#[test]
+fn six_tolerances_are_no_worse_than_the_corners_and_random_points_of_the_box() {
+    // Six inputs: a grid of three points per input (729 analyses) refined where a figure is
+    // not monotone. Its extremes must be no worse than every corner of the box (64) and than
+    // 40 points drawn uniformly in it (a fixed linear congruential sequence; Knuth, TAOCP
+    // vol. 2, 3.2.1, multiplier 6364136223846793005, from memory).
+    let text = include_str!("../architectures/plovrant_swa2_mean.toml");
+    let arch = load_str(text, "swa2").expect("valid");
+    let options = AnalysisOptions::default();
+    let within = [
+        ("checks.ab.limit".to_string(), 2.0, 3.0),
+        ("channels.hall_b.sigma".to_string(), 0.45, 0.65),
+        ("channels.hall_a.sigma".to_string(), 0.4, 0.6),
+        ("safety.limit".to_string(), 1.8, 2.2),
+        ("faults.a_drift.fit".to_string(), 15.0, 25.0),
+        ("correlations.0.rho".to_string(), 0.1, 0.4),
+    ];
+    let found = over_box(&arch, &within, &options).expect("box");
+    assert_eq!(found.grid_points, 3);
+    let mut points: Vec<Vec<f64>> = (0..64)
+        .map(|c: usize| {
+            within
+                .iter()
+                .enumerate()
+                .map(|(i, (_, lo, hi))| if c >> i & 1 == 0 { *lo } else { *hi })
+                .collect()
+        })
+        .collect();
+    let mut state: u64 = 0x5eed;
+    for _ in 0..40 {
+        points.push(
+            within
+                .iter()
+                .map(|(_, lo, hi)| {
+                    state = state
+                        .wrapping_mul(6364136223846793005)
+                        .wrapping_add(1442695040888963407);
+                    let u = (state >> 11) as f64 / (1u64 << 53) as f64;
+                    lo + (hi - lo) * u
+                })
+                .collect(),
+        );
+    }
+    for p in &points {
+        let overrides: Vec<(String, f64)> = within
+            .iter()
+            .zip(p)
+            .map(|((k, _, _), v)| (k.clone(), *v))
+            .collect();
+        let edited = arch.with_overrides(&overrides).expect("valid in the box");
+        let a = analyze(&edited.model, &options, false).expect("analysis");
+        for g in figures_of(&a) {
+            let Some(f) = found
+                .figures
+                .iter()
+                .find(|f| f.site == g.site && f.figure == g.figure)
+            else {
+                continue;
+            };
+            let slack = 1e-12 + f.lowest.error.max(f.highest.error) + g.value.error;
+            assert!(
+                f.lowest.value <= g.value.value + slack,
+                "{:?} {}: lowest {} above {} at {p:?}",
+                f.site,
+                f.figure,
+                f.lowest.value,
+                g.value.value
+            );
+            assert!(
+                f.highest.value >= g.value.value - slack,
+                "{:?} {}: highest {} below {} at {p:?}",
+                f.site,
+                f.figure,
+                f.highest.value,
+                g.value.value
+            );
+        }
+    }
+}

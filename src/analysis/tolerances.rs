@@ -2,8 +2,8 @@
 //! `sensitivity::figures_of`, the lowest and the highest value over the box, with the input
 //! values where each is reached and its error bound.
 //!
-//! The search: a full grid of the box (41 points for one input, 15 per input for two, 7 for
-//! three; the corners included), each point a whole analysis of the file edited by the
+//! The search: a full grid of the box ([`GRID_POINTS`]: 41 points for one input, 15 per
+//! input for two, 7 for three, 5 for four, 3 for five and six; the corners included), each point a whole analysis of the file edited by the
 //! overrides, with every worst case over an unknown sigma searched afresh. A figure that is
 //! monotone along every grid line in every input has its extremes at corners of the box, which
 //! the grid holds. For any other figure each extreme of the grid is refined by golden-section
@@ -23,8 +23,12 @@ use super::options::AnalysisOptions;
 use super::run::analyze;
 use super::sensitivity::{FigureValue, figures_of};
 
-/// Most inputs in one box (the grid grows as its power).
-pub const MAX_TOLERANCES: usize = 3;
+/// Most inputs in one box (the grid grows as its power: 729 analyses for six).
+pub const MAX_TOLERANCES: usize = 6;
+
+/// Grid points per input for one to [`MAX_TOLERANCES`] inputs: at least three, so that a
+/// figure's monotonicity along every grid line can be read off the grid.
+const GRID_POINTS: [usize; MAX_TOLERANCES] = [41, 15, 7, 5, 3, 3];
 
 /// Sweeps of the refinement (each a golden-section search per input).
 const REFINE_SWEEPS: usize = 3;
@@ -189,7 +193,7 @@ pub fn over_box(
     let nominal = analyze(&nominal_model, options, false)?;
     let names = figures_of(&nominal);
     let k = inputs.len();
-    let g = [41usize, 15, 7][k - 1];
+    let g = GRID_POINTS[k - 1];
     let axis = |i: usize, j: usize| {
         let input = &inputs[i];
         input.lower + (input.upper - input.lower) * j as f64 / (g - 1) as f64

@@ -102,7 +102,7 @@ pub struct AnalyzeArgs {
     /// Include the whole curve over sigma of every site with unknown spread (JSON).
     #[arg(long = "with-curves")]
     pub curve: bool,
-    /// A tolerance of an input, KEY=LO:HI (repeatable, up to three): every figure's lowest
+    /// A tolerance of an input, KEY=LO:HI (repeatable, up to six): every figure's lowest
     /// and highest value over the box of tolerances, and the ASIL verdicts on the worst.
     #[arg(long, value_name = "KEY=LO:HI")]
     pub within: Vec<String>,
