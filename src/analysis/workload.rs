@@ -4,7 +4,7 @@
 //!
 //! The count is deterministic (it depends on the file and the options only). The time it
 //! implies uses a low figure for one polytope integral of each dimension on the two-core
-//! development machine: 0.02 ms up to three channels, 0.1 ms at four (measured averages:
+//! development machine: 0.02 ms up to three channels, 0.2 ms at four (measured averages:
 //! 0.27 ms over the 123,552 integrals of a median of four with two-of-four windows, 2.2 ms
 //! over those of the four-channel example, where more polytopes need the lattice), 2 ms
 //! from five on (a median of eight: the first 40 integrals 1 to 7 ms each, the whole file
@@ -89,7 +89,7 @@ fn duration_words(seconds: f64) -> String {
 fn floor_per_integral(dimension: usize) -> f64 {
     match dimension {
         0..=3 => 2e-5,
-        4 => 1e-4,
+        4 => 2e-4,
         _ => 2e-3,
     }
 }

@@ -9,6 +9,8 @@ pub fn run(args: &CheckArgs) -> Result<String, CliError> {
     Ok(if args.dot {
         crate::report::dot::to_dot(&arch)
     } else {
-        crate::report::describe::describe(&arch)
+        let options = crate::analysis::AnalysisOptions::default();
+        let work = crate::analysis::workload::estimate(&arch.model, &options);
+        crate::report::describe::describe_with_workload(&arch, work.as_ref())
     })
 }

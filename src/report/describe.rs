@@ -320,9 +320,74 @@ pub fn describe(arch: &Architecture) -> String {
         );
     }
 
-    let _ = writeln!(o, "\nWarnings ({})", arch.warnings.len());
+    o.push_str(&warnings(arch));
+    o
+}
+
+/// The summary of `check`: [`describe`] with the work of an exact analysis
+/// ([`workload_section`]) before the warnings.
+pub fn describe_with_workload(
+    arch: &Architecture,
+    work: Option<&crate::analysis::workload::Workload>,
+) -> String {
+    let mut o = describe(arch);
+    let tail = warnings(arch);
+    o.truncate(o.len().saturating_sub(tail.len()));
+    o.push_str(&workload_section(work));
+    o.push_str(&tail);
+    o
+}
+
+fn warnings(arch: &Architecture) -> String {
+    let mut o = format!("\nWarnings ({})\n", arch.warnings.len());
     for w in &arch.warnings {
         let _ = writeln!(o, "  {w}");
     }
     o
+}
+
+/// The work an exact analysis of the file takes (`analysis::workload`), for `check`: which
+/// engine takes its scenarios and how many polytope integrals that is, with a floor on the
+/// time, so that a long run is known before it is started.
+pub fn workload_section(work: Option<&crate::analysis::workload::Workload>) -> String {
+    let mut o = String::from("\nExact analysis\n");
+    let Some(w) = work else {
+        o.push_str(
+            "  the polytopes of this file cannot be built (past a limit): `analyze` says which\n",
+        );
+        return o;
+    };
+    if w.polytope_scenarios == 0 {
+        o.push_str("  every scenario by order statistics given the shared terms\n");
+        return o;
+    }
+    let text = format!(
+        "about {} scenario evaluations by the polytopes ({} polytopes of {} dimensions each, \
+         {} integrals in all; at least {} on two cores, often more){}",
+        w.polytope_scenarios,
+        w.polytopes_per_scenario,
+        w.dimension,
+        w.integrals,
+        seconds_words(w.floor_seconds),
+        w.order_unfit.as_ref().map_or(String::new(), |r| format!(
+            "; the order-statistic engine does not take the file: {r}"
+        ))
+    );
+    for line in super::format::wrap(&text, 96) {
+        let _ = writeln!(o, "  {line}");
+    }
+    o
+}
+
+/// `0.04 s`, `25 s`, `3 min`, `2.5 h`.
+fn seconds_words(seconds: f64) -> String {
+    if seconds < 1.0 {
+        format!("{:.2} s", seconds)
+    } else if seconds < 120.0 {
+        format!("{:.0} s", seconds)
+    } else if seconds < 7200.0 {
+        format!("{:.0} min", seconds / 60.0)
+    } else {
+        format!("{:.1} h", seconds / 3600.0)
+    }
 }
