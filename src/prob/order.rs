@@ -724,10 +724,13 @@ fn counted_tails(cond: &Conditional, rank: &Rank, q: &Question, in_output: &[boo
     below[0] = 1.0;
     above[0] = 1.0;
     quiet[0] = 1.0;
+    // One scratch buffer for every step (this runs at every point of the outer integral).
+    let mut next: Vec<f64> = Vec::with_capacity(below.len().max(above.len()));
     // Adds one channel: `(yes, no)` for staying quiet and for firing.
-    let step =
+    let mut step =
         |poly: &mut Vec<f64>, need: usize, quiet_parts: (f64, f64), fired_parts: (f64, f64)| {
-            let mut next = vec![0.0; poly.len()];
+            next.clear();
+            next.resize(poly.len(), 0.0);
             for c in 0..=need {
                 for f in 0..k {
                     let p = poly[c * k + f];
@@ -745,7 +748,7 @@ fn counted_tails(cond: &Conditional, rank: &Rank, q: &Question, in_output: &[boo
                     }
                 }
             }
-            *poly = next;
+            std::mem::swap(poly, &mut next);
         };
     for (j, &counted) in in_output.iter().enumerate().take(cond.mean.len()) {
         let band = cond.band.get(j).copied().flatten();
@@ -787,14 +790,11 @@ fn counted_tails(cond: &Conditional, rank: &Rank, q: &Question, in_output: &[boo
             step(&mut above, need_hi, (0.0, in_all), (0.0, out_all));
         }
         if band.is_some() {
-            let mut next = vec![0.0; k];
-            for f in 0..k {
-                next[f] += quiet[f] * in_all;
-                if f + 1 < k {
-                    next[f + 1] += quiet[f] * out_all;
-                }
+            // In place, from the top: f fired stays (inside) or came from f - 1 (outside).
+            for f in (0..k).rev() {
+                let from_below = if f > 0 { quiet[f - 1] * out_all } else { 0.0 };
+                quiet[f] = from_below + quiet[f] * in_all;
             }
-            quiet = next;
         }
     }
     let tail = |poly: &[f64], need: usize| poly[need * k..(need + 1) * k].iter().sum::<f64>();

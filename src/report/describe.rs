@@ -37,6 +37,13 @@ fn truncate(s: &str, w: usize) -> String {
 
 /// The `concord check` summary of a loaded architecture.
 pub fn describe(arch: &Architecture) -> String {
+    let mut o = body(arch);
+    o.push_str(&warnings(arch));
+    o
+}
+
+/// Everything of [`describe`] before the warnings.
+fn body(arch: &Architecture) -> String {
     let m = &arch.model;
     let unit = &m.unit;
     let mut o = String::new();
@@ -320,7 +327,6 @@ pub fn describe(arch: &Architecture) -> String {
         );
     }
 
-    o.push_str(&warnings(arch));
     o
 }
 
@@ -330,11 +336,9 @@ pub fn describe_with_workload(
     arch: &Architecture,
     work: Option<&crate::analysis::workload::Workload>,
 ) -> String {
-    let mut o = describe(arch);
-    let tail = warnings(arch);
-    o.truncate(o.len().saturating_sub(tail.len()));
+    let mut o = body(arch);
     o.push_str(&workload_section(work));
-    o.push_str(&tail);
+    o.push_str(&warnings(arch));
     o
 }
 

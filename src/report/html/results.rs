@@ -302,88 +302,76 @@ pub(super) fn metrics(o: &mut String, doc: &AnalysisJson) {
             }
             s
         };
-    // The value the verdicts judge, its cell beside the value as written, and the verdict.
-    let judged = |written: (f64, f64),
-                  over_box: Option<&JudgedMetric>,
-                  key: &str,
-                  percent: bool,
-                  nominal_label: &str|
-     -> ((f64, f64), String, String) {
-        match over_box {
-            Some(w) => {
-                let shown = if percent {
-                    percent_cell(key, w.value, Some(w.error), " %")
-                } else {
-                    cell(
-                        key,
-                        w.value,
-                        &format!("{} FIT", fit(w.value)),
-                        Some(w.error),
-                        &sci_html(&bound(w.error)),
-                    )
-                };
-                ((w.value, w.error), shown, w.label.clone())
-            }
-            None => (written, String::new(), nominal_label.to_string()),
+    // Each metric: its cell as written, the worst over the box (when the file has tolerances)
+    // beside it, and the marks and "reached" on the value judged.
+    let value_cell = |key: &str, value: f64, error: f64, percent: bool| {
+        if percent {
+            percent_cell(key, value, Some(error), " %")
+        } else {
+            cell(
+                key,
+                value,
+                &format!("{} FIT", fit(value)),
+                Some(error),
+                &sci_html(&bound(error)),
+            )
         }
     };
-    let (spfm_judged, spfm_box, spfm_label) = judged(
-        (m.spfm, m.error.spfm),
-        worst.as_ref().map(|w| &w.spfm),
-        "tolerances/lowest/spfm",
-        true,
-        &m.asil_spfm,
-    );
-    let _ = writeln!(
-        o,
-        "<tr><th scope=\"row\">SPFM</th>{}{}{}<td>{}</td></tr>",
-        percent_cell("metrics/spfm", m.spfm, Some(m.error.spfm), " %"),
-        spfm_box,
-        target_cells(spfm_judged.0, spfm_judged.1, &SPFM_TARGETS, true, "%"),
-        esc(&spfm_label)
-    );
-    let (lfm_judged, lfm_box, lfm_label) = judged(
-        (m.lfm, m.error.lfm),
-        worst.as_ref().map(|w| &w.lfm),
-        "tolerances/lowest/lfm",
-        true,
-        &m.asil_lfm,
-    );
-    let _ = writeln!(
-        o,
-        "<tr><th scope=\"row\">LFM</th>{}{}{}<td>{}</td></tr>",
-        percent_cell("metrics/lfm", m.lfm, Some(m.error.lfm), " %"),
-        lfm_box,
-        target_cells(lfm_judged.0, lfm_judged.1, &LFM_TARGETS, true, "%"),
-        esc(&lfm_label)
-    );
-    let (rate_judged, rate_box, rate_label) = judged(
-        (m.residual_fit, m.error.residual_fit),
-        worst.as_ref().map(|w| &w.residual),
-        "tolerances/highest/residual_fit",
-        false,
-        &m.asil_residual_budget,
-    );
-    let _ = writeln!(
-        o,
-        "<tr><th scope=\"row\">residual rate</th>{}{}{}<td>{}</td></tr>",
-        cell(
-            "metrics/residual_fit",
-            m.residual_fit,
-            &format!("{} FIT", fit(m.residual_fit)),
-            Some(m.error.residual_fit),
-            &sci_html(&bound(m.error.residual_fit))
+    let rows = [
+        (
+            "SPFM",
+            "spfm",
+            (m.spfm, m.error.spfm),
+            worst.as_ref().map(|w| &w.spfm),
+            &m.asil_spfm,
+            &SPFM_TARGETS[..],
+            true,
         ),
-        rate_box,
-        target_cells(
-            rate_judged.0,
-            rate_judged.1,
-            &PMHF_TARGETS_FIT,
+        (
+            "LFM",
+            "lfm",
+            (m.lfm, m.error.lfm),
+            worst.as_ref().map(|w| &w.lfm),
+            &m.asil_lfm,
+            &LFM_TARGETS[..],
+            true,
+        ),
+        (
+            "residual rate",
+            "residual_fit",
+            (m.residual_fit, m.error.residual_fit),
+            worst.as_ref().map(|w| &w.residual),
+            &m.asil_residual_budget,
+            &PMHF_TARGETS_FIT[..],
             false,
-            "FIT"
         ),
-        esc(&rate_label)
-    );
+    ];
+    for (label, key, (value, error), over_box, nominal_label, targets, minimum) in rows {
+        let written = value_cell(&format!("metrics/{key}"), value, error, minimum);
+        let (judged, box_cell, verdict) = match over_box {
+            Some(w) => {
+                let end = if minimum { "lowest" } else { "highest" };
+                (
+                    (w.value, w.error),
+                    value_cell(
+                        &format!("tolerances/{end}/{key}"),
+                        w.value,
+                        w.error,
+                        minimum,
+                    ),
+                    w.label.clone(),
+                )
+            }
+            None => ((value, error), String::new(), nominal_label.clone()),
+        };
+        let unit = if minimum { "%" } else { "FIT" };
+        let _ = writeln!(
+            o,
+            "<tr><th scope=\"row\">{label}</th>{written}{box_cell}{}<td>{}</td></tr>",
+            target_cells(judged.0, judged.1, targets, minimum, unit),
+            esc(&verdict)
+        );
+    }
     o.push_str("</tbody></table>\n");
     o.push_str(r#"<table class="kv"><tbody>"#);
     let _ = write!(
