@@ -74,7 +74,10 @@ def sweep(
     ``false_alarm_error``, ``residual_fit``, ..., ``asil_spfm``, ``asil_lfm``, then per
     fault site ``SITE.dc``, ``SITE.dc_error``, ``SITE.dc_all_dangerous``,
     ``SITE.dc_all_dangerous_error``, ``SITE.p_vu``, ``SITE.p_vu_error``,
-    ``SITE.worst_sigma`` (None where a figure has none). Ctrl-C stops it.
+    ``SITE.worst_sigma`` (None where a figure has none); for a file with an
+    ``[isolation]`` section then ``continues``, ``shutdown``, ``fault_stays`` and per fault
+    site ``SITE.isolated``, ``SITE.wrong_channel``, ``SITE.none_blamed``, each followed by
+    its ``_error``. Ctrl-C stops it.
     """
 
 def tune(

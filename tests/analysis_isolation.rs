@@ -104,6 +104,99 @@ fn a_channel_stuck_far_outside_is_isolated_as_derived_by_hand() {
     );
 }
 
+#[test]
+fn a_sweep_of_the_comparator_carries_the_isolation_figures_derived_by_hand() {
+    // The stuck channel of the test above, with the comparator of the two healthy channels
+    // swept: every row's figures follow erf(T / (2 s)) (derived above; erf from libm), and
+    // the end states add up to one within their bounds (the four are a partition of single
+    // faults).
+    use concord::analysis::sweep::{Axis, SweepPlan, sweep};
+    let stuck = "mode = \"replace\"\namplitude = { points = [[100.0, 1.0]] }";
+    let arch = load_str(
+        &three_channels(stuck, "rule = \"in_every_fired_check\""),
+        "test.toml",
+    )
+    .expect("valid file");
+    let limits = vec![0.5, 1.0, 2.0, 3.0];
+    let plan =
+        SweepPlan::new(Axis::list("checks.bc.limit", limits.clone()).unwrap(), None).expect("plan");
+    let mut rows = Vec::new();
+    sweep(&arch, &plan, &AnalysisOptions::default(), |row| {
+        rows.push(row);
+        Ok::<(), concord::analysis::AnalysisError>(())
+    })
+    .expect("sweep");
+    assert_eq!(rows.len(), limits.len());
+    for (row, limit) in rows.iter().zip(&limits) {
+        let iso = row
+            .isolation
+            .as_ref()
+            .expect("isolation figures in the row");
+        let site = &iso.sites[0];
+        let expected = libm::erf(limit / (2.0 * SIGMA));
+        assert!(
+            (site.isolated.value - expected).abs() <= site.isolated.error + 1e-12,
+            "T = {limit}: {:?} vs {expected}",
+            site.isolated
+        );
+        assert!(
+            (site.none_blamed.value - (1.0 - expected)).abs() <= site.none_blamed.error + 1e-12,
+            "T = {limit}: {:?}",
+            site.none_blamed
+        );
+        assert!(site.wrong_channel.value <= site.wrong_channel.error + 1e-15);
+        let e = &iso.end_states;
+        let sum = e.continues.value + e.shutdown.value + e.fault_stays.value + e.residual.value;
+        let bound =
+            e.continues.error + e.shutdown.error + e.fault_stays.error + e.residual.error + 1e-12;
+        assert!((sum - 1.0).abs() <= bound, "T = {limit}: {sum}");
+    }
+}
+
+#[test]
+fn tune_reports_the_isolation_figures_at_the_chosen_band() {
+    // A drift of two channels together to tune on (the median follows it, and only the third
+    // channel's comparisons can see it, so its coverage falls as the bands widen) and the
+    // stuck channel of the tests above: at whatever band tune chooses, the stuck site's figures follow
+    // erf(T / (2 s)) with T the chosen limit of the healthy pair (derived above; erf from
+    // libm), as long as T leaves the stuck channel's comparisons certain to fire.
+    use concord::analysis::tune::{CoverageFigure, TuneRequest, tune};
+    let text = three_channels(
+        "mode = \"replace\"\namplitude = { points = [[100.0, 1.0]] }\n\
+         [faults.drift]\nfit = 5.0\nhits = { a = 1.0, b = 1.0 }\nmode = \"add\"\n\
+         amplitude = { gaussian = { mean = 0.0, sigma = 2.0 } }",
+        "rule = \"in_every_fired_check\"",
+    );
+    let arch = load_str(&text, "test.toml").expect("valid file");
+    let mut request = TuneRequest::new(None, CoverageFigure::DcAllDangerous, 0.97);
+    request.sites = vec!["drift".into()];
+    request.curve_points = 9;
+    let result = tune(&arch, &request, &AnalysisOptions::default(), &|| {}).expect("tune");
+    let chosen = result.chosen.as_ref().expect("a band meets the target");
+    let limit = chosen
+        .limits
+        .iter()
+        .find(|(k, _)| k == "checks.bc.limit")
+        .map(|(_, v)| *v)
+        .expect("the bc limit is tuned");
+    assert!(!result.at_range_end && limit < 50.0, "{limit}");
+    let iso = result
+        .chosen_isolation
+        .as_ref()
+        .expect("isolation at the chosen band");
+    let stuck = iso.sites.iter().find(|s| s.name == "x").expect("site x");
+    let expected = libm::erf(limit / (2.0 * SIGMA));
+    assert!(
+        (stuck.isolated.value - expected).abs() <= stuck.isolated.error + 1e-12,
+        "T = {limit}: {:?} vs {expected}",
+        stuck.isolated
+    );
+    // The same figures as an analysis of the file with the chosen limits written in.
+    let edited = arch.with_overrides(&chosen.limits).expect("valid limits");
+    let direct = analyze(&edited.model, &AnalysisOptions::default(), false).expect("analysis");
+    assert_eq!(isolation(&direct).end_states, iso.end_states);
+}
+
 /// The class of one reading triple by the rules as their definitions read: `Some(0)` a
 /// blamed, `Some(1)` b or c blamed, `Some(2)` nobody blamed, `None` not detected.
 fn class_of(x: [f64; 3], rule: Option<f64>) -> Option<usize> {

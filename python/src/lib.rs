@@ -16,7 +16,8 @@ use concord::cli::args::AccuracyArgs;
 use concord::cli::values;
 use concord::model::{self, ModelError};
 use concord::report::{
-    ReportInput, TOOL_VERSION, compare as compare_report, json, tune as tune_report,
+    ReportInput, TOOL_VERSION, compare as compare_report, json, sweep as sweep_report,
+    tune as tune_report,
 };
 use pyo3::exceptions::PyException;
 use pyo3::prelude::*;
@@ -244,7 +245,7 @@ enum ColumnValue {
 }
 
 impl Columns {
-    fn new(plan: &SweepPlan, sites: &[String]) -> Self {
+    fn new(plan: &SweepPlan, sites: &[String], isolation: bool) -> Self {
         let mut names = vec!["index".to_string(), plan.vary.key.clone()];
         if let Some(s) = &plan.series {
             names.push(s.key.clone());
@@ -267,6 +268,9 @@ impl Columns {
             ] {
                 names.push(format!("{s}.{k}"));
             }
+        }
+        if isolation {
+            names.extend(sweep_report::isolation_columns(sites));
         }
         let values = names.iter().map(|_| Vec::new()).collect();
         Columns {
@@ -302,6 +306,12 @@ impl Columns {
             cells.push(Some(Number(s.p_vu.error)));
             cells.push(s.worst_sigma.map(Number));
         }
+        if let Some(isolation) = &row.isolation {
+            for e in sweep_report::isolation_cells(isolation) {
+                cells.push(Some(Number(e.value)));
+                cells.push(Some(Number(e.error)));
+            }
+        }
         for (column, cell) in self.values.iter_mut().zip(cells) {
             column.push(cell);
         }
@@ -330,8 +340,10 @@ impl Columns {
 /// as the CSV header names them: `index`, the swept key, the series key if any,
 /// `false_alarm`, `false_alarm_error`, ..., `asil_spfm`, `asil_lfm`, then per fault site
 /// `SITE.dc`, `SITE.dc_error`, `SITE.dc_all_dangerous`, `SITE.dc_all_dangerous_error`,
-/// `SITE.p_vu`, `SITE.p_vu_error`, `SITE.worst_sigma` (None where the figure has none).
-/// Ctrl-C stops it (KeyboardInterrupt).
+/// `SITE.p_vu`, `SITE.p_vu_error`, `SITE.worst_sigma` (None where the figure has none);
+/// for a file with an `[isolation]` section then `continues`, `shutdown`, `fault_stays` and
+/// per fault site `SITE.isolated`, `SITE.wrong_channel`, `SITE.none_blamed`, each followed
+/// by its `_error`. Ctrl-C stops it (KeyboardInterrupt).
 #[pyfunction]
 #[pyo3(signature = (architecture, vary, *, points = 50, log = false, series = None, series_points = 5, series_log = false, tolerance = None))]
 #[allow(clippy::too_many_arguments)]
@@ -364,7 +376,7 @@ fn sweep<'py>(
     };
     let plan = SweepPlan::new(vary_axis, series_axis).map_err(|e| analysis_error(py, e))?;
     let sites = prepare_sweep(arch, &plan).map_err(|e| analysis_error(py, e))?;
-    let mut columns = Columns::new(&plan, &sites);
+    let mut columns = Columns::new(&plan, &sites, arch.model.isolation.is_some());
     let outcome = py.detach(|| {
         run_sweep(arch, &plan, &options, |row| {
             columns.push(&row);

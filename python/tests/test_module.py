@@ -125,6 +125,16 @@ def sweep_rows_as_columns(document):
         cols[f"{site}.p_vu"] = [x["p_vu"]["value"] for x in s]
         cols[f"{site}.p_vu_error"] = [x["p_vu"]["error"] for x in s]
         cols[f"{site}.worst_sigma"] = [x["worst_sigma"] for x in s]
+    if any("isolation" in r for r in rows):
+        for k in ["continues", "shutdown", "fault_stays"]:
+            cols[k] = [r["isolation"]["end_states"][k]["value"] for r in rows]
+            cols[f"{k}_error"] = [r["isolation"]["end_states"][k]["error"] for r in rows]
+        for i, site in enumerate(document["sites"]):
+            s = [r["isolation"]["sites"][i] for r in rows]
+            assert all(x["name"] == site for x in s)
+            for k in ["isolated", "wrong_channel", "none_blamed"]:
+                cols[f"{site}.{k}"] = [x[k]["value"] for x in s]
+                cols[f"{site}.{k}_error"] = [x[k]["error"] for x in s]
     return cols
 
 
@@ -150,6 +160,16 @@ def test_sweep_log_axis_equals_the_cli():
         "--format", "json",
     )
     got = concord.sweep(concord.load(path), "checks.ab.limit=0.5:8", points=5, log=True)
+    assert_bits_equal(got, sweep_rows_as_columns(expected))
+
+
+def test_sweep_isolation_columns_equal_the_cli():
+    path = "architectures/plovrant_swa3_median.toml"
+    expected = cli_json(
+        "sweep", path, "--vary", "checks.ab.limit=1.5,2.5", "--format", "json",
+    )
+    got = concord.sweep(concord.load(path), "checks.ab.limit=1.5,2.5")
+    assert "a_drift.wrong_channel_error" in got
     assert_bits_equal(got, sweep_rows_as_columns(expected))
 
 

@@ -4,7 +4,9 @@
 //!
 //! A parameter sweep has the model set the swept values by dotted key path
 //! ([`Architecture::with_overrides`]) and runs [`analyze`] at every point, so each
-//! row is, bit for bit, what `concord analyze` prints for the file edited by hand. Points
+//! row is, bit for bit, what `concord analyze` prints for the file edited by hand (the
+//! one-sample figures and, for a file with an `[isolation]` section, the isolation figures;
+//! the timed figures of a `[timing]` section are not computed). Points
 //! run in parallel in chunks of four per thread (`CHUNK_PER_THREAD`) and are handed on in
 //! order, one chunk at a time: a sweep of any length holds one chunk in memory. The chunk
 //! size follows the thread count, the output does not: every point is computed on its own
@@ -17,6 +19,7 @@ use crate::model::Architecture;
 use crate::prob::Estimate;
 
 use super::error::{AnalysisError, RequestField};
+use super::isolation::{EndStates, IsolationAnalysis};
 use super::metrics::Asil;
 use super::options::AnalysisOptions;
 use super::run::{Analysis, analyze};
@@ -288,6 +291,51 @@ pub struct SweepRow {
     pub asil_lfm: Asil,
     /// Every fault site, in file order.
     pub sites: Vec<SiteSummary>,
+    /// The isolation figures, when the file has an `[isolation]` section.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub isolation: Option<IsolationSummary>,
+}
+
+/// The isolation figures of a sweep row or of a tuned band: the FIT-weighted end states of a
+/// single fault and, per fault site, how a detection is followed up.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct IsolationSummary {
+    /// Continues, shutdown, fault stays, residual: FIT-weighted shares of single faults.
+    pub end_states: EndStates,
+    /// Every fault site, in file order.
+    pub sites: Vec<SiteIsolationSummary>,
+}
+
+/// How a detection of one fault site is followed up.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct SiteIsolationSummary {
+    /// The fault site.
+    pub name: String,
+    /// A channel the fault moves is blamed.
+    pub isolated: Estimate,
+    /// A healthy channel is blamed: the fault stays in the vote.
+    pub wrong_channel: Estimate,
+    /// Detected, no channel blamed: a shutdown.
+    pub none_blamed: Estimate,
+}
+
+impl IsolationSummary {
+    /// The summary of an analysis's isolation figures.
+    pub fn of(isolation: &IsolationAnalysis) -> Self {
+        Self {
+            end_states: isolation.end_states,
+            sites: isolation
+                .sites
+                .iter()
+                .map(|s| SiteIsolationSummary {
+                    name: s.name.clone(),
+                    isolated: s.isolated,
+                    wrong_channel: s.wrong,
+                    none_blamed: s.blame.declined,
+                })
+                .collect(),
+        }
+    }
 }
 
 impl SweepRow {
@@ -304,12 +352,14 @@ impl SweepRow {
             asil_spfm: analysis.metrics.asil_spfm,
             asil_lfm: analysis.metrics.asil_lfm,
             sites: analysis.sites.iter().map(SiteSummary::of).collect(),
+            isolation: analysis.isolation.as_ref().map(IsolationSummary::of),
         }
     }
 }
 
-/// Analyses `arch` with `overrides` set: exactly what `analyze` does on a copy of the file
-/// with those values written in.
+/// Analyses `arch` with `overrides` set: the one-sample coverage figures and metrics that
+/// `analyze` computes on a copy of the file with those values written in (its timing and
+/// isolation sections are left out: tuning reads coverage alone).
 ///
 /// # Errors
 /// [`AnalysisError::Model`] when the values make the file invalid (naming them), or the
@@ -319,17 +369,40 @@ pub fn analyze_with_overrides(
     overrides: &[(String, f64)],
     options: &AnalysisOptions,
 ) -> Result<Analysis, AnalysisError> {
+    analyze_point(arch, overrides, options, Sections::CoverageOnly)
+}
+
+/// What an analysis at a sweep or tuning point computes beside the one-sample coverage
+/// figures. The timed figures are never computed there (a sweep of them would take minutes).
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Sections {
+    /// The coverage figures and metrics alone (what tuning needs at every band).
+    CoverageOnly,
+    /// Also the isolation figures, when the file has an `[isolation]` section.
+    WithIsolation,
+}
+
+/// [`analyze_with_overrides`] with the sections to compute.
+///
+/// # Errors
+/// As [`analyze_with_overrides`].
+pub fn analyze_point(
+    arch: &Architecture,
+    overrides: &[(String, f64)],
+    options: &AnalysisOptions,
+    sections: Sections,
+) -> Result<Analysis, AnalysisError> {
     let edited = arch
         .with_overrides(overrides)
         .map_err(|source| AnalysisError::Model {
             context: format!("with {}", describe_overrides(overrides)),
             source: Box::new(source),
         })?;
-    // Sweeps and tuning read the one-sample figures: the timed ones and isolation are not
-    // computed.
     let mut model = edited.model;
     model.timing = None;
-    model.isolation = None;
+    if sections == Sections::CoverageOnly {
+        model.isolation = None;
+    }
     analyze(&model, options, false).map_err(|e| match e {
         AnalysisError::Engine { context, source } => AnalysisError::Engine {
             context: format!("with {}, {context}", describe_overrides(overrides)),
@@ -392,7 +465,12 @@ where
             .into_par_iter()
             .map(|index| {
                 let (swept, series) = plan.point(index);
-                let analysis = analyze_with_overrides(arch, &plan.overrides(index), options)?;
+                let analysis = analyze_point(
+                    arch,
+                    &plan.overrides(index),
+                    options,
+                    Sections::WithIsolation,
+                )?;
                 Ok(SweepRow::of(index, swept, series, &analysis))
             })
             .collect();

@@ -23,7 +23,9 @@ use crate::prob::Estimate;
 use super::error::{AnalysisError, RequestField};
 use super::options::AnalysisOptions;
 use super::run::Analysis;
-use super::sweep::{Axis, MAX_SWEEP_POINTS, analyze_with_overrides};
+use super::sweep::{
+    Axis, IsolationSummary, MAX_SWEEP_POINTS, Sections, analyze_point, analyze_with_overrides,
+};
 
 /// Which coverage figure the target is set on.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
@@ -120,6 +122,11 @@ pub struct TuneResult {
     pub at_range_end: bool,
     /// The trade-off curve, by increasing scale.
     pub curve: Vec<TradeOffPoint>,
+    /// The isolation figures at the chosen band, for a file with an `[isolation]` section
+    /// (a band that meets the coverage target may still blame healthy channels or shut down
+    /// often: the analyst reads both).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub chosen_isolation: Option<IsolationSummary>,
     /// Notes for the analyst (e.g. a curve that is not monotone within its bounds).
     pub warnings: Vec<String>,
     /// Evaluations of the whole analysis spent.
@@ -256,6 +263,15 @@ pub fn tune(
             (Some(good), Some(fail), false)
         }
     };
+    let chosen_isolation = match (&chosen, &arch.model.isolation) {
+        (Some(point), Some(_)) => {
+            let analysis = analyze_point(arch, &point.limits, options, Sections::WithIsolation)?;
+            progress();
+            evaluations += 1;
+            analysis.isolation.as_ref().map(IsolationSummary::of)
+        }
+        _ => None,
+    };
     Ok(TuneResult {
         request: request.clone(),
         checks,
@@ -264,6 +280,7 @@ pub fn tune(
         best_reachable,
         at_range_end,
         curve,
+        chosen_isolation,
         warnings,
         evaluations,
     })

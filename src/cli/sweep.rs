@@ -83,6 +83,7 @@ fn parameter_sweep(args: &SweepArgs, vary: &str) -> Result<String, CliError> {
         format,
         &plan,
         &sites,
+        arch.model.isolation.is_some(),
         &arch.path,
         &arch.source,
     )

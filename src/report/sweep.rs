@@ -8,17 +8,23 @@
 //! CSV columns of a parameter sweep: the swept key, the series key (when there is one),
 //! `false_alarm`, `residual_fit`, `spfm`, `lfm` (each followed by `_error`, its bound),
 //! `asil_spfm`, `asil_lfm`, then per fault site `SITE.dc`, `SITE.dc_error`,
-//! `SITE.dc_all_dangerous`, `SITE.p_vu`, `SITE.p_vu_error`, `SITE.worst_sigma`.
+//! `SITE.dc_all_dangerous`, `SITE.p_vu`, `SITE.p_vu_error`, `SITE.worst_sigma`; for a file
+//! with an `[isolation]` section then `continues`, `shutdown`, `fault_stays` and per fault
+//! site `SITE.isolated`, `SITE.wrong_channel`, `SITE.none_blamed` (each followed by
+//! `_error`; see [`isolation_columns`]).
 //!
 //! JSON of a parameter sweep: one object `{"tool_version", "file", "input_sha256", "vary",
 //! "series", "sites", "cautions", "rows": [...]}` whose rows are written one per line as they
-//! arrive, so that a sweep of any length is never held in memory.
+//! arrive, so that a sweep of any length is never held in memory. A row of a file with an
+//! `[isolation]` section carries `isolation`: `end_states` (`continues`, `shutdown`,
+//! `fault_stays`, `residual`) and `sites` (`name`, `isolated`, `wrong_channel`,
+//! `none_blamed`), each figure a `{"value", "error"}` pair.
 
 use std::io::{self, Write};
 
 use serde::Serialize;
 
-use crate::analysis::sweep::{SpreadCurve, SweepPlan, SweepRow};
+use crate::analysis::sweep::{IsolationSummary, SpreadCurve, SweepPlan, SweepRow};
 use crate::prob::Estimate;
 
 use super::cautions::{CAUTIONS, csv_comment_block, plot_caption};
@@ -33,6 +39,32 @@ fn opt(v: Option<f64>) -> String {
 
 fn est(e: Estimate) -> String {
     format!("{:e},{:e}", e.value, e.error)
+}
+
+/// The isolation columns of a sweep of a file with an `[isolation]` section, each followed
+/// by its bound: the end states `continues`, `shutdown`, `fault_stays`, then per fault site
+/// `SITE.isolated`, `SITE.wrong_channel`, `SITE.none_blamed` (in the order of
+/// [`isolation_cells`]).
+pub fn isolation_columns(sites: &[String]) -> Vec<String> {
+    let figures = ["continues", "shutdown", "fault_stays"]
+        .map(String::from)
+        .into_iter()
+        .chain(sites.iter().flat_map(|s| {
+            ["isolated", "wrong_channel", "none_blamed"].map(|k| format!("{s}.{k}"))
+        }));
+    figures
+        .flat_map(|name| [format!("{name}_error"), name].into_iter().rev())
+        .collect()
+}
+
+/// The figures of [`isolation_columns`], one per pair of columns (value, bound).
+pub fn isolation_cells(isolation: &IsolationSummary) -> Vec<Estimate> {
+    let e = &isolation.end_states;
+    let mut cells = vec![e.continues, e.shutdown, e.fault_stays];
+    for s in &isolation.sites {
+        cells.extend([s.isolated, s.wrong_channel, s.none_blamed]);
+    }
+    cells
 }
 
 /// Output formats of a sweep.
@@ -72,6 +104,7 @@ impl<W: Write> SweepWriter<W> {
         format: SweepFormat,
         plan: &SweepPlan,
         sites: &[String],
+        isolation: bool,
         file: &str,
         text: &str,
     ) -> io::Result<Self> {
@@ -99,6 +132,9 @@ impl<W: Write> SweepWriter<W> {
                     ] {
                         head.push(csv_field(&format!("{s}.{k}")));
                     }
+                }
+                if isolation {
+                    head.extend(isolation_columns(sites).iter().map(|c| csv_field(c)));
                 }
                 writeln!(out, "{}", head.join(","))?;
             }
@@ -147,6 +183,9 @@ impl<W: Write> SweepWriter<W> {
                     cells.push(format!("{:e}", s.dc_all_dangerous.value));
                     cells.push(est(s.p_vu));
                     cells.push(opt(s.worst_sigma));
+                }
+                if let Some(isolation) = &row.isolation {
+                    cells.extend(isolation_cells(isolation).iter().map(|e| est(*e)));
                 }
                 writeln!(self.out, "{}", cells.join(","))?;
             }

@@ -3,6 +3,7 @@
 
 use serde::Serialize;
 
+use crate::analysis::sweep::IsolationSummary;
 use crate::analysis::timed_tune::TimedTuneResult;
 use crate::analysis::tune::{TradeOffPoint, TuneRequest, TuneResult};
 
@@ -10,7 +11,8 @@ use super::cautions::{CAUTIONS, csv_comment_block, plot_caption};
 use super::csv::field as csv_field;
 use super::error::ReportError;
 use super::format::{
-    format_number, percent_with_bound, plain_significant_style, probability, rule_label,
+    format_number, percent_floor, percent_with_bound, plain_significant_style, probability,
+    rule_label,
 };
 use super::plot::{Chart, Marker, PlotError, ReferenceLine, Scale, Series, render_svg};
 use super::sweep::{PLOT_SIZE, dc_levels};
@@ -82,6 +84,9 @@ pub fn summary(result: &TuneResult, file: &str) -> String {
                      wider band with fewer false alarms (give --scale LO:HI)\n",
                 );
             }
+            if let Some(isolation) = &result.chosen_isolation {
+                out.push_str(&isolation_lines(isolation));
+            }
         }
         None => {
             let b = &result.best_reachable;
@@ -103,6 +108,34 @@ pub fn summary(result: &TuneResult, file: &str) -> String {
     out.push('\n');
     for c in CAUTIONS {
         out.push_str(&format!("- {c}\n"));
+    }
+    out
+}
+
+/// What follows a detection at the chosen band (a file with an `[isolation]` section): the
+/// FIT-weighted end states of a single fault and the site where a healthy channel is most
+/// often blamed.
+fn isolation_lines(isolation: &IsolationSummary) -> String {
+    let e = &isolation.end_states;
+    let mut out = format!(
+        "  after a single fault at this band (FIT-weighted, the file's isolation rule):\n    \
+         continues {} %, shutdown {} %, fault stays in the vote {} %, residual {} %\n",
+        percent_floor(e.continues.value),
+        percent_floor(e.shutdown.value),
+        percent_floor(e.fault_stays.value),
+        percent_floor(e.residual.value),
+    );
+    let worst = isolation
+        .sites
+        .iter()
+        .max_by(|a, b| a.wrong_channel.value.total_cmp(&b.wrong_channel.value))
+        .filter(|s| s.wrong_channel.value > 0.0);
+    if let Some(site) = worst {
+        out.push_str(&format!(
+            "    a healthy channel blamed most often at site {}: probability {}\n",
+            site.name,
+            probability(site.wrong_channel.value)
+        ));
     }
     out
 }

@@ -1,7 +1,8 @@
 //! Cases of isolation after detection: a channel stuck far outside the others, whose blame
-//! follows by hand from one normal difference, and a pair of channels, which never names a
-//! channel.
+//! follows by hand from one normal difference (also through a sweep of its comparator), and a
+//! pair of channels, which never names a channel.
 
+use crate::analysis::sweep::{Axis, SweepPlan, sweep};
 use crate::analysis::{AnalysisOptions, analyze};
 use crate::model::load_str;
 
@@ -110,6 +111,18 @@ pub fn isolation_cases(_data: &ReferenceData) -> Vec<Case> {
             Measure::Absolute,
         ));
     }
+    // A sweep of the healthy pair's comparator carries the same figures in every row.
+    for limit in [1.0, 3.0] {
+        cases.push(Case::new(
+            ISOLATION,
+            format!("sweep of checks.bc.limit, row {limit}: isolated"),
+            "derived as above with the limit T of the row: P = erf(T / (2 * 0.5)) (libm erf)",
+            swept_isolated(&stuck_far(every), limit),
+            libm::erf(limit),
+            SUM_ABS,
+            Measure::Absolute,
+        ));
+    }
     // A degraded stage stated in the file: dropping a leaves b and c, independent
     // N(0, 0.5^2), read by their minimum (`output = "min"`); fault-free it leaves the band
     // [-1.5, 1.5] with P = Phi(-3)^2 + 1 - (1 - Phi(-3))^2 (independence).
@@ -139,4 +152,24 @@ fn stated_violation(text: &str) -> Result<Bounded, String> {
         .ok_or_else(|| "no stage without a".to_string())?;
     let b = stage.analysis?.baseline;
     Ok((b.p_vd.value + b.p_vu.value, b.p_vd.error + b.p_vu.error))
+}
+
+/// `isolated` of the first site in the row of a sweep of `checks.bc.limit` at `limit`.
+fn swept_isolated(text: &str, limit: f64) -> Result<Bounded, String> {
+    let arch = load_str(text, "isolation.toml").map_err(|e| e.to_string())?;
+    let plan = SweepPlan::new(
+        Axis::list("checks.bc.limit", vec![limit]).map_err(|e| e.to_string())?,
+        None,
+    )
+    .map_err(|e| e.to_string())?;
+    let mut found = None;
+    sweep(&arch, &plan, &AnalysisOptions::default(), |row| {
+        found = row
+            .isolation
+            .and_then(|i| i.sites.into_iter().next())
+            .map(|s| (s.isolated.value, s.isolated.error));
+        Ok::<(), crate::analysis::AnalysisError>(())
+    })
+    .map_err(|e| e.to_string())?;
+    found.ok_or_else(|| "no isolation figures in the sweep row".to_string())
 }
