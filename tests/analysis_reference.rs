@@ -227,30 +227,19 @@ fn common_cause_fault_is_not_covered_by_the_difference_check() {
     }
 }
 
-#[test]
-fn a_frozen_channel_of_two_matches_mpmath_within_its_bound() {
-    // tests/reference/frozen_channel_mpmath.py (mpmath 1.3.0, 30 digits): site b_frozen of
-    // plovrant_swa2_mean.toml, channel b frozen at F uniform on [-540, 540]. The closed form
-    // over the uniform shift (prob::shift_average) must sit within its bound of these.
-    let arch = concord::model::load(std::path::Path::new(
-        "architectures/plovrant_swa2_mean.toml",
-    ))
-    .unwrap();
+/// Site `site` of `file` against mpmath values `(figure, value)`: each within its bound,
+/// and each bound below 1e-12.
+fn assert_site_matches_mpmath(file: &str, site: &str, references: &[(&str, f64)]) {
+    let arch = concord::model::load(std::path::Path::new(file)).unwrap();
     let analysis = concord::analysis::analyze(
         &arch.model,
         &concord::analysis::AnalysisOptions::default(),
         false,
     )
     .unwrap();
-    let site = analysis
-        .sites
-        .iter()
-        .find(|s| s.name == "b_frozen")
-        .unwrap();
-    for (what, computed, reference) in [
-        ("p_vu", site.outcome.p_vu, 6.516_484_682_465_342e-5),
-        ("p_vd", site.outcome.p_vd, 0.992_527_427_745_767_9),
-    ] {
+    let found = analysis.sites.iter().find(|s| s.name == site).unwrap();
+    for &(what, reference) in references {
+        let computed = found.outcome.get(figure_named(what));
         let diff = (computed.value - reference).abs();
         assert!(
             diff <= computed.error + 1e-16,
@@ -260,4 +249,46 @@ fn a_frozen_channel_of_two_matches_mpmath_within_its_bound() {
         );
         assert!(computed.error < 1e-12, "{what}: bound {:e}", computed.error);
     }
+}
+
+fn figure_named(key: &str) -> concord::analysis::Figure {
+    concord::analysis::Figure::ALL
+        .into_iter()
+        .find(|f| f.key() == key)
+        .unwrap()
+}
+
+#[test]
+fn a_frozen_channel_of_two_matches_mpmath_within_its_bound() {
+    // tests/reference/frozen_channel_mpmath.py (mpmath 1.3.0, 30 digits): site b_frozen of
+    // plovrant_swa2_mean.toml, channel b frozen at F uniform on [-540, 540]. The closed form
+    // over the uniform shift (prob::shift_average) must sit within its bound of these.
+    assert_site_matches_mpmath(
+        "architectures/plovrant_swa2_mean.toml",
+        "b_frozen",
+        &[
+            ("p_vu", 6.516_484_682_465_342e-5),
+            ("p_vd", 0.992_527_427_745_767_9),
+        ],
+    );
+}
+
+#[test]
+fn a_frozen_channel_beside_a_shared_source_matches_mpmath_within_its_bound() {
+    // tests/reference/frozen_beside_source_mpmath.py (mpmath 1.3.0, 20 digits): site
+    // b_frozen of demo/trubelka_1oo2_plausibility.toml, channel b frozen at F uniform on
+    // [-40, 40] beside a shared source and a model estimate: a gaussian of rank above one
+    // whose random rows read one direction for most polytopes (the closed form over the
+    // uniform shift) and two for the rest (the adaptive rule). Before the closed form took
+    // the first kind, the adaptive rule missed a thin tail there and p_vd lay 4.2e-13 from
+    // this reference with a bound of 2.0e-13.
+    assert_site_matches_mpmath(
+        "demo/trubelka_1oo2_plausibility.toml",
+        "b_frozen",
+        &[
+            ("p_vd", 0.969_901_289_454_305),
+            ("p_vu", 9.871_054_569_498_13e-5),
+            ("p_sd", 0.012_604_478_853_404_868),
+        ],
+    );
 }

@@ -9,8 +9,8 @@
 //! - [`polytope`]: `P(l <= A x <= u)` for `x ~ N(mu, Sigma)` (Genz 1992; Genz and Bretz 2009).
 //! - [`strip`]: a standard normal pair in a convex polygon, exactly (the last two variables
 //!   of the sequential conditioning).
-//! - [`shift_average`]: a rank-one polytope averaged over a uniform shift of the mean, in
-//!   closed form (a channel frozen at an arbitrary value among two).
+//! - [`shift_average`]: a polytope whose random rows read one direction, averaged over a
+//!   uniform shift of the mean, in closed form (a channel frozen at an arbitrary value).
 //! - [`order`]: order statistics, range and difference checks of channels that are
 //!   independent once a few shared terms are fixed, at polynomial cost in the number of
 //!   channels (counts and one-dimensional integrals instead of orderings).

@@ -1,8 +1,9 @@
 //! The probability of a polytope averaged over a uniformly distributed shift of the mean,
-//! in closed form when the gaussian has rank one.
+//! in closed form when every random row of the polytope reads one direction of the gaussian
+//! (always so when the gaussian has rank one).
 //!
-//! With `x = mu + l z + d F` (`z` standard normal, `l` the one column of the covariance
-//! factor, `F` uniform on `[a, b]`), each row `r` of the polytope reads
+//! With `x = mu + l z + d F` (`z` standard normal along that direction, `l` the covariance
+//! factor's column for it, `F` uniform on `[a, b]`), each row `r` of the polytope reads
 //! `r.mu + (r.l) z + (r.d) F`. For a fixed `F` the polytope is therefore an interval of `z`
 //! whose ends are the largest of some lines in `F` (from below) and the smallest of others
 //! (from above); rows with `r.l = 0` do not involve `z` and cut `F` itself. Between the
@@ -22,7 +23,7 @@ use super::estimate::Estimate;
 use super::legendre::RULE_20;
 use super::normal;
 use super::polytope::{Gaussian, Polytope};
-use super::tolerance::{SHIFT_SHORT_PIECE as SHORT_PIECE, SHIFT_TERM_REL as TERM_REL};
+use super::tolerance::{self, SHIFT_SHORT_PIECE as SHORT_PIECE, SHIFT_TERM_REL as TERM_REL};
 
 /// A line `alpha + beta F` bounding `z`.
 #[derive(Debug, Clone, Copy)]
@@ -84,9 +85,73 @@ fn integral_of_phi(line: Line, p: f64, q: f64, upper_tail: bool) -> (f64, f64) {
     (value, error)
 }
 
+/// The one direction of `z` that every random row of a polytope reads (for a gaussian of
+/// rank above one): the first random row's unit direction, and the largest tilt of a later
+/// row from it.
+#[derive(Debug, Default)]
+struct CommonAxis {
+    unit: Option<Vec<f64>>,
+    tilt: f64,
+}
+
+impl CommonAxis {
+    /// The row's random part `r L z` as `s w` with `w` the standard normal along the common
+    /// axis: `s` (signed; zero for a row without a random part, as the polytope engine
+    /// judges one), or `None` when the row reads another direction.
+    fn signed_size(&mut self, row: &[f64], factor: &nalgebra::DMatrix<f64>) -> Option<f64> {
+        let rank = factor.ncols();
+        let mut along = vec![0.0; rank];
+        let mut terms = 0.0;
+        for (i, &r) in row.iter().enumerate() {
+            if r == 0.0 {
+                continue;
+            }
+            let entries = factor.row(i);
+            terms += r.abs() * entries.iter().map(|v| v * v).sum::<f64>().sqrt();
+            for (a, l) in along.iter_mut().zip(entries.iter()) {
+                *a += r * l;
+            }
+        }
+        let size = along.iter().map(|v| v * v).sum::<f64>().sqrt();
+        if size == 0.0 || size <= tolerance::DEGENERATE_ROW_REL * terms {
+            return Some(0.0);
+        }
+        for v in &mut along {
+            *v /= size;
+        }
+        let Some(unit) = &self.unit else {
+            self.unit = Some(along);
+            return Some(size);
+        };
+        let gap = |sign: f64| -> f64 {
+            unit.iter()
+                .zip(&along)
+                .map(|(u, v)| (u - sign * v) * (u - sign * v))
+                .sum::<f64>()
+                .sqrt()
+        };
+        let (same, opposite) = (gap(1.0), gap(-1.0));
+        if same <= tolerance::PARALLEL_ROW_ABS {
+            self.tilt = self.tilt.max(MEAN_ABS_NORMAL * same);
+            Some(size)
+        } else if opposite <= tolerance::PARALLEL_ROW_ABS {
+            self.tilt = self.tilt.max(MEAN_ABS_NORMAL * opposite);
+            Some(-size)
+        } else {
+            None
+        }
+    }
+}
+
+/// `E|Z| = sqrt(2 / pi)` for standard normal `Z`.
+const MEAN_ABS_NORMAL: f64 = 0.797_884_560_802_865_4;
+
 /// The mean over `F` uniform on `[a, b]` of `P(x in polytope)` with `x ~ gaussian` shifted by
-/// `direction * F`, when the gaussian has rank one; `None` otherwise (or when a number on
-/// the way is not finite), for the caller to integrate by quadrature instead.
+/// `direction * F`, when every random row of the polytope reads one direction of the
+/// gaussian (always so at rank one; at higher rank when the rows' random parts are parallel
+/// within [`tolerance::PARALLEL_ROW_ABS`], as the polytope engine merges them); `None`
+/// otherwise (or when a number on the way is not finite), for the caller to integrate by
+/// quadrature instead.
 pub fn mean_over_uniform_shift(
     gaussian: &Gaussian,
     polytope: &Polytope,
@@ -95,7 +160,8 @@ pub fn mean_over_uniform_shift(
     b: f64,
 ) -> Option<Estimate> {
     let n = gaussian.dim();
-    if gaussian.rank() != 1 || direction.len() != n || a >= b || !a.is_finite() || !b.is_finite() {
+    let rank = gaussian.rank();
+    if rank == 0 || direction.len() != n || a >= b || !a.is_finite() || !b.is_finite() {
         return None;
     }
     let factor = gaussian.factor();
@@ -103,16 +169,20 @@ pub fn mean_over_uniform_shift(
     let (mut fa, mut fb) = (a, b);
     let mut lowers: Vec<Line> = Vec::new();
     let mut uppers: Vec<Line> = Vec::new();
+    let mut axis = CommonAxis::default();
     for (row, band) in polytope.rows.iter().zip(&polytope.bands) {
         if row.len() != n {
             return None;
         }
         let m: f64 = row.iter().zip(mean).map(|(r, v)| r * v).sum();
-        let s: f64 = row
-            .iter()
-            .enumerate()
-            .map(|(i, r)| r * factor[(i, 0)])
-            .sum();
+        let s: f64 = if rank == 1 {
+            row.iter()
+                .enumerate()
+                .map(|(i, r)| r * factor[(i, 0)])
+                .sum()
+        } else {
+            axis.signed_size(row, &factor)?
+        };
         let c: f64 = row.iter().zip(direction).map(|(r, d)| r * d).sum();
         if s == 0.0 {
             // The row does not involve z: lower <= m + c F <= upper cuts F.
@@ -222,7 +292,11 @@ pub fn mean_over_uniform_shift(
     // probability of at most one.
     error += 4.0 * f64::EPSILON * (fa.abs() + fb.abs()) * (points.len() as f64);
     let value = total / width;
-    let bound = error / width + TERM_REL * value.abs();
+    // Rows merged onto the common axis within PARALLEL_ROW_ABS: at each F the ends move at
+    // random by at most the tilt, so the probability by at most the tilt times the density
+    // at each end (as the polytope engine bounds a merged row; at most phi(0) per end).
+    let tilt = axis.tilt * 2.0 * normal::pdf(0.0);
+    let bound = error / width + TERM_REL * value.abs() + tilt;
     (value.is_finite() && bound.is_finite()).then(|| Estimate::new(value.clamp(0.0, 1.0), bound))
 }
 
@@ -267,10 +341,38 @@ mod tests {
     }
 
     #[test]
-    fn higher_rank_is_left_to_the_caller() {
+    fn two_random_directions_are_left_to_the_caller() {
         let g = Gaussian::new(&[0.0, 0.0], &DMatrix::identity(2, 2)).unwrap();
         let mut poly = Polytope::new();
         poly.push(vec![1.0, 0.0], Band::closed(-1.0, 1.0));
+        poly.push(vec![0.0, 1.0], Band::closed(-1.0, 1.0));
         assert!(mean_over_uniform_shift(&g, &poly, &[1.0, 0.0], 0.0, 1.0).is_none());
+    }
+
+    #[test]
+    fn rows_of_one_direction_at_higher_rank_follow_the_antiderivative() {
+        // Two independent N(0, 1); every row reads x1 + x2 ~ N(0, 2) (the second row its
+        // negative, the third twice it): P(-1 <= x1 + x2 + F <= 0) (the third row's -3.5 is
+        // implied) with F uniform on [0, 3] is Phi(-F / sqrt 2) - Phi((-1 - F) / sqrt 2); the
+        // mean over F is (sqrt 2 / 3) of the differences of G(t) = t Phi(t) + phi(t) at the
+        // ends (by parts, common practice; Phi from libm's erfc).
+        let g = Gaussian::new(&[0.0, 0.0], &DMatrix::identity(2, 2)).unwrap();
+        let mut poly = Polytope::new();
+        poly.push(vec![1.0, 1.0], Band::closed(f64::NEG_INFINITY, 0.0));
+        poly.push(vec![-1.0, -1.0], Band::closed(f64::NEG_INFINITY, 1.0));
+        poly.push(vec![2.0, 2.0], Band::closed(-7.0, f64::INFINITY));
+        let e = mean_over_uniform_shift(&g, &poly, &[1.0, 0.0], 0.0, 3.0).unwrap();
+        let cdf = |t: f64| 0.5 * libm::erfc(-t / std::f64::consts::SQRT_2);
+        let big_g =
+            |t: f64| t * cdf(t) + (-0.5 * t * t).exp() / (2.0 * std::f64::consts::PI).sqrt();
+        let r2 = std::f64::consts::SQRT_2;
+        let head = r2 * (big_g(0.0) - big_g(-3.0 / r2));
+        let tail = r2 * (big_g(-1.0 / r2) - big_g(-4.0 / r2));
+        let truth = (head - tail) / 3.0;
+        assert!(
+            (e.value - truth).abs() <= e.error + 1e-15,
+            "{e:?} vs {truth}"
+        );
+        assert!(e.error < 1e-13, "{e:?}");
     }
 }

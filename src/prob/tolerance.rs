@@ -129,7 +129,7 @@ pub const NESTED_SWITCH_STEPS: [f64; 3] = [0.0, 2.5, 8.0];
 /// the vertices of a polytope; past it the polytope goes to the lattice rule.
 pub const NESTED_MAX_PLANE_SETS: u128 = 20_000;
 
-/// Pieces of a uniformly shifted rank-one polytope over which the argument of the normal
+/// Pieces of a uniformly shifted one-direction polytope over which the argument of the normal
 /// CDF moves by less than this are integrated by 20-point Gauss–Legendre, not as a
 /// difference of antiderivatives (which would cancel).
 pub const SHIFT_SHORT_PIECE: f64 = 0.5;
