@@ -121,12 +121,26 @@ fn a_sweep_of_the_comparator_carries_the_isolation_figures_derived_by_hand() {
     let plan =
         SweepPlan::new(Axis::list("checks.bc.limit", limits.clone()).unwrap(), None).expect("plan");
     let mut rows = Vec::new();
+    let mut picture = concord::report::sweep::IsolationPicture::new(&plan);
     sweep(&arch, &plan, &AnalysisOptions::default(), |row| {
+        picture.add(&row);
         rows.push(row);
         Ok::<(), concord::analysis::AnalysisError>(())
     })
     .expect("sweep");
     assert_eq!(rows.len(), limits.len());
+    // The picture's shutdown line: the one site's none_blamed share, erfc(T / (2 s)), in %.
+    let chart = picture.chart("mm");
+    assert_eq!(chart.series[1].label, "shutdown");
+    assert_eq!(chart.series[1].points.len(), limits.len());
+    for ((x, y), limit) in chart.series[1].points.iter().zip(&limits) {
+        assert_eq!(x, limit);
+        let expected = 100.0 * libm::erfc(limit / (2.0 * SIGMA));
+        assert!(
+            (y - expected).abs() <= 1e-9 * expected.max(1e-3),
+            "{y} vs {expected}"
+        );
+    }
     for (row, limit) in rows.iter().zip(&limits) {
         let iso = row
             .isolation

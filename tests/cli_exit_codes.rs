@@ -96,6 +96,17 @@ fn invalid_input_exits_with_2_and_names_the_fix_in_every_command() {
             "--series: the series key safety.limit is the swept key",
         ),
         (
+            vec![
+                "sweep",
+                MEAN,
+                "--vary",
+                "safety.limit=1:2",
+                "--plot-isolation",
+                &svg,
+            ],
+            "--plot-isolation: architectures/plovrant_swa2_mean.toml has no [isolation] section",
+        ),
+        (
             vec!["analyze", MEAN, "--method", "montecarlo", "--samples", "0"],
             "--samples: 0 samples; give between 1 and",
         ),

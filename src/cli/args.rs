@@ -223,6 +223,10 @@ pub struct SweepArgs {
     /// site without series, the first site with series).
     #[arg(long, value_name = "SITE", requires = "vary")]
     pub site: Option<String>,
+    /// Draw the end states of a single fault (continues, shutdown, fault stays, residual)
+    /// against the swept key as an SVG picture in FILE (a file with an `[isolation]` section).
+    #[arg(long, value_name = "FILE", requires = "vary")]
+    pub plot_isolation: Option<PathBuf>,
     #[command(flatten)]
     pub accuracy: AccuracyArgs,
 }

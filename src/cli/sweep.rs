@@ -10,7 +10,8 @@ use crate::analysis::AnalysisError;
 use crate::analysis::spread::{default_spread_range, spread_curve};
 use crate::analysis::sweep::{Axis, SweepPlan, prepare_sweep, sweep};
 use crate::report::sweep::{
-    SweepFormat, SweepPicture, SweepWriter, spread_csv, spread_json, spread_summary, spread_svg,
+    IsolationPicture, SweepFormat, SweepPicture, SweepWriter, spread_csv, spread_json,
+    spread_summary, spread_svg,
 };
 
 use super::args::{SweepArgs, SweepFormatArg};
@@ -74,6 +75,20 @@ fn parameter_sweep(args: &SweepArgs, vary: &str) -> Result<String, CliError> {
     };
     let plan = SweepPlan::new(vary, series)?;
     let sites = prepare_sweep(&arch, &plan)?;
+    if args.plot_isolation.is_some() && arch.model.isolation.is_none() {
+        return Err(CliError::Value {
+            flag: "--plot-isolation".into(),
+            message: format!(
+                "{} has no [isolation] section, so a sweep has no end states to draw; add one \
+                 (docs/architecture-format.md, \"Isolation\") or leave the option out",
+                arch.path
+            ),
+        });
+    }
+    let mut isolation_plot = args
+        .plot_isolation
+        .as_ref()
+        .map(|_| IsolationPicture::new(&plan));
     let format = match args.format {
         SweepFormatArg::Csv => SweepFormat::Csv,
         SweepFormatArg::Json => SweepFormat::Json,
@@ -113,6 +128,9 @@ fn parameter_sweep(args: &SweepArgs, vary: &str) -> Result<String, CliError> {
         if let Some(picture) = plot.as_mut() {
             picture.add(&row);
         }
+        if let Some(picture) = isolation_plot.as_mut() {
+            picture.add(&row);
+        }
         progress.inc(1);
         Ok::<(), Stop>(())
     });
@@ -124,6 +142,9 @@ fn parameter_sweep(args: &SweepArgs, vary: &str) -> Result<String, CliError> {
     }
     writer.finish().map_err(CliError::Stream)?;
     if let (Some(path), Some(picture)) = (&args.plot, &plot) {
+        write_output(path, picture.svg(&arch.model.unit)?)?;
+    }
+    if let (Some(path), Some(picture)) = (&args.plot_isolation, &isolation_plot) {
         write_output(path, picture.svg(&arch.model.unit)?)?;
     }
     Ok(String::new())

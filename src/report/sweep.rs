@@ -500,6 +500,97 @@ impl SweepPicture {
     }
 }
 
+/// The end states of a single fault against the swept key, for a file with an `[isolation]`
+/// section: one line per end state (continues, shutdown, fault stays in the vote, residual)
+/// as FIT-weighted shares in percent, on a log axis (a share of zero is not drawn). With
+/// series, the first series value only (the title says which).
+#[derive(Debug, Clone, PartialEq)]
+pub struct IsolationPicture {
+    key: String,
+    /// The series value drawn, when the plan has series.
+    series: Option<(String, f64)>,
+    /// Points per series (the length of the swept axis).
+    vary_len: usize,
+    lines: Vec<Series>,
+}
+
+impl IsolationPicture {
+    /// An empty picture for `plan`.
+    pub fn new(plan: &SweepPlan) -> Self {
+        let lines = [
+            "continues",
+            "shutdown",
+            "fault stays in the vote",
+            "residual",
+        ]
+        .map(|label| Series {
+            label: label.to_string(),
+            points: Vec::new(),
+        })
+        .to_vec();
+        Self {
+            key: plan.vary.key.clone(),
+            series: plan
+                .series
+                .as_ref()
+                .and_then(|s| s.values.first().map(|v| (s.key.clone(), *v))),
+            vary_len: plan.vary.values.len().max(1),
+            lines,
+        }
+    }
+
+    /// Adds the points of one row (rows of later series and rows without isolation figures
+    /// add nothing).
+    pub fn add(&mut self, row: &SweepRow) {
+        if self.series.is_some() && row.index >= self.vary_len {
+            return;
+        }
+        let Some(isolation) = &row.isolation else {
+            return;
+        };
+        let e = &isolation.end_states;
+        for (series, share) in
+            self.lines
+                .iter_mut()
+                .zip([e.continues, e.shutdown, e.fault_stays, e.residual])
+        {
+            if share.value > 0.0 {
+                series.points.push((row.x, 100.0 * share.value));
+            }
+        }
+    }
+
+    /// The chart: the four end states against the swept key.
+    pub fn chart(&self, unit: &str) -> Chart {
+        let at = match &self.series {
+            Some((key, value)) => format!(" at {key} = {}", super::format::number(*value)),
+            None => String::new(),
+        };
+        Chart {
+            title: format!(
+                "How a single fault ends (FIT-weighted) against {}{at}",
+                self.key
+            ),
+            x_label: format!("{} [{}]", self.key, unit_of_key(&self.key, unit)),
+            y_label: "share of single faults [%]".into(),
+            x_scale: Scale::Linear,
+            y_scale: Scale::Log,
+            series: self.lines.clone(),
+            reference_lines: Vec::new(),
+            markers: Vec::new(),
+            caption: plot_caption(),
+        }
+    }
+
+    /// The picture as SVG.
+    ///
+    /// # Errors
+    /// The plot module's errors (e.g. no point to draw).
+    pub fn svg(&self, unit: &str) -> Result<String, PlotError> {
+        render_svg(&self.chart(unit), PLOT_SIZE.0, PLOT_SIZE.1)
+    }
+}
+
 /// The unit of a swept key: the file's unit for limits, sigmas, means and amplitudes; none
 /// for correlations, FIT rates, coverages and weights.
 pub fn unit_of_key(key: &str, unit: &str) -> String {
