@@ -62,6 +62,57 @@ const UNDERFLOW_EXPONENT: f64 = -1000.0;
 /// At most 20 nodes per rule.
 const MAX_NODES: usize = 20;
 
+/// How many laws each thread remembers (see [`remembered`]).
+const RECENT_LAWS: usize = 8;
+
+/// The key part of a law made by [`StandardBivariate::new`] (no complement given): the bits
+/// of a NaN that `f64::to_bits` of a computed complement does not produce in practice, and
+/// which would in any case build the same law (a NaN complement falls back to `new`).
+const NO_COMPLEMENT: u64 = u64::MAX;
+
+/// Laws recently made on this thread, by the bits of their arguments, oldest replaced first.
+#[derive(Default)]
+struct RecentLaws {
+    entries: Vec<((u64, u64), StandardBivariate)>,
+    next: usize,
+}
+
+thread_local! {
+    static RECENT: std::cell::RefCell<RecentLaws> = std::cell::RefCell::new(RecentLaws::default());
+}
+
+/// The law for `key`, remembered from a recent call on this thread or made by `make`.
+/// Making one costs an arcsine and 20 sines (or 20 square roots), and the engine asks for
+/// the same correlation over and over: the same two rows at every point of an integral
+/// over a shifted mean (a uniform amplitude, the constant terms of a confirmation
+/// interval). A law is a function of its arguments alone, so the remembered law is the one
+/// that would be made, bit for bit.
+fn remembered(key: (u64, u64), make: impl FnOnce() -> StandardBivariate) -> StandardBivariate {
+    let found = RECENT.with(|recent| {
+        recent
+            .borrow()
+            .entries
+            .iter()
+            .find(|(k, _)| *k == key)
+            .map(|(_, law)| law.clone())
+    });
+    if let Some(law) = found {
+        return law;
+    }
+    let law = make();
+    RECENT.with(|recent| {
+        let mut recent = recent.borrow_mut();
+        if recent.entries.len() < RECENT_LAWS {
+            recent.entries.push((key, law.clone()));
+        } else {
+            let slot = recent.next;
+            recent.entries[slot] = (key, law.clone());
+            recent.next = (slot + 1) % RECENT_LAWS;
+        }
+    });
+    law
+}
+
 /// The standard bivariate normal distribution with one correlation, prepared for repeated
 /// evaluation: the quadrature nodes that depend on `rho` only are computed once.
 #[derive(Debug, Clone)]
@@ -149,6 +200,11 @@ impl StandardBivariate {
     /// the nearest end; any other `rho` outside `[-1, 1]`, or NaN, makes every probability
     /// NaN.
     pub fn new(rho: f64) -> Self {
+        remembered((rho.to_bits(), NO_COMPLEMENT), || Self::build(rho))
+    }
+
+    /// [`Self::new`] without the memory of recent laws.
+    fn build(rho: f64) -> Self {
         let method = if rho.is_nan() || rho.abs() > 1.0 + tolerance::CORRELATION_SLACK {
             Method::Invalid
         } else if rho >= 1.0 {
@@ -182,13 +238,20 @@ impl StandardBivariate {
     /// positive complement keeps that integral even where `rho` has rounded to `+-1`.
     /// A complement that is zero, NaN or not below 1 falls back to [`Self::new`].
     pub fn with_complement(rho: f64, complement: f64) -> Self {
+        remembered((rho.to_bits(), complement.to_bits()), || {
+            Self::build_with_complement(rho, complement)
+        })
+    }
+
+    /// [`Self::with_complement`] without the memory of recent laws.
+    fn build_with_complement(rho: f64, complement: f64) -> Self {
         let strong = rho.is_finite()
             && rho.abs() > STRONG_RHO
             && rho.abs() <= 1.0 + tolerance::CORRELATION_SLACK
             && complement > 0.0
             && complement < 1.0;
         if !strong {
-            return Self::new(rho);
+            return Self::build(rho);
         }
         StandardBivariate {
             rho: rho.clamp(-1.0, 1.0),
