@@ -77,6 +77,63 @@ fn value(v: &Value, key: &str) -> f64 {
 }
 
 #[test]
+fn sweep_rows_carry_the_isolation_figures_of_analyze() {
+    // The three-channel example has an [isolation] section: a sweep row's end states and
+    // per-site isolation figures are those `analyze` writes for the file edited by hand, and
+    // the CSV has a cell under every column.
+    let file = "architectures/plovrant_swa3_median.toml";
+    let original = std::fs::read_to_string(file).unwrap();
+    let set = "[checks.ab]\nkind = \"difference\"\nof = [\"hall_a\", \"hall_b\"]\nlimit = 2.0\n";
+    assert!(original.contains(set));
+    let edited = original.replacen(set, &set.replace("limit = 2.0", "limit = 2.5"), 1);
+    let path = scratch("swa3_ab_2.5.toml");
+    std::fs::write(&path, edited).unwrap();
+    let single: Value = serde_json::from_str(&ok(&concord(&[
+        "analyze",
+        path.to_str().unwrap(),
+        "--format",
+        "json",
+    ])))
+    .unwrap();
+    let out = concord(&[
+        "sweep",
+        file,
+        "--vary",
+        "checks.ab.limit=2.5",
+        "--format",
+        "json",
+    ]);
+    let doc: Value = serde_json::from_str(&ok(&out)).expect("the sweep JSON");
+    let row = &doc["rows"][0];
+    let ends = &single["isolation"]["end_states"];
+    for k in ["continues", "shutdown", "fault_stays", "residual"] {
+        assert_eq!(
+            value(&row["isolation"]["end_states"], k),
+            ends[k].as_f64().unwrap(),
+            "{k}"
+        );
+    }
+    let sites = single["isolation"]["sites"].as_array().unwrap();
+    for (s, j) in row["isolation"]["sites"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .zip(sites)
+    {
+        assert_eq!(s["name"], j["name"]);
+        for k in ["isolated", "wrong_channel", "none_blamed"] {
+            assert_eq!(value(s, k), j[k].as_f64().unwrap(), "{} {k}", j["name"]);
+        }
+        assert_eq!(s["sigma"], j["sigma"]);
+    }
+    let csv = ok(&concord(&["sweep", file, "--vary", "checks.ab.limit=2.5"]));
+    let lines = csv_data_lines(&csv);
+    let header = lines[0].split(',').count();
+    assert_eq!(lines[1].split(',').count(), header);
+    assert!(lines[0].contains("a_drift.wrong_channel,a_drift.wrong_channel_error"));
+}
+
+#[test]
 fn sweep_rows_equal_analyze_on_files_edited_by_hand() {
     let limits = ["1.75", "2.5", "3.25"];
     let out = concord(&[

@@ -317,6 +317,9 @@ pub struct SiteIsolationSummary {
     pub wrong_channel: Estimate,
     /// Detected, no channel blamed: a shutdown.
     pub none_blamed: Estimate,
+    /// For an unknown spread, the sigma these figures are taken at: where `wrong_channel`
+    /// is largest, not the worst sigma of the residual.
+    pub sigma: Option<f64>,
 }
 
 impl IsolationSummary {
@@ -332,6 +335,7 @@ impl IsolationSummary {
                     isolated: s.isolated,
                     wrong_channel: s.wrong,
                     none_blamed: s.blame.declined,
+                    sigma: s.sigma,
                 })
                 .collect(),
         }

@@ -10,6 +10,7 @@ use crate::prob::polytope::Gaussian;
 
 use super::error::AnalysisError;
 use super::timing::{CONSTANT_RANK_REL, GAUSSIAN_REACH, MAX_CONSTANT_TERMS, NARROW_STEP};
+use super::uniform::push_steps;
 /// The samples of one scenario: the per-sample gaussian given the constant terms.
 #[derive(Debug, Clone)]
 pub(super) struct Split {
@@ -207,7 +208,7 @@ impl Split {
 }
 
 /// The shifts `t` at which `mean + direction t` puts a channel on a level, on another
-/// channel's mean, or on another channel's mean moved by a level, each with points 2 and 6
+/// channel's mean, or on another channel's mean moved by a level, each with points 3 and 9
 /// fresh widths either side (the figures of a sample step there, smoothed over the fresh
 /// noise).
 pub(super) fn crossings(
@@ -237,11 +238,7 @@ pub(super) fn crossings(
             }
         }
         for target in targets.into_iter().filter(|t| t.is_finite()) {
-            let centre = (target - mean[i]) / d;
-            points.push(centre);
-            for k in [-6.0, -2.0, 2.0, 6.0] {
-                points.push(centre + k * widest / d.abs());
-            }
+            push_steps(&mut points, (target - mean[i]) / d, widest / d.abs());
         }
     }
     points.retain(|p| p.is_finite());

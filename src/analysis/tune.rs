@@ -12,6 +12,9 @@
 //! closes the bracket between the last grid point that meets the target and the first that
 //! does not, by secant steps (see `close_bracket`).
 //! A point counts as meeting the target only when its coverage minus its error bound does.
+//! For a file with an `[isolation]` section the chosen band is analysed once more with its
+//! isolation figures (`TuneResult::chosen_isolation`): coverage alone chose the band, and
+//! the analyst reads how single faults end there.
 
 use rayon::prelude::*;
 use serde::Serialize;
@@ -263,12 +266,22 @@ pub fn tune(
             (Some(good), Some(fail), false)
         }
     };
+    // The isolation figures at the chosen band: a failure there leaves the tuning itself
+    // standing, with a warning.
     let chosen_isolation = match (&chosen, &arch.model.isolation) {
         (Some(point), Some(_)) => {
-            let analysis = analyze_point(arch, &point.limits, options, Sections::WithIsolation)?;
+            let found = analyze_point(arch, &point.limits, options, Sections::WithIsolation);
             progress();
             evaluations += 1;
-            analysis.isolation.as_ref().map(IsolationSummary::of)
+            match found {
+                Ok(analysis) => analysis.isolation.as_ref().map(IsolationSummary::of),
+                Err(e) => {
+                    warnings.push(format!(
+                        "the isolation figures at the chosen band could not be computed: {e}"
+                    ));
+                    None
+                }
+            }
         }
         _ => None,
     };

@@ -93,14 +93,10 @@ fn pair_kinks(
 
 /// A step (or kink) at `centre` smoothed over `width`: the centre, and 3 and
 /// [`AMPLITUDE_REACH`] widths either side, so that its steep part and its tails each get
-/// pieces of their own. Beyond the outer points what is left of the step is
-/// below `P(Z > 9)` per width: nothing the adaptive rule's error estimate on a long flat
-/// piece can miss. (With the points at 2 and 6 widths, a tail of about `G(-6) = 1.7e-10`
-/// widths, `G(t) = t Phi(t) + phi(t)`, sat unresolved at the end of a long piece: on a
-/// frozen channel of the demo the integral missed it and its bound under-claimed the error
-/// by half, 4e-13 on 0.97, against an mpmath integration. The points at 3 and 9 cost fewer
-/// evaluations than those at 2 and 6 did.)
-fn push_steps(points: &mut Vec<f64>, centre: f64, width: f64) {
+/// pieces of their own and what is left beyond (below `P(Z > 9)` per width) is nothing an
+/// adaptive rule's error estimate on a long flat piece can miss (DEVELOPERS.md, "How a
+/// figure is computed", says why).
+pub(crate) fn push_steps(points: &mut Vec<f64>, centre: f64, width: f64) {
     points.push(centre);
     if width > 0.0 {
         for k in [-AMPLITUDE_REACH, -3.0, 3.0, AMPLITUDE_REACH] {
@@ -237,7 +233,7 @@ pub(crate) fn uniform_total(
     // Polytope by polytope, in parallel; summed in their fixed order, so the total has the
     // same bits whatever the thread count.
     let one = |polytope: &Polytope| -> Result<Estimate, AnalysisError> {
-        // One random direction left (one of two channels replaced): closed form.
+        // Every random row reads one direction (a replaced channel): closed form.
         if let Some(mean) =
             mean_over_uniform_shift(&scenario.base, polytope, &scenario.direction, lower, upper)
         {

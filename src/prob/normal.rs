@@ -48,6 +48,9 @@ const ERFC_SPLIT: f64 = 4.0;
 /// underflow to zero in double precision.
 pub const UNDERFLOW_X: f64 = 40.0;
 
+/// `E|Z| = sqrt(2 / pi)` for standard normal `Z` (common practice; digits from mpmath 1.3.0).
+pub const MEAN_ABS: f64 = 0.797_884_560_802_865_4;
+
 /// Cody (1969), `erf(u) = u * P(u^2) / Q(u^2)` for `|u| <= 0.46875`; numerator, highest
 /// power first.
 const ERF_NUM: [f64; 5] = [

@@ -18,7 +18,9 @@
 //! arrive, so that a sweep of any length is never held in memory. A row of a file with an
 //! `[isolation]` section carries `isolation`: `end_states` (`continues`, `shutdown`,
 //! `fault_stays`, `residual`) and `sites` (`name`, `isolated`, `wrong_channel`,
-//! `none_blamed`), each figure a `{"value", "error"}` pair.
+//! `none_blamed`, each figure a `{"value", "error"}` pair, and `sigma`: for an unknown
+//! spread, the sigma the isolation figures are taken at, where `wrong_channel` is largest;
+//! the CSV leaves it out).
 
 use std::io::{self, Write};
 
@@ -53,7 +55,10 @@ pub fn isolation_columns(sites: &[String]) -> Vec<String> {
             ["isolated", "wrong_channel", "none_blamed"].map(|k| format!("{s}.{k}"))
         }));
     figures
-        .flat_map(|name| [format!("{name}_error"), name].into_iter().rev())
+        .flat_map(|name| {
+            let error = format!("{name}_error");
+            [name, error]
+        })
         .collect()
 }
 

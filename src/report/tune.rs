@@ -1,5 +1,8 @@
 //! Output of `concord tune`: a summary for the terminal, the JSON object, and the trade-off
-//! curve (coverage against false-alarm probability) as CSV.
+//! curve (coverage against false-alarm probability) as CSV. For a file with an `[isolation]`
+//! section the summary and the JSON (`chosen_isolation`: `end_states` and per site
+//! `isolated`, `wrong_channel`, `none_blamed`, each `{"value", "error"}`) also say how
+//! single faults end at the chosen band.
 
 use serde::Serialize;
 
@@ -150,7 +153,8 @@ struct TuneJson<'a> {
     cautions: &'a [&'a str],
 }
 
-/// The result as one JSON object (the request, the chosen point, the bracket, the curve).
+/// The result as one JSON object (the request, the chosen point, the bracket, the curve, and
+/// for a file with an `[isolation]` section the isolation figures at the chosen band).
 ///
 /// # Errors
 /// Serialisation errors (none expected).

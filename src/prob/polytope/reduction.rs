@@ -155,4 +155,4 @@ impl UnitRow {
 }
 
 /// `E|Z| = sqrt(2 / pi)` for standard normal `Z`.
-pub(super) const MEAN_ABS_NORMAL: f64 = 0.797_884_560_802_865_4;
+pub(super) const MEAN_ABS_NORMAL: f64 = normal::MEAN_ABS;
