@@ -296,3 +296,41 @@ amplitude = { uniform = "full_scale" }
     assert_close("p_vd", o.p_vd, 1.0 - 2.0 * 0.03 / 100.0);
     assert_close("p_vu", o.p_vu, 0.0);
 }
+
+#[test]
+fn a_thin_tail_at_the_end_of_a_long_flat_piece_is_inside_the_bound() {
+    // Channel a ~ N(0, 1) shifted by F uniform on [-1000, 1000], read alone; violated when
+    // a + F > 0, detected when an independent b ~ N(0, 1) is above 0. Given F each outcome
+    // is Phi(+-F) / 2, and the mean of Phi(F) over [-1000, 1000] is
+    // (G(1000) - G(-1000)) / 2000 = 1/2 exactly, since G(t) = t Phi(t) + phi(t) has
+    // G(t) - G(-t) = t (by parts; common practice). So every outcome is 1/4. The flat
+    // piece beyond the step at F = 0 holds a tail of G(-6) = 1.7e-10 past six noise widths:
+    // with the adaptive rule's breakpoints at 2 and 6 widths it was missed, 3.9e-14 off
+    // against a bound of 6.8e-15 (the polytopes have two random directions, so no closed
+    // form takes them).
+    let text = "name = \"thin tail\"\nunit = \"V\"\nfull_scale = [-1000.0, 1000.0]\n\
+                [channels.a]\nmean = 0.0\nsigma = 1.0\n[channels.b]\nmean = 0.0\nsigma = 1.0\n\
+                [output]\nkind = \"select\"\nof = \"a\"\n\
+                [checks.b_high]\nkind = \"linear\"\nof = { b = 1.0 }\nupper = 0.0\n\
+                [safety]\nupper = 0.0\n\
+                [faults.a_wander]\nfit = 1.0\nhits = { a = 1.0 }\nmode = \"add\"\n\
+                amplitude = { uniform = \"full_scale\" }\n";
+    let arch = load_str(text, "thin.toml").expect("valid file");
+    let a = analyze(&arch.model, &AnalysisOptions::default(), false).expect("analysis");
+    let o = &a.sites[0].outcome;
+    for (name, e) in [
+        ("p_vd", o.p_vd),
+        ("p_vu", o.p_vu),
+        ("p_sd", o.p_sd),
+        ("p_sq", o.p_sq),
+    ] {
+        assert!(
+            (e.value - 0.25).abs() <= e.error,
+            "{name}: {} ± {:e}, off by {:e}",
+            e.value,
+            e.error,
+            (e.value - 0.25).abs()
+        );
+        assert!(e.error < 1e-12, "{name}: bound {:e}", e.error);
+    }
+}
