@@ -17,7 +17,7 @@ use crate::prob::polytope::{Band, ErrorTarget, Gaussian, Polytope};
 
 use super::cells::CellSet;
 use super::error::AnalysisError;
-use super::evaluate::{Pattern, Side, polytope};
+use super::evaluate::{Pattern, Side, check_states, polytope};
 use super::options::AnalysisOptions;
 
 /// The polytopes of "detected, and the rule blames class c": one class per candidate channel
@@ -202,15 +202,8 @@ pub fn firing_states(k: usize, detection: &Detection) -> Vec<Vec<Side>> {
         Detection::Any => 1,
         Detection::AtLeast(m) => *m,
     };
-    let total = 3usize.saturating_pow(k as u32);
     let mut out = Vec::new();
-    for code in 0..total {
-        let mut rest = code;
-        let mut sides = Vec::with_capacity(k);
-        for _ in 0..k {
-            sides.push([Side::Inside, Side::Below, Side::Above][rest % 3]);
-            rest /= 3;
-        }
+    for sides in check_states(k) {
         let fired = sides.iter().filter(|s| **s != Side::Inside).count();
         if fired >= needed.max(1) {
             out.push(sides);
@@ -408,15 +401,7 @@ mod tests {
             for m in 1..=k {
                 let det = Detection::AtLeast(m);
                 let pats = detecting_patterns(k, &det);
-                for code in 0..3usize.pow(k as u32) {
-                    let mut rest = code;
-                    let state: Vec<Side> = (0..k)
-                        .map(|_| {
-                            let s = [Side::Inside, Side::Below, Side::Above][rest % 3];
-                            rest /= 3;
-                            s
-                        })
-                        .collect();
+                for state in check_states(k) {
                     let fired = state.iter().filter(|s| **s != Side::Inside).count();
                     let hits = pats
                         .iter()

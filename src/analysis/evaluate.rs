@@ -37,6 +37,21 @@ pub struct Pattern {
     pub checks: Vec<Side>,
 }
 
+/// Every state of `k` checks, each below, inside or above its band: the `3^k` assignments
+/// in a fixed order (check 0 varying fastest).
+pub fn check_states(k: usize) -> impl Iterator<Item = Vec<Side>> {
+    (0..3usize.saturating_pow(k as u32)).map(move |code| {
+        let mut rest = code;
+        (0..k)
+            .map(|_| {
+                let side = [Side::Inside, Side::Below, Side::Above][rest % 3];
+                rest /= 3;
+                side
+            })
+            .collect()
+    })
+}
+
 /// The disjoint patterns whose union is `figure`, for `k` checks combined by `detection`.
 pub fn patterns(figure: Figure, k: usize, detection: &Detection) -> Vec<Pattern> {
     let outputs: &[Side] = if figure.violated() {
@@ -64,14 +79,7 @@ pub fn patterns(figure: Figure, k: usize, detection: &Detection) -> Vec<Pattern>
         Detection::AtLeast(needed) => {
             // Every assignment of below / inside / above, kept when its count of firing checks
             // agrees with the figure: 3^k disjoint patterns at most.
-            let total = 3usize.pow(k as u32);
-            for code in 0..total {
-                let mut rest = code;
-                let mut sides = Vec::with_capacity(k);
-                for _ in 0..k {
-                    sides.push([Side::Inside, Side::Below, Side::Above][rest % 3]);
-                    rest /= 3;
-                }
+            for sides in check_states(k) {
                 let fired = sides.iter().filter(|s| **s != Side::Inside).count();
                 if (fired >= *needed) == figure.detected() {
                     check_patterns.push(sides);
@@ -291,15 +299,7 @@ mod tests {
             let quiet = patterns(Figure::SafeQuiet, k, &Detection::Any);
             let alarm = patterns(Figure::SafeDetected, k, &Detection::Any);
             let mut covered = 0usize;
-            for code in 0..3usize.pow(k as u32) {
-                let mut rest = code;
-                let state: Vec<Side> = (0..k)
-                    .map(|_| {
-                        let s = [Side::Inside, Side::Below, Side::Above][rest % 3];
-                        rest /= 3;
-                        s
-                    })
-                    .collect();
+            for state in check_states(k) {
                 let hits = quiet
                     .iter()
                     .chain(&alarm)
