@@ -24,7 +24,7 @@ use super::error::AnalysisError;
 use super::options::AnalysisOptions;
 use super::run::{Analysis, analyze};
 use super::scenario::FaultScenario;
-use super::site::{SiteResult, search_largest, uniform_total};
+use super::site::{MIN_WIDENING_STEP_REL, SiteResult, search_largest, uniform_total};
 
 /// The isolation figures of one fault site.
 #[derive(Debug, Clone, PartialEq)]
@@ -290,6 +290,7 @@ fn site_isolation(
     let all: Vec<usize> = (0..plan.class_count()).collect();
     let tol = options.polytope_tolerance();
     let mut warnings = Vec::new();
+    let mut wrong_allowance = 0.0;
     let (classes, sigma, quiet) = match &fault.amplitude {
         Amplitude::Gaussian { mean, sigma } => {
             let g = scenario.with_gaussian_amplitude(*mean, *sigma)?;
@@ -340,7 +341,7 @@ fn site_isolation(
             sigma_hi,
             ..
         } => {
-            let (s, at_end) = worst_wrong_sigma(
+            let found = worst_wrong_sigma(
                 plan,
                 &scenario,
                 *mean,
@@ -350,13 +351,15 @@ fn site_isolation(
                 options,
             )
             .map_err(named)?;
+            let (s, at_end) = (found.sigma, found.at_end);
+            wrong_allowance = found.allowance;
             let at = |sigma: f64| -> Result<Vec<Estimate>, AnalysisError> {
                 let g = scenario.with_gaussian_amplitude(*mean, sigma)?;
                 plan.classes_at(&g, &all, &tol)
             };
             let centre = at(s).map_err(named)?;
             // The location is known to sigma_rel_tol: widen by the move over that distance.
-            let step = options.sigma_rel_tol.max(1e-12);
+            let step = options.sigma_rel_tol.max(MIN_WIDENING_STEP_REL);
             let left = at((s * (1.0 - step)).max(*sigma_lo)).map_err(named)?;
             let right = at((s * (1.0 + step)).min(*sigma_hi)).map_err(named)?;
             let widened = centre
@@ -389,6 +392,7 @@ fn site_isolation(
     };
     let isolated = sum_of(&faulty);
     let wrong = sum_of(&healthy);
+    let wrong = Estimate::new(wrong.value, wrong.error + wrong_allowance);
     let (quiet_safe, quiet_violated) = quiet.unwrap_or((site.outcome.p_sq, site.outcome.p_vu));
     // The next stage: for every blamed channel after whose removal the fault is still there.
     let mut after: Option<Estimate> = None;
@@ -440,36 +444,65 @@ fn worst_wrong_sigma(
     healthy: &[usize],
     site: &SiteResult,
     options: &AnalysisOptions,
-) -> Result<(f64, bool), AnalysisError> {
+) -> Result<WrongSigma, AnalysisError> {
     let fallback = site.worst.as_ref().map_or(range.0, |w| w.sigma);
     if healthy.is_empty() {
-        return Ok((fallback, false));
+        return Ok(WrongSigma {
+            sigma: fallback,
+            at_end: false,
+            allowance: 0.0,
+        });
     }
     let grid = log_grid(range.0, range.1, options.sigma_scan_points.max(3))
         .map_err(|e| AnalysisError::engine("grid over the fault sigma", e))?;
     let scan_tol = options.scan_tolerance();
     let full_tol = options.polytope_tolerance();
-    let wrong_at = |sigma: f64, tol: &ErrorTarget| -> Result<f64, AnalysisError> {
+    let wrong_at = |sigma: f64, tol: &ErrorTarget| -> Result<Estimate, AnalysisError> {
         let g = scenario.with_gaussian_amplitude(mean, sigma)?;
         let c = plan.classes_at(&g, healthy, tol)?;
-        Ok(c.iter().map(|e| e.value).sum())
+        Ok(c.iter().fold(Estimate::zero(), |a, e| a.add(*e)))
     };
-    let precomputed: Vec<Result<f64, AnalysisError>> =
+    let precomputed: Vec<Result<Estimate, AnalysisError>> =
         grid.par_iter().map(|&s| wrong_at(s, &scan_tol)).collect();
     // A wrong blame that no sigma of the grid can cause: keep the residual's worst sigma.
-    if precomputed.iter().all(|v| matches!(v, Ok(w) if *w == 0.0)) {
-        return Ok((fallback, false));
+    if precomputed
+        .iter()
+        .all(|v| matches!(v, Ok(w) if w.value == 0.0))
+    {
+        return Ok(WrongSigma {
+            sigma: fallback,
+            at_end: false,
+            allowance: 0.0,
+        });
     }
-    let (scan, _) = search_largest(
+    let found = search_largest(
         &grid,
         &precomputed,
         |sigma, _| wrong_at(sigma, &full_tol),
-        |w: &f64| *w,
+        |w: &Estimate| w.value,
+        |w: &Estimate| w.error,
         options,
     )
     .map_err(|e| AnalysisError::engine("search of the sigma that most often blames wrongly", e))?;
-    Ok(scan
-        .minima
-        .first()
-        .map_or((fallback, false), |m| (m.x, m.at_boundary)))
+    Ok(found.scan.minima.first().map_or(
+        WrongSigma {
+            sigma: fallback,
+            at_end: false,
+            allowance: 0.0,
+        },
+        |m| WrongSigma {
+            sigma: m.x,
+            at_end: m.at_boundary,
+            allowance: found.allowance,
+        },
+    ))
+}
+
+/// Where "a healthy channel blamed" is largest over an unknown sigma.
+struct WrongSigma {
+    sigma: f64,
+    /// Whether it sits at an end of the sigma range.
+    at_end: bool,
+    /// The search's ranking allowance on the wrong blame's bound (see `search_largest`).
+    allowance: f64,
 }

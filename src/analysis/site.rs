@@ -12,7 +12,7 @@ use crate::prob::optimise::{Scan, Stage, log_grid, scan_then_refine_staged};
 use super::engine::{Engine, FigureMethod, Scenario};
 use super::error::AnalysisError;
 use super::options::AnalysisOptions;
-use super::outcome::Outcome;
+use super::outcome::{Figure, Outcome};
 use super::scenario::FaultScenario;
 pub(crate) use super::uniform::uniform_total;
 pub use super::uniform::{AmplitudeWindow, amplitude_window};
@@ -233,7 +233,7 @@ const SUM_ROUNDING: f64 = 1e-12;
 /// Smallest relative step in sigma over which the figures of a worst case are compared to
 /// widen its bounds: a `sigma_rel_tol` below it (zero, say) is raised to it, so that the two
 /// neighbouring sigmas still differ from the centre in floating point.
-const MIN_WIDENING_STEP_REL: f64 = 1e-12;
+pub(crate) const MIN_WIDENING_STEP_REL: f64 = 1e-12;
 
 /// The quadrature takes engine errors only; analysis errors are carried through as their
 /// engine cause or as an invalid argument with the message.
@@ -251,7 +251,16 @@ type WorstFound = (WorstCase, Outcome, Option<Vec<CurvePoint>>);
 /// `precomputed` holds `at(g, Stage::Scan)` for each grid point `g`, computed by the caller
 /// in parallel (each exactly as the scan would ask, so the result does not depend on the
 /// thread count); the scan reads them back and the refinement asks `at` afresh. `value`
-/// turns an evaluation into the number maximised.
+/// turns an evaluation into the number maximised and `bound` into its error bound.
+///
+/// The result's `allowance` is the search's own, to be added to the bound of
+/// the maximised figure at the sigma found. The search ranks evaluations that are each known
+/// only within their bound `e`: near a smooth maximum the values differ by less than that,
+/// so the point it settles on can lie below the true maximum by up to `2e` (the true maximum
+/// read low by `e`, the point found read high by `e`). The widening over `sigma_rel_tol`
+/// covers where the maximum lies once the values are exact; this covers the ranking. `e` is
+/// the largest bound among the refinement's evaluations and those at the sigma found (a grid
+/// point at the scan tolerance when no refinement improved on it).
 ///
 /// # Errors
 /// The first failed evaluation the search reads, or a failure of the search itself.
@@ -260,9 +269,11 @@ pub(crate) fn search_largest<T: Clone>(
     precomputed: &[Result<T, AnalysisError>],
     mut at: impl FnMut(f64, Stage) -> Result<T, AnalysisError>,
     value: impl Fn(&T) -> f64,
+    bound: impl Fn(&T) -> f64,
     options: &AnalysisOptions,
-) -> Result<(Scan, Vec<(f64, T)>), crate::prob::ProbError> {
+) -> Result<Searched<T>, crate::prob::ProbError> {
     let mut evaluated = Vec::with_capacity(grid.len());
+    let mut refine_bound = 0.0_f64;
     let scan = scan_then_refine_staged(
         |sigma, stage| {
             let cached = match stage {
@@ -277,6 +288,9 @@ pub(crate) fn search_largest<T: Clone>(
                 None => at(sigma, stage).map_err(engine_of)?,
             };
             let v = value(&found);
+            if stage == Stage::Refine {
+                refine_bound = refine_bound.max(bound(&found));
+            }
             evaluated.push((sigma, found));
             Ok(-v)
         },
@@ -285,7 +299,27 @@ pub(crate) fn search_largest<T: Clone>(
         options.sigma_max_evaluations,
         true,
     )?;
-    Ok((scan, evaluated))
+    let found_bound = scan.minima.first().map_or(0.0, |m| {
+        evaluated
+            .iter()
+            .filter(|(s, _)| *s == m.x)
+            .fold(0.0_f64, |b, (_, t)| b.max(bound(t)))
+    });
+    Ok(Searched {
+        scan,
+        evaluated,
+        allowance: 2.0 * refine_bound.max(found_bound),
+    })
+}
+
+/// What [`search_largest`] found.
+pub(crate) struct Searched<T> {
+    /// The scan and its refined maxima.
+    pub scan: Scan,
+    /// Every evaluation, `(sigma, value)`, in the order made.
+    pub evaluated: Vec<(f64, T)>,
+    /// The search's ranking allowance on the bound of the maximised figure.
+    pub allowance: f64,
 }
 
 fn worst_case(
@@ -313,11 +347,16 @@ fn worst_case(
         .par_iter()
         .map(|&sigma| residual_at(sigma, Stage::Scan))
         .collect();
-    let (scan, evaluated) = search_largest(
+    let Searched {
+        scan,
+        evaluated,
+        allowance,
+    } = search_largest(
         &grid,
         &precomputed,
         residual_at,
         |r: &Estimate| r.value,
+        |r: &Estimate| r.error,
         options,
     )
     .map_err(|e| AnalysisError::engine("search of the worst fault sigma", e))?;
@@ -342,8 +381,9 @@ fn worst_case(
         Ok(engine.outcome(Scenario::Gaussian(scenario, mean, s))?.0)
     };
     // The location of the maximum is known to sigma_rel_tol: the figures may move by as much
-    // as they do over that distance, so widen every bound by it. The three sigmas are
-    // independent and computed in parallel.
+    // as they do over that distance, so widen every bound by it; the residual also by the
+    // search's ranking allowance (see `search_largest`). The three sigmas are independent and
+    // computed in parallel.
     let step = options.sigma_rel_tol.max(MIN_WIDENING_STEP_REL);
     let (centre, (left, right)) = rayon::join(
         || at(sigma),
@@ -357,9 +397,14 @@ fn worst_case(
     let (centre, left, right) = (centre?, left?, right?);
     let outcome = centre.widened(|f| {
         let c = centre.get(f).value;
-        (left.get(f).value - c)
+        let moved = (left.get(f).value - c)
             .abs()
-            .max((right.get(f).value - c).abs())
+            .max((right.get(f).value - c).abs());
+        if f == Figure::ViolatedUndetected {
+            moved + allowance
+        } else {
+            moved
+        }
     });
     let curve = if want_curve {
         let mut points = Vec::with_capacity(grid.len());

@@ -40,7 +40,7 @@ use super::metrics::{Metrics, metrics};
 use super::options::AnalysisOptions;
 use super::outcome::{Figure, Outcome};
 use super::scenario::FaultScenario;
-use super::site::{SiteResult, amplitude_window};
+use super::site::{MIN_WIDENING_STEP_REL, SiteResult, amplitude_window};
 use super::timing_split::{Split, crossings};
 
 /// Most terms constant over the interval that one scenario may have (each is one nested
@@ -333,6 +333,38 @@ fn timed_at(
     )
 }
 
+/// `(value, bound)` of the residual `p_vu` of a timed point.
+fn residual_of(point: &ManyPoint) -> (f64, f64) {
+    (
+        point.0.get(1).copied().unwrap_or(0.0),
+        point.1.get(1).copied().unwrap_or(0.0),
+    )
+}
+
+/// `centre` with every bound widened by how far its value moves to `left` or `right` (the
+/// neighbouring sigmas of a worst case), and the residual's bound also by `allowance`.
+fn widened_point(
+    centre: &ManyPoint,
+    left: &ManyPoint,
+    right: &ManyPoint,
+    allowance: f64,
+) -> ManyPoint {
+    let (values, bounds) = centre;
+    let widened = bounds
+        .iter()
+        .enumerate()
+        .map(|(i, e)| {
+            let c = values.get(i).copied().unwrap_or(0.0);
+            let moved = [left, right]
+                .iter()
+                .filter_map(|p| p.0.get(i))
+                .fold(0.0_f64, |m, v| m.max((v - c).abs()));
+            e + moved + if i == 1 { allowance } else { 0.0 }
+        })
+        .collect();
+    (values.clone(), widened)
+}
+
 fn to_site(
     name: &str,
     point: &ManyPoint,
@@ -469,22 +501,28 @@ pub fn timed_site(
             )
             .map_err(|e| AnalysisError::engine("grid over the fault sigma", e))?;
             let scan_rel = options.scan_tolerance().rel.max(accuracy.rel);
-            let residuals: Vec<f64> = grid
+            // (value, bound) of the residual at each grid point, at the scan tolerance.
+            let residuals: Vec<(f64, f64)> = grid
                 .par_iter()
-                .map(|s| at_sigma(*s, scan_rel).map(|(p, ..)| p.0[1]))
+                .map(|s| at_sigma(*s, scan_rel).map(|(p, ..)| residual_of(&p)))
                 .collect::<Result<_, _>>()?;
             let best = residuals
                 .iter()
                 .enumerate()
-                .fold(0, |b, (i, r)| if *r > residuals[b] { i } else { b });
+                .fold(0, |b, (i, r)| if r.0 > residuals[b].0 { i } else { b });
             let (a, b) = (
                 grid[best.saturating_sub(1)],
                 grid[(best + 1).min(grid.len() - 1)],
             );
             let mut failure = None;
+            let mut refine_bound = 0.0_f64;
             let refined = brent_minimise(
                 |log_sigma| match at_sigma(log_sigma.exp(), accuracy.rel) {
-                    Ok((p, ..)) => Ok(-p.0[1]),
+                    Ok((p, ..)) => {
+                        let (value, bound) = residual_of(&p);
+                        refine_bound = refine_bound.max(bound);
+                        Ok(-value)
+                    }
                     Err(e) => {
                         failure = Some(e);
                         Err(crate::prob::ProbError::InvalidArgument(
@@ -500,11 +538,28 @@ pub fn timed_site(
             if let Some(e) = failure {
                 return Err(e);
             }
-            let sigma = match refined {
-                Ok(m) if -m.value >= residuals[best] => m.x.exp(),
-                _ => grid[best],
+            let (sigma, found_bound) = match refined {
+                Ok(m) if -m.value >= residuals[best].0 => (m.x.exp(), refine_bound),
+                _ => (grid[best], residuals[best].1),
             };
-            let (p, split, sampler) = at_sigma(sigma, accuracy.rel)?;
+            // As for one sample (`site::search_largest`): the residual's bound gains twice the
+            // largest bound the search ranked by, and every figure the move over
+            // sigma_rel_tol either side of the sigma found.
+            let allowance = 2.0 * refine_bound.max(found_bound);
+            let step = options.sigma_rel_tol.max(MIN_WIDENING_STEP_REL);
+            // The three sigmas are independent and computed in parallel.
+            let (centre, (left, right)) = rayon::join(
+                || at_sigma(sigma, accuracy.rel),
+                || {
+                    rayon::join(
+                        || at_sigma((sigma * (1.0 - step)).max(*sigma_lo), accuracy.rel),
+                        || at_sigma((sigma * (1.0 + step)).min(*sigma_hi), accuracy.rel),
+                    )
+                },
+            );
+            let (p, split, sampler) = centre?;
+            let (left, right) = (left?.0, right?.0);
+            let p = widened_point(&p, &left, &right, allowance);
             let mut site = to_site(&fault.name, &p, Some(sigma), &split, &sampler);
             if best == 0 || best + 1 == grid.len() {
                 site.warnings.push(format!(
