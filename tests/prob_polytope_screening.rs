@@ -319,3 +319,118 @@ fn polytope_of_measure_zero_gets_a_small_honest_bound() {
     assert!(r.estimate.error <= 1e-10, "{r:?}");
     assert_eq!(r.points, 768, "{r:?}");
 }
+
+/// Three comparator states that no readings can take together: `a - b > 2`, `b - c > 2` and
+/// `a - c < 2` (the first two add up to `a - c > 4`; by hand). With channel `a` shifted by
+/// any amount the contradiction stays, so the polytope is empty for every shift; with the
+/// last row loosened to `a - c < 5` it is not (a = 4.5, b = 2.25, c = 0 at shift zero).
+#[test]
+fn contradictory_comparator_states_are_empty_for_every_shift() {
+    let g = gaussian(
+        &[0.1, -0.05, 0.0],
+        &[0.29, 0.115, -0.02, 0.115, 0.29, -0.02, -0.02, -0.02, 0.1325],
+    );
+    let shift = [1.0, 0.0, 0.0];
+    let build = |last: f64| {
+        let mut p = Polytope::new();
+        p.push(vec![1.0, -1.0, 0.0], Band::above(2.0));
+        p.push(vec![0.0, 1.0, -1.0], Band::above(2.0));
+        p.push(vec![1.0, 0.0, -1.0], Band::below(last));
+        p
+    };
+    assert!(g.empty_for_every_shift(&build(2.0), &shift, -540.0, 540.0));
+    assert!(!g.empty_for_every_shift(&build(5.0), &shift, -540.0, 540.0));
+    // Empty only for shifts that take `a` away from its band: `a + F` in [0, 1] needs F
+    // near 0, so a window of shifts far from it is empty and one across it is not.
+    let mut p = Polytope::new();
+    p.push(vec![1.0, 0.0, 0.0], Band::closed(0.0, 1.0));
+    assert!(!g.empty_for_every_shift(&p, &shift, -1.0, 1.0));
+    assert!(g.empty_for_every_shift(&p, &shift, 100.0, 540.0));
+}
+
+/// Random polytopes of three correlated channels shifted along a random direction over a
+/// random range, against the `microlp` crate's LP solver on the same question written
+/// directly (largest margin `t` with `lower + t <= a.(mean + L z + d F) <= upper - t`,
+/// `|z_j| <= 40`, `F` in the range): a polytope the solver finds a point inside by a
+/// margin must never be called empty, and one it finds infeasible by a clear margin must be.
+#[test]
+fn emptiness_over_a_shift_agrees_with_an_lp_solver() {
+    use concord::prob::rng::SplitMix64;
+    use microlp::{ComparisonOp, OptimizationDirection, Problem};
+    let cov = [0.29, 0.115, -0.02, 0.115, 0.29, -0.02, -0.02, -0.02, 0.1325];
+    let mean = [0.1, -0.05, 0.0];
+    let g = gaussian(&mean, &cov);
+    let l = DMatrix::from_row_slice(3, 3, &cov)
+        .cholesky()
+        .expect("positive definite")
+        .l();
+    let mut rng = SplitMix64::new(20261205);
+    let mut pick = |values: &[f64]| values[(rng.next_u64() % values.len() as u64) as usize];
+    let (mut empty, mut inside) = (0, 0);
+    for case in 0..400 {
+        let coeffs = [-1.0, 0.0, 1.0];
+        let rows: Vec<(Vec<f64>, f64, f64)> = (0..3 + case % 3)
+            .map(|_| {
+                let row = vec![pick(&coeffs), pick(&coeffs), pick(&coeffs)];
+                let lower = pick(&[f64::NEG_INFINITY, -3.0, -1.0, 0.5, 2.0]);
+                let upper = lower.max(-4.0) + pick(&[0.5, 1.5, 4.0, f64::INFINITY]);
+                (row, lower, upper)
+            })
+            .filter(|(row, _, _)| row.iter().any(|v| *v != 0.0))
+            .collect();
+        let direction = [pick(&coeffs), pick(&[0.0, 1.0]), 0.0];
+        let from = pick(&[-540.0, -5.0, 0.0, 3.0]);
+        let to = from + pick(&[0.0, 1.0, 10.0, 1080.0]);
+        let mut p = Polytope::new();
+        for (row, lower, upper) in &rows {
+            let band = match (lower.is_finite(), upper.is_finite()) {
+                (true, true) => Band::closed(*lower, *upper),
+                (true, false) => Band::above(*lower),
+                (false, true) => Band::below(*upper),
+                (false, false) => continue,
+            };
+            p.push(row.clone(), band);
+        }
+        let ours = g.empty_for_every_shift(&p, &direction, from, to);
+        let mut lp = Problem::new(OptimizationDirection::Maximize);
+        let z: Vec<_> = (0..3).map(|_| lp.add_var(0.0, (-40.0, 40.0))).collect();
+        let f = lp.add_var(0.0, (from, to));
+        let t = lp.add_var(1.0, (f64::NEG_INFINITY, 10.0));
+        for (row, lower, upper) in &rows {
+            let shift: f64 = row.iter().zip(&mean).map(|(a, m)| a * m).sum();
+            let gain: f64 = row.iter().zip(&direction).map(|(a, d)| a * d).sum();
+            let b: Vec<f64> = (0..3)
+                .map(|k| (0..3).map(|i| row[i] * l[(i, k)]).sum())
+                .collect();
+            let mut terms: Vec<_> = z.iter().zip(&b).map(|(&v, &c)| (v, c)).collect();
+            terms.push((f, gain));
+            if upper.is_finite() {
+                let mut up = terms.clone();
+                up.push((t, 1.0));
+                lp.add_constraint(up.as_slice(), ComparisonOp::Le, upper - shift);
+            }
+            if lower.is_finite() {
+                let mut down: Vec<_> = terms.iter().map(|&(v, c)| (v, -c)).collect();
+                down.push((t, 1.0));
+                lp.add_constraint(down.as_slice(), ComparisonOp::Le, shift - lower);
+            }
+        }
+        let margin = match lp.solve() {
+            Ok(outcome) => outcome.into_solution().expect("no limits set").objective(),
+            Err(microlp::Error::Infeasible) => f64::NEG_INFINITY,
+            Err(e) => panic!("case {case}: {e:?}"),
+        };
+        if margin > 1e-6 {
+            inside += 1;
+            assert!(
+                !ours,
+                "case {case}: a point lies inside by {margin}, called empty"
+            );
+        } else if margin < -1e-3 {
+            empty += 1;
+            assert!(ours, "case {case}: empty by {margin}, not proven");
+        }
+    }
+    // Both kinds must occur for the comparison to mean anything.
+    assert!(empty > 20 && inside > 20, "empty {empty}, inside {inside}");
+}

@@ -249,6 +249,16 @@ pub(crate) fn uniform_total(
             let p = probability(&g, polytope)?;
             return Ok(p.scale(span).add(beyond));
         }
+        // Empty at every amplitude of the window (a contradiction that only the rows
+        // together show): nothing to integrate.
+        if scenario.base.empty_for_every_shift(
+            polytope,
+            &scenario.direction,
+            window.lower,
+            window.upper,
+        ) {
+            return Ok(beyond);
+        }
         let mut quad = options.quadrature();
         quad.max_intervals += window.breakpoints.len();
         // The tolerances apply to the mean over the whole range: scale by its width.

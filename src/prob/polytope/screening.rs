@@ -79,3 +79,101 @@ pub(super) fn depth_bound(rows: &[UnitRow], rank: usize) -> Depth {
         None => Depth::Thin(1.0),
     }
 }
+
+/// Allowance for rounding in [`Gaussian::empty_for_every_shift`], relative to the sizes of
+/// the terms of a row: far above the unit roundoff of the few sums involved, and far below
+/// the margins by which the polytopes of an analysis are empty (a standard deviation or so).
+const SHIFT_EMPTY_GIVE_REL: f64 = 1e-12;
+
+impl super::Gaussian {
+    /// Whether the polytope is empty for every shift of the mean by `amplitude * direction`
+    /// with the amplitude in `[lower, upper]`: a proof, not a guess. The rows are written in
+    /// the standard normal coordinates `z` and the amplitude together, the amplitude scaled
+    /// so that its range is the box side, and [`feasibility::margin_bound`] must prove that
+    /// no point of `|z_j| <= UNDERFLOW_X` (outside which the probability is below every
+    /// double) and of the range lies inside. Each row end moves out first by
+    /// [`SHIFT_EMPTY_GIVE_REL`] of the row's terms; a row that reads neither `z` nor the
+    /// amplitude is left out. Both only widen the polytope, so they can only cost a proof.
+    /// An integral over a uniform amplitude uses it to skip the polytopes that only the
+    /// combination of their rows empties (three checks on differences whose tripping
+    /// states contradict, say), which are otherwise found empty at every point of the rule.
+    pub fn empty_for_every_shift(
+        &self,
+        polytope: &super::Polytope,
+        direction: &[f64],
+        lower: f64,
+        upper: f64,
+    ) -> bool {
+        let (dim, rank) = (self.dim(), self.rank());
+        if direction.len() != dim
+            || polytope.rows.len() != polytope.bands.len()
+            || !(lower.is_finite() && upper.is_finite() && lower <= upper)
+        {
+            return false;
+        }
+        let radius = normal::UNDERFLOW_X;
+        let (mid, half) = (0.5 * (lower + upper), 0.5 * (upper - lower));
+        // Half-space normals over (z, t), with F = mid + half t / radius, |t| <= radius.
+        let mut normals: Vec<Vec<f64>> = Vec::with_capacity(2 * polytope.rows.len());
+        let mut offsets: Vec<f64> = Vec::with_capacity(2 * polytope.rows.len());
+        for (row, band) in polytope.rows.iter().zip(&polytope.bands) {
+            if row.len() != dim {
+                return false;
+            }
+            let mut b = vec![0.0; rank + 1];
+            let (mut shift, mut shift_size, mut gain, mut gain_size, mut spread) =
+                (0.0, 0.0, 0.0, 0.0, 0.0);
+            for (i, &a) in row.iter().enumerate() {
+                if a == 0.0 {
+                    continue;
+                }
+                shift += a * self.mean[i];
+                shift_size += (a * self.mean[i]).abs();
+                gain += a * direction[i];
+                gain_size += (a * direction[i]).abs();
+                let l = self.factor.row(i);
+                spread += a.abs() * l.iter().map(|v| v * v).sum::<f64>().sqrt();
+                for (bk, &lk) in b.iter_mut().zip(l) {
+                    *bk += a * lk;
+                }
+            }
+            b[rank] = gain * half / radius;
+            let norm = b.iter().map(|v| v * v).sum::<f64>().sqrt();
+            if !(norm > 0.0 && norm.is_finite()) {
+                continue;
+            }
+            let centre = shift + gain * mid;
+            let ends = [band.lower, band.upper]
+                .iter()
+                .filter(|v| v.is_finite())
+                .fold(0.0_f64, |m, v| m.max(v.abs()));
+            let give = SHIFT_EMPTY_GIVE_REL
+                * (ends
+                    + shift_size
+                    + gain_size * (mid.abs() + half)
+                    + (spread + norm) * radius * ((rank + 1) as f64).sqrt())
+                / norm;
+            let unit: Vec<f64> = b.iter().map(|v| v / norm).collect();
+            if band.upper.is_finite() {
+                normals.push(unit.clone());
+                offsets.push((band.upper - centre) / norm + give);
+            }
+            if band.lower.is_finite() {
+                normals.push(unit.iter().map(|v| -v).collect());
+                offsets.push((centre - band.lower) / norm + give);
+            }
+        }
+        if normals.is_empty() {
+            return false;
+        }
+        let spaces: Vec<HalfSpace> = normals
+            .iter()
+            .zip(&offsets)
+            .map(|(normal, &offset)| HalfSpace { normal, offset })
+            .collect();
+        matches!(
+            feasibility::margin_bound(&spaces, rank + 1, radius),
+            Some(margin) if margin < 0.0
+        )
+    }
+}
