@@ -9,7 +9,7 @@ use crate::prob::strip::Strips;
 use crate::prob::tolerance;
 
 use super::MAX_ROWS;
-use super::reduction::{MEAN_ABS_NORMAL, UnitRow};
+use super::reduction::{Direction, MEAN_ABS_NORMAL, UnitRow};
 
 /// One row of the lower-trapezoidal system, divided by its leading coefficient:
 /// `lower <= w_j + coef . w[..j] <= upper`, or an indicator on `w[..j]` when its leading
@@ -91,7 +91,7 @@ impl Plan {
     /// at their truncated means (Genz and Bretz 2009, sec. 4.1.3).
     pub(super) fn build(rows: &[UnitRow], rank: usize) -> Self {
         let m = rows.len();
-        let mut w: Vec<Vec<f64>> = rows.iter().map(|row| row.dir.clone()).collect();
+        let mut w: Vec<Vec<f64>> = rows.iter().map(|row| row.dir.to_vec()).collect();
         let mut remaining: Vec<usize> = (0..m).collect();
         let mut means: Vec<f64> = Vec::new();
         let mut groups: Vec<Vec<usize>> = Vec::new();
@@ -146,7 +146,7 @@ impl Plan {
                         // Dropping `res * Z` from the row moves its ends by that much, on
                         // average E|Z| = sqrt(2 / pi) times res.
                         neglected.push(UnitRow {
-                            dir: Vec::new(),
+                            dir: Direction::new(),
                             lower: rows[q].lower,
                             upper: rows[q].upper,
                             slack: 0.0,

@@ -13,7 +13,7 @@ impl Gaussian {
         let r = self.rank();
         let mut rows: Vec<UnitRow> = Vec::new();
         for (a, band) in polytope.rows.iter().zip(polytope.bands.iter()) {
-            let mut b = vec![0.0; r];
+            let mut b: Direction = smallvec::smallvec![0.0; r];
             let mut shift = 0.0;
             let mut shift_abs = 0.0;
             // sum of |a_i| sd_i: the size of the random terms before they cancel
@@ -107,10 +107,14 @@ pub(super) enum Reduced {
     Rows(Vec<UnitRow>),
 }
 
+/// The entries of a unit direction: inline up to four (the ranks of most analyses), so that
+/// reducing a polytope does not allocate per row.
+pub(super) type Direction = smallvec::SmallVec<[f64; 4]>;
+
 /// A random constraint `lower <= dir . z <= upper` with `|dir| = 1`.
 #[derive(Debug, Clone)]
 pub(super) struct UnitRow {
-    pub(super) dir: Vec<f64>,
+    pub(super) dir: Direction,
     pub(super) lower: f64,
     pub(super) upper: f64,
     /// Bound on the rounding error of `lower` and `upper`.
