@@ -91,7 +91,7 @@ impl Plan {
     /// at their truncated means (Genz and Bretz 2009, sec. 4.1.3).
     pub(super) fn build(rows: &[UnitRow], rank: usize) -> Self {
         let m = rows.len();
-        let mut w: Vec<Vec<f64>> = rows.iter().map(|row| row.dir.to_vec()).collect();
+        let mut w: Vec<Direction> = rows.iter().map(|row| row.dir.clone()).collect();
         let mut remaining: Vec<usize> = (0..m).collect();
         let mut means: Vec<f64> = Vec::new();
         let mut groups: Vec<Vec<usize>> = Vec::new();
@@ -114,7 +114,7 @@ impl Plan {
             }
             let pivot = remaining.remove(best.1);
             // Householder reflection of columns j.. mapping the pivot row onto +d e_j.
-            let x: Vec<f64> = w[pivot][j..].to_vec();
+            let x: Direction = w[pivot][j..].iter().copied().collect();
             let d = x.iter().map(|v| v * v).sum::<f64>().sqrt();
             let alpha = if x[0] >= 0.0 { -d } else { d };
             let mut v = x.clone();
