@@ -228,12 +228,15 @@ impl Evaluator {
     ) -> Result<Estimate, AnalysisError> {
         // The polytopes are independent: computed in parallel, summed in their fixed order,
         // so the total has the same bits whatever the thread count. Of a gaussian of rank two
-        // or less every polytope is a closed form of microseconds: handing them to other
-        // threads would cost more than it saves (inside an integral over constant terms the
-        // wake-ups of idle threads once took more time than the figures), so they run here.
+        // or less every polytope takes a path of microseconds (the exact paths are on, and
+        // the conditioning has at most `rank` variables: a normal interval, a bivariate
+        // rectangle or the polygon of a normal pair, each with its bound): handing them to
+        // other threads would cost more than it saves (inside an integral over constant
+        // terms the wake-ups of idle threads once took more time than the figures), so they
+        // run here.
         let polytopes = self.polytopes(figure);
         let one = |poly: &Polytope| probability_at(gaussian, poly, figure, tolerance);
-        let parts: Vec<Result<Estimate, AnalysisError>> = if gaussian.rank() <= SERIAL_RANK {
+        let parts: Vec<Result<Estimate, AnalysisError>> = if gaussian.rank() <= SERIAL_MAX_RANK {
             polytopes.iter().map(one).collect()
         } else {
             polytopes.par_iter().map(one).collect()
@@ -267,9 +270,9 @@ impl Evaluator {
 }
 
 /// Largest rank of a gaussian whose polytopes [`Evaluator::figure_with`] computes on the
-/// calling thread: up to two random directions every polytope has an exact path (a normal
-/// interval, a bivariate rectangle or the polygon of a normal pair).
-const SERIAL_RANK: usize = 2;
+/// calling thread: up to two random directions every polytope takes a cheap deterministic
+/// path (a normal interval, a bivariate rectangle or the polygon of a normal pair).
+const SERIAL_MAX_RANK: usize = 2;
 
 /// One polytope of `figure` at `tolerance`, best effort (the bound says how well it went).
 fn probability_at(

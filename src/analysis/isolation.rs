@@ -24,7 +24,7 @@ use super::error::AnalysisError;
 use super::options::AnalysisOptions;
 use super::run::{Analysis, analyze};
 use super::scenario::FaultScenario;
-use super::site::{MIN_WIDENING_STEP_REL, SiteResult, search_largest, uniform_total};
+use super::site::{MIN_WIDENING_STEP_REL, SiteResult, reach_beyond, search_largest, uniform_total};
 
 /// The isolation figures of one fault site.
 #[derive(Debug, Clone, PartialEq)]
@@ -366,7 +366,7 @@ fn site_isolation(
                 .iter()
                 .zip(left.iter().zip(&right))
                 .map(|(c, (l, r))| {
-                    let moved = (l.value - c.value).abs().max((r.value - c.value).abs());
+                    let moved = reach_beyond(*c, *l).max(reach_beyond(*c, *r));
                     Estimate::new(c.value, c.error + moved)
                 })
                 .collect();
@@ -469,10 +469,16 @@ fn worst_wrong_sigma(
         .iter()
         .all(|v| matches!(v, Ok(w) if w.value == 0.0))
     {
+        // Zero on the grid within each point's bound: the largest of those bounds is what
+        // the scan can say of the maximum.
+        let largest_bound = precomputed
+            .iter()
+            .filter_map(|v| v.as_ref().ok())
+            .fold(0.0_f64, |m, w| m.max(w.error));
         return Ok(WrongSigma {
             sigma: fallback,
             at_end: false,
-            allowance: 0.0,
+            allowance: largest_bound,
         });
     }
     let found = search_largest(

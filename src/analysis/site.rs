@@ -235,6 +235,14 @@ const SUM_ROUNDING: f64 = 1e-12;
 /// neighbouring sigmas still differ from the centre in floating point.
 pub(crate) const MIN_WIDENING_STEP_REL: f64 = 1e-12;
 
+/// How far the interval of `neighbour` (a figure at a neighbouring sigma, with its bound)
+/// reaches beyond that of `centre`: what the centre's bound must grow by to hold both, so
+/// that a worst case located to `sigma_rel_tol` covers the figure anywhere in that distance
+/// (the neighbour's own error included, not only its value's move).
+pub(crate) fn reach_beyond(centre: Estimate, neighbour: Estimate) -> f64 {
+    ((neighbour.value - centre.value).abs() + neighbour.error - centre.error).max(0.0)
+}
+
 /// The quadrature takes engine errors only; analysis errors are carried through as their
 /// engine cause or as an invalid argument with the message.
 pub(crate) fn engine_of(e: AnalysisError) -> crate::prob::ProbError {
@@ -396,10 +404,8 @@ fn worst_case(
     );
     let (centre, left, right) = (centre?, left?, right?);
     let outcome = centre.widened(|f| {
-        let c = centre.get(f).value;
-        let moved = (left.get(f).value - c)
-            .abs()
-            .max((right.get(f).value - c).abs());
+        let c = centre.get(f);
+        let moved = reach_beyond(c, left.get(f)).max(reach_beyond(c, right.get(f)));
         if f == Figure::ViolatedUndetected {
             moved + allowance
         } else {

@@ -25,7 +25,7 @@ use crate::model::{Amplitude, CompiledFault, CompiledModel, Timing};
 use crate::prob::Estimate;
 use crate::prob::debounce::{DebounceChain, episode_rate, episode_rate_sensitivity};
 use crate::prob::normal;
-use crate::prob::optimise::{brent_minimise, log_grid};
+use crate::prob::optimise::{Stage, log_grid};
 use crate::prob::order::{
     Accuracy as OrderAccuracy, Question, SharedGaussian, figures as order_figures,
     unsupported_reason,
@@ -40,7 +40,9 @@ use super::metrics::{Metrics, metrics};
 use super::options::AnalysisOptions;
 use super::outcome::{Figure, Outcome};
 use super::scenario::FaultScenario;
-use super::site::{MIN_WIDENING_STEP_REL, SiteResult, amplitude_window};
+use super::site::{
+    MIN_WIDENING_STEP_REL, SiteResult, amplitude_window, reach_beyond, search_largest,
+};
 use super::timing_split::{Split, crossings};
 
 /// Most terms constant over the interval that one scenario may have (each is one nested
@@ -341,8 +343,9 @@ fn residual_of(point: &ManyPoint) -> (f64, f64) {
     )
 }
 
-/// `centre` with every bound widened by how far its value moves to `left` or `right` (the
-/// neighbouring sigmas of a worst case), and the residual's bound also by `allowance`.
+/// `centre` with every bound widened to hold the values at `left` and `right` too (the
+/// neighbouring sigmas of a worst case, [`reach_beyond`]), and the residual's bound also by
+/// `allowance`.
 fn widened_point(
     centre: &ManyPoint,
     left: &ManyPoint,
@@ -354,11 +357,11 @@ fn widened_point(
         .iter()
         .enumerate()
         .map(|(i, e)| {
-            let c = values.get(i).copied().unwrap_or(0.0);
+            let c = Estimate::new(values.get(i).copied().unwrap_or(0.0), *e);
             let moved = [left, right]
                 .iter()
-                .filter_map(|p| p.0.get(i))
-                .fold(0.0_f64, |m, v| m.max((v - c).abs()));
+                .filter_map(|p| Some(Estimate::new(*p.0.get(i)?, *p.1.get(i)?)))
+                .fold(0.0_f64, |m, n| m.max(reach_beyond(c, n)));
             e + moved + if i == 1 { allowance } else { 0.0 }
         })
         .collect();
@@ -501,51 +504,37 @@ pub fn timed_site(
             )
             .map_err(|e| AnalysisError::engine("grid over the fault sigma", e))?;
             let scan_rel = options.scan_tolerance().rel.max(accuracy.rel);
-            // (value, bound) of the residual at each grid point, at the scan tolerance.
-            let residuals: Vec<(f64, f64)> = grid
-                .par_iter()
-                .map(|s| at_sigma(*s, scan_rel).map(|(p, ..)| residual_of(&p)))
-                .collect::<Result<_, _>>()?;
-            let best = residuals
-                .iter()
-                .enumerate()
-                .fold(0, |b, (i, r)| if r.0 > residuals[b].0 { i } else { b });
-            let (a, b) = (
-                grid[best.saturating_sub(1)],
-                grid[(best + 1).min(grid.len() - 1)],
-            );
-            let mut failure = None;
-            let mut refine_bound = 0.0_f64;
-            let refined = brent_minimise(
-                |log_sigma| match at_sigma(log_sigma.exp(), accuracy.rel) {
-                    Ok((p, ..)) => {
-                        let (value, bound) = residual_of(&p);
-                        refine_bound = refine_bound.max(bound);
-                        Ok(-value)
-                    }
-                    Err(e) => {
-                        failure = Some(e);
-                        Err(crate::prob::ProbError::InvalidArgument(
-                            "a timed residual failed".into(),
-                        ))
-                    }
-                },
-                a.ln(),
-                b.ln(),
-                options.sigma_rel_tol,
-                options.sigma_max_evaluations,
-            );
-            if let Some(e) = failure {
-                return Err(e);
-            }
-            let (sigma, found_bound) = match refined {
-                Ok(m) if -m.value >= residuals[best].0 => (m.x.exp(), refine_bound),
-                _ => (grid[best], residuals[best].1),
+            // (value, bound) of the residual: the grid at the scan tolerance (in parallel),
+            // then every local maximum refined at the full one, as for one sample.
+            let residual_at = |sigma: f64, stage: Stage| -> Result<(f64, f64), AnalysisError> {
+                let rel = match stage {
+                    Stage::Scan => scan_rel,
+                    Stage::Refine => accuracy.rel,
+                };
+                at_sigma(sigma, rel).map(|(p, ..)| residual_of(&p))
             };
-            // As for one sample (`site::search_largest`): the residual's bound gains twice the
-            // largest bound the search ranked by, and every figure the move over
-            // sigma_rel_tol either side of the sigma found.
-            let allowance = 2.0 * refine_bound.max(found_bound);
+            let precomputed: Vec<Result<(f64, f64), AnalysisError>> = grid
+                .par_iter()
+                .map(|s| residual_at(*s, Stage::Scan))
+                .collect();
+            let found = search_largest(
+                &grid,
+                &precomputed,
+                residual_at,
+                |r: &(f64, f64)| r.0,
+                |r: &(f64, f64)| r.1,
+                options,
+            )
+            .map_err(|e| AnalysisError::engine("search of the worst timed fault sigma", e))?;
+            let (sigma, at_end) = found
+                .scan
+                .minima
+                .first()
+                .map_or((*sigma_lo, false), |m| (m.x, m.at_boundary));
+            // As for one sample (`site::search_largest`): the residual's bound gains the
+            // search's ranking allowance, and every figure the move over sigma_rel_tol
+            // either side of the sigma found.
+            let allowance = found.allowance;
             let step = options.sigma_rel_tol.max(MIN_WIDENING_STEP_REL);
             // The three sigmas are independent and computed in parallel.
             let (centre, (left, right)) = rayon::join(
@@ -561,7 +550,7 @@ pub fn timed_site(
             let (left, right) = (left?.0, right?.0);
             let p = widened_point(&p, &left, &right, allowance);
             let mut site = to_site(&fault.name, &p, Some(sigma), &split, &sampler);
-            if best == 0 || best + 1 == grid.len() {
+            if at_end {
                 site.warnings.push(format!(
                     "the worst timed residual of '{}' sits at an end of the sigma range [{}, {}]: \
                      widen the range (amplitude.gaussian.sigma = {{ unknown = [lo, hi] }}) to be \
