@@ -119,6 +119,25 @@ fn bench(c: &mut Criterion) {
             })
         },
     );
+    // The bundled three-channel example's frozen channel (uniform over the full scale): the
+    // polytopes empty at every amplitude are proven so once and skipped (issue 23: most of
+    // the sensitivity's re-analyses of that file).
+    let swa3_path = concat!(
+        env!("CARGO_MANIFEST_DIR"),
+        "/architectures/plovrant_swa3_median.toml"
+    );
+    let swa3_text = std::fs::read_to_string(swa3_path).expect("bundled example");
+    let swa3 = load_str(&swa3_text, "plovrant_swa3_median.toml").expect("bench file");
+    let swa3_engine = Engine::new(&swa3.model, &options);
+    let frozen = swa3
+        .model
+        .faults
+        .iter()
+        .find(|f| f.name == "a_frozen")
+        .expect("the example's frozen site");
+    group.bench_function("site: the three-channel example, frozen channel", |b| {
+        b.iter(|| analyze_site(&swa3_engine, frozen, &options, false).expect("site"))
+    });
     // The bundled four-channel example (median of four, a range check and a check of two
     // package averages: polytopes). Issue target: under 2 s for the whole file.
     let four_path = concat!(
