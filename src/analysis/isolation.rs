@@ -24,7 +24,7 @@ use super::error::AnalysisError;
 use super::options::AnalysisOptions;
 use super::run::{Analysis, analyze};
 use super::scenario::FaultScenario;
-use super::site::{MIN_WIDENING_STEP_REL, SiteResult, reach_beyond, search_largest, uniform_total};
+use super::site::{SiteResult, at_and_around, reach_beyond, search_largest, uniform_total};
 
 /// The isolation figures of one fault site.
 #[derive(Debug, Clone, PartialEq)]
@@ -357,11 +357,13 @@ fn site_isolation(
                 let g = scenario.with_gaussian_amplitude(*mean, sigma)?;
                 plan.classes_at(&g, &all, &tol)
             };
-            let centre = at(s).map_err(named)?;
             // The location is known to sigma_rel_tol: widen by the move over that distance.
-            let step = options.sigma_rel_tol.max(MIN_WIDENING_STEP_REL);
-            let left = at((s * (1.0 - step)).max(*sigma_lo)).map_err(named)?;
-            let right = at((s * (1.0 + step)).min(*sigma_hi)).map_err(named)?;
+            let (centre, left, right) = at_and_around(s, (*sigma_lo, *sigma_hi), options, at);
+            let (centre, left, right) = (
+                centre.map_err(named)?,
+                left.map_err(named)?,
+                right.map_err(named)?,
+            );
             let widened = centre
                 .iter()
                 .zip(left.iter().zip(&right))
@@ -447,11 +449,7 @@ fn worst_wrong_sigma(
 ) -> Result<WrongSigma, AnalysisError> {
     let fallback = site.worst.as_ref().map_or(range.0, |w| w.sigma);
     if healthy.is_empty() {
-        return Ok(WrongSigma {
-            sigma: fallback,
-            at_end: false,
-            allowance: 0.0,
-        });
+        return Ok(WrongSigma::kept(fallback, 0.0));
     }
     let grid = log_grid(range.0, range.1, options.sigma_scan_points.max(3))
         .map_err(|e| AnalysisError::engine("grid over the fault sigma", e))?;
@@ -475,11 +473,7 @@ fn worst_wrong_sigma(
             .iter()
             .filter_map(|v| v.as_ref().ok())
             .fold(0.0_f64, |m, w| m.max(w.error));
-        return Ok(WrongSigma {
-            sigma: fallback,
-            at_end: false,
-            allowance: largest_bound,
-        });
+        return Ok(WrongSigma::kept(fallback, largest_bound));
     }
     let found = search_largest(
         &grid,
@@ -490,18 +484,15 @@ fn worst_wrong_sigma(
         options,
     )
     .map_err(|e| AnalysisError::engine("search of the sigma that most often blames wrongly", e))?;
-    Ok(found.scan.minima.first().map_or(
-        WrongSigma {
-            sigma: fallback,
-            at_end: false,
-            allowance: 0.0,
-        },
-        |m| WrongSigma {
+    Ok(found
+        .scan
+        .minima
+        .first()
+        .map_or(WrongSigma::kept(fallback, 0.0), |m| WrongSigma {
             sigma: m.x,
             at_end: m.at_boundary,
             allowance: found.allowance,
-        },
-    ))
+        }))
 }
 
 /// Where "a healthy channel blamed" is largest over an unknown sigma.
@@ -511,4 +502,15 @@ struct WrongSigma {
     at_end: bool,
     /// The search's ranking allowance on the wrong blame's bound (see `search_largest`).
     allowance: f64,
+}
+
+impl WrongSigma {
+    /// The residual's worst sigma kept (no search, or nothing found), with `allowance`.
+    fn kept(sigma: f64, allowance: f64) -> Self {
+        Self {
+            sigma,
+            at_end: false,
+            allowance,
+        }
+    }
 }

@@ -233,7 +233,30 @@ const SUM_ROUNDING: f64 = 1e-12;
 /// Smallest relative step in sigma over which the figures of a worst case are compared to
 /// widen its bounds: a `sigma_rel_tol` below it (zero, say) is raised to it, so that the two
 /// neighbouring sigmas still differ from the centre in floating point.
-pub(crate) const MIN_WIDENING_STEP_REL: f64 = 1e-12;
+const MIN_WIDENING_STEP_REL: f64 = 1e-12;
+
+/// `at` of the sigma found by a worst-case search and of its neighbours `sigma_rel_tol`
+/// either side (kept within `range`), `(centre, left, right)`: what the worst case is
+/// reported at and widened over ([`reach_beyond`]). The three are independent and computed
+/// in parallel.
+pub(crate) fn at_and_around<T: Send>(
+    sigma: f64,
+    range: (f64, f64),
+    options: &AnalysisOptions,
+    at: impl Fn(f64) -> T + Sync,
+) -> (T, T, T) {
+    let step = options.sigma_rel_tol.max(MIN_WIDENING_STEP_REL);
+    let (centre, (left, right)) = rayon::join(
+        || at(sigma),
+        || {
+            rayon::join(
+                || at((sigma * (1.0 - step)).max(range.0)),
+                || at((sigma * (1.0 + step)).min(range.1)),
+            )
+        },
+    );
+    (centre, left, right)
+}
 
 /// How far the interval of `neighbour` (a figure at a neighbouring sigma, with its bound)
 /// reaches beyond that of `centre`: what the centre's bound must grow by to hold both, so
@@ -390,18 +413,8 @@ fn worst_case(
     };
     // The location of the maximum is known to sigma_rel_tol: the figures may move by as much
     // as they do over that distance, so widen every bound by it; the residual also by the
-    // search's ranking allowance (see `search_largest`). The three sigmas are independent and
-    // computed in parallel.
-    let step = options.sigma_rel_tol.max(MIN_WIDENING_STEP_REL);
-    let (centre, (left, right)) = rayon::join(
-        || at(sigma),
-        || {
-            rayon::join(
-                || at((sigma * (1.0 - step)).max(lo)),
-                || at((sigma * (1.0 + step)).min(hi)),
-            )
-        },
-    );
+    // search's ranking allowance (see `search_largest`).
+    let (centre, left, right) = at_and_around(sigma, range, options, at);
     let (centre, left, right) = (centre?, left?, right?);
     let outcome = centre.widened(|f| {
         let c = centre.get(f);

@@ -40,9 +40,7 @@ use super::metrics::{Metrics, metrics};
 use super::options::AnalysisOptions;
 use super::outcome::{Figure, Outcome};
 use super::scenario::FaultScenario;
-use super::site::{
-    MIN_WIDENING_STEP_REL, SiteResult, amplitude_window, reach_beyond, search_largest,
-};
+use super::site::{SiteResult, amplitude_window, at_and_around, reach_beyond, search_largest};
 use super::timing_split::{Split, crossings};
 
 /// Most terms constant over the interval that one scenario may have (each is one nested
@@ -535,17 +533,10 @@ pub fn timed_site(
             // search's ranking allowance, and every figure the move over sigma_rel_tol
             // either side of the sigma found.
             let allowance = found.allowance;
-            let step = options.sigma_rel_tol.max(MIN_WIDENING_STEP_REL);
-            // The three sigmas are independent and computed in parallel.
-            let (centre, (left, right)) = rayon::join(
-                || at_sigma(sigma, accuracy.rel),
-                || {
-                    rayon::join(
-                        || at_sigma((sigma * (1.0 - step)).max(*sigma_lo), accuracy.rel),
-                        || at_sigma((sigma * (1.0 + step)).min(*sigma_hi), accuracy.rel),
-                    )
-                },
-            );
+            let (centre, left, right) =
+                at_and_around(sigma, (*sigma_lo, *sigma_hi), options, |s| {
+                    at_sigma(s, accuracy.rel)
+                });
             let (p, split, sampler) = centre?;
             let (left, right) = (left?.0, right?.0);
             let p = widened_point(&p, &left, &right, allowance);

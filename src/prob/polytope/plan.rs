@@ -9,7 +9,7 @@ use crate::prob::strip::Strips;
 use crate::prob::tolerance;
 
 use super::MAX_ROWS;
-use super::reduction::{Direction, MEAN_ABS_NORMAL, UnitRow};
+use super::reduction::{Direction, UnitRow};
 
 /// One row of the lower-trapezoidal system, divided by its leading coefficient:
 /// `lower <= w_j + coef . w[..j] <= upper`, or an indicator on `w[..j]` when its leading
@@ -150,7 +150,7 @@ impl Plan {
                             lower: rows[q].lower,
                             upper: rows[q].upper,
                             slack: 0.0,
-                            tilt: MEAN_ABS_NORMAL * res,
+                            tilt: normal::MEAN_ABS * res,
                             dir_error: res,
                         });
                     }

@@ -84,7 +84,7 @@ pub(super) fn rows_merge(rows: &mut Vec<UnitRow>, new: UnitRow) {
         let opposite = opposite_gap <= tolerance::PARALLEL_ROW_ABS;
         if same || opposite {
             let turn = if same { same_gap } else { opposite_gap };
-            row.tilt = row.tilt.max(new.tilt + MEAN_ABS_NORMAL * turn);
+            row.tilt = row.tilt.max(new.tilt + normal::MEAN_ABS * turn);
             let (lower, upper) = if same {
                 (new.lower, new.upper)
             } else {
@@ -157,6 +157,3 @@ impl UnitRow {
         self.tilt * (end(self.lower) + end(self.upper))
     }
 }
-
-/// `E|Z| = sqrt(2 / pi)` for standard normal `Z`.
-pub(super) const MEAN_ABS_NORMAL: f64 = normal::MEAN_ABS;
